@@ -1,0 +1,24 @@
+//! Physical constants (SI). CODATA values.
+
+/// Speed of light in vacuum, m/s (exact, SI definition).
+pub const C0: f64 = 299_792_458.0;
+/// Vacuum permeability, H/m (CODATA 2018: 1.25663706212e-6).
+pub const MU0: f64 = 1.256_637_062_12e-6;
+/// Vacuum permittivity, F/m, from 1/(mu0 c0^2).
+pub const EPS0: f64 = 1.0 / (MU0 * C0 * C0);
+/// Free-space impedance eta0 = mu0 c0 = 376.7303 ohm (not 120 pi).
+pub const ETA0: f64 = MU0 * C0;
+/// One mil in metres (exact).
+pub const MIL: f64 = 25.4e-6;
+/// Nepers to decibels: 20 / ln 10.
+pub const NP_TO_DB: f64 = 8.685_889_638_065_037;
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn eta0_is_physical_not_120pi() {
+        // CODATA 2018 characteristic impedance of vacuum: 376.730 313 668 ohm.
+        assert!((ETA0 - 376.730_313_668).abs() < 1e-6);
+    }
+}

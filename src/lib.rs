@@ -1,0 +1,1 @@
+//! stackup-lint library
