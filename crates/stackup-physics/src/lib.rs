@@ -4,3 +4,20 @@
 //! published source in its doc comment and is tested against an outside value.
 
 pub mod consts;
+
+// Transmission-line engine.
+pub mod coupled;
+pub mod cpw;
+pub mod elliptic;
+pub mod fieldsolver;
+pub mod microstrip;
+pub mod modes;
+pub mod stripline;
+pub mod validity;
+
+// Materials and copper.
+pub mod copper;
+pub mod dispersion;
+pub mod fab;
+pub mod loss;
+pub mod roughness;
