@@ -1,1 +1,234 @@
-//! (module being written)
+//! Edge-coupled line closed forms: Cohn 1955 coupled stripline (t = 0) and
+//! Kirschning-Jansen 1984 coupled microstrip (static, t = 0).
+//!
+//! Two equal strips of width `width` separated by the edge-to-edge gap `gap`.
+//! Z_diff = 2·Z_odd and Z_common = Z_even/2 (terminated pair, no coupling
+//! to other conductors). All lengths in metres.
+
+use crate::consts::ETA0;
+use crate::elliptic::k_ratio_pair;
+use crate::microstrip::{hj_eps_eff_zero_t, hj_z01_air};
+use crate::validity::{require_eps_r, require_positive, InputError, ValidityNote};
+use std::f64::consts::PI;
+
+/// Model name used in validity notes.
+pub const KJ84_MODEL: &str = "Kirschning-Jansen 1984 coupled microstrip";
+
+/// Even/odd-mode result of a symmetric coupled pair.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CoupledResult {
+    /// Even-mode impedance, ohm.
+    pub z_even: f64,
+    /// Odd-mode impedance, ohm.
+    pub z_odd: f64,
+    /// Differential impedance 2·Z_odd, ohm.
+    pub z_diff: f64,
+    /// Common-mode impedance Z_even/2, ohm.
+    pub z_common: f64,
+    /// Even-mode effective permittivity.
+    pub eps_eff_even: f64,
+    /// Odd-mode effective permittivity.
+    pub eps_eff_odd: f64,
+    /// Validity notes.
+    pub notes: Vec<ValidityNote>,
+}
+
+impl CoupledResult {
+    fn new(
+        z_even: f64,
+        z_odd: f64,
+        eps_eff_even: f64,
+        eps_eff_odd: f64,
+        notes: Vec<ValidityNote>,
+    ) -> Self {
+        CoupledResult {
+            z_even,
+            z_odd,
+            z_diff: 2.0 * z_odd,
+            z_common: z_even / 2.0,
+            eps_eff_even,
+            eps_eff_odd,
+            notes,
+        }
+    }
+}
+
+/// 1 − tanh(x) without cancellation, x ≥ 0.
+fn one_minus_tanh(x: f64) -> f64 {
+    let e = (-2.0 * x).exp();
+    2.0 * e / (1.0 + e)
+}
+
+/// Edge-coupled stripline, zero thickness, strips centred between planes
+/// `b` apart, single dielectric.
+///
+/// Source: S. B. Cohn, "Shielded coupled-strip transmission line", IRE
+/// Trans. MTT-3, Oct. 1955, pp. 29–38:
+/// ke = tanh(πW/2b)·tanh(π(W+S)/2b), ko = tanh(πW/2b)·coth(π(W+S)/2b),
+/// Z0e,o = η0/(4√εr)·K(k′e,o)/K(ke,o). Exact for t = 0 (conformal mapping);
+/// εeff = εr for both modes (TEM). The complementary moduli are formed
+/// without cancellation.
+pub fn cohn_coupled_stripline(
+    width: f64,
+    gap: f64,
+    b: f64,
+    eps_r: f64,
+) -> Result<CoupledResult, InputError> {
+    require_positive("coupled stripline width", width)?;
+    require_positive("coupled stripline gap", gap)?;
+    require_positive("coupled stripline plane spacing b", b)?;
+    require_eps_r("coupled stripline eps_r", eps_r)?;
+    let xa = PI * width / (2.0 * b);
+    let xb = PI * (width + gap) / (2.0 * b);
+    let (ta, tb) = (xa.tanh(), xb.tanh());
+    // even: k = ta·tb, 1 − k = (1 − ta) + ta(1 − tb)
+    let ke = ta * tb;
+    let oke = one_minus_tanh(xa) + ta * one_minus_tanh(xb);
+    let kpe = (oke * (1.0 + ke)).sqrt();
+    // odd: k = ta/tb, 1 − k = (tb − ta)/tb, tb − ta = sinh(xb − xa)/(cosh xa cosh xb)
+    let ko = ta / tb;
+    let d = (xb - xa).sinh() / (xa.cosh() * xb.cosh());
+    let oko = if d.is_finite() { d / tb } else { 1.0 - ko };
+    let kpo = (oko * (1.0 + ko)).sqrt();
+    let pre = ETA0 / (4.0 * eps_r.sqrt());
+    let z_even = pre / k_ratio_pair(ke, kpe);
+    let z_odd = pre / k_ratio_pair(ko, kpo);
+    if !(z_even.is_finite() && z_odd.is_finite()) {
+        return Err(InputError::new(
+            "coupled stripline geometry out of numeric range",
+        ));
+    }
+    Ok(CoupledResult::new(z_even, z_odd, eps_r, eps_r, Vec::new()))
+}
+
+/// Coupled microstrip, static, zero thickness.
+///
+/// Source: M. Kirschning, R. H. Jansen, "Accurate wide-range design
+/// equations for the frequency-dependent characteristic of parallel coupled
+/// microstrip lines", IEEE T-MTT 32(1), Jan. 1984, pp. 83–90 (static part).
+/// Uses the Hammerstad-Jensen single-line εeff(0) and ZL(0) at u = W/h;
+/// g = S/h. Even mode: v = u(20+g²)/(10+g²) + g·e^(−g) in the HJ εeff;
+/// odd mode: εo = [(εr+1)/2 + ao − εeff(0)]·e^(−co·g^do) + εeff(0);
+/// Z0e,o = √(εeff(0)/εe,o)·ZL(0)/[1 − ZL(0)·√εeff(0)·Q/η0] with Q = Q4 (even)
+/// or Q10 (odd).
+///
+/// Validity (notes): 0.1 ≤ u ≤ 10, 0.1 ≤ g ≤ 10, 1 ≤ εr ≤ 18; stated accuracy
+/// 0.6 %. Strip thickness is not modelled (use the field solver for t > 0).
+pub fn kirschning_jansen_coupled(
+    width: f64,
+    gap: f64,
+    height: f64,
+    eps_r: f64,
+) -> Result<CoupledResult, InputError> {
+    require_positive("coupled microstrip width", width)?;
+    require_positive("coupled microstrip gap", gap)?;
+    require_positive("coupled microstrip height", height)?;
+    require_eps_r("coupled microstrip eps_r", eps_r)?;
+    let u = width / height;
+    let g = gap / height;
+    let er = eps_r;
+    let mut notes = Vec::new();
+    ValidityNote::push_if_outside(&mut notes, KJ84_MODEL, "W/h", u, 0.1, 10.0);
+    ValidityNote::push_if_outside(&mut notes, KJ84_MODEL, "S/h", g, 0.1, 10.0);
+    ValidityNote::push_if_outside(&mut notes, KJ84_MODEL, "eps_r", er, 1.0, 18.0);
+
+    let e0 = hj_eps_eff_zero_t(u, er);
+    let zl0 = hj_z01_air(u) / e0.sqrt();
+
+    // Even-mode effective permittivity.
+    let v = u * (20.0 + g * g) / (10.0 + g * g) + g * (-g).exp();
+    let ee = hj_eps_eff_zero_t(v, er);
+    // Odd-mode effective permittivity.
+    let ao = 0.7287 * (e0 - (er + 1.0) / 2.0) * (1.0 - (-0.179 * u).exp());
+    let bo = 0.747 * er / (0.15 + er);
+    let co = bo - (bo - 0.207) * (-0.414 * u).exp();
+    let d_o = 0.593 + 0.694 * (-0.562 * u).exp();
+    let eo = ((er + 1.0) / 2.0 + ao - e0) * (-co * g.powf(d_o)).exp() + e0;
+
+    // Impedances.
+    let q1 = 0.8695 * u.powf(0.194);
+    let q2 = 1.0 + 0.7519 * g + 0.189 * g.powf(2.31);
+    let q3 = 0.1975
+        + (16.6 + (8.4 / g).powi(6)).powf(-0.387)
+        + (g.powi(10) / (1.0 + (g / 3.4).powi(10))).ln() / 241.0;
+    let q4 = (q1 / q2) * 2.0 / ((-g).exp() * u.powf(q3) + (2.0 - (-g).exp()) * u.powf(-q3));
+    let q5 = 1.794 + 1.14 * (1.0 + 0.638 / (g + 0.517 * g.powf(2.43))).ln();
+    let q6 = 0.2305
+        + (g.powi(10) / (1.0 + (g / 5.8).powi(10))).ln() / 281.3
+        + (1.0 + 0.598 * g.powf(1.154)).ln() / 5.1;
+    let q7 = (10.0 + 190.0 * g * g) / (1.0 + 82.3 * g.powi(3));
+    let q8 = (-6.5 - 0.95 * g.ln() - (g / 0.15).powi(5)).exp();
+    let q9 = q7.ln() * (q8 + 1.0 / 16.5);
+    let q10 = q4 - (q5 / q2) * u.powf(q6 * u.powf(-q9));
+
+    let z_of = |e: f64, q: f64| (e0 / e).sqrt() * zl0 / (1.0 - zl0 * e0.sqrt() * q / ETA0);
+    let z_even = z_of(ee, q4);
+    let z_odd = z_of(eo, q10);
+    if !(z_even.is_finite() && z_odd.is_finite() && z_even > 0.0 && z_odd > 0.0) {
+        return Err(InputError::new(format!(
+            "Kirschning-Jansen 1984 coupled microstrip undefined at W/h = {u}, S/h = {g}"
+        )));
+    }
+    Ok(CoupledResult::new(z_even, z_odd, ee, eo, notes))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn rel(a: f64, b: f64) -> f64 {
+        ((a - b) / b).abs()
+    }
+
+    #[test]
+    fn cohn_1955_values() {
+        // Cohn 1955 exact t = 0 result evaluated independently with
+        // arbitrary-precision elliptic integrals.
+        let b = 1e-3;
+        let r = cohn_coupled_stripline(0.5e-3, 0.5e-3, b, 1.0).unwrap();
+        assert!(rel(r.z_even, 107.154) < 1e-4, "{}", r.z_even);
+        assert!(rel(r.z_odd, 93.217) < 1e-4, "{}", r.z_odd);
+        let r = cohn_coupled_stripline(0.3e-3, 0.2e-3, b, 4.0).unwrap();
+        assert!(rel(r.z_even, 78.232) < 1e-4, "{}", r.z_even);
+        assert!(rel(r.z_odd, 49.366) < 1e-4, "{}", r.z_odd);
+        assert_eq!(r.z_diff, 2.0 * r.z_odd);
+        assert_eq!(r.z_common, r.z_even / 2.0);
+    }
+
+    #[test]
+    fn cohn_wide_gap_tends_to_single_line() {
+        // For S >> b both modes tend to Cohn's 1954 single-strip impedance.
+        let single = crate::stripline::cohn_stripline(0.4e-3, 1e-3, 3.0)
+            .unwrap()
+            .z0;
+        let r = cohn_coupled_stripline(0.4e-3, 20e-3, 1e-3, 3.0).unwrap();
+        assert!(rel(r.z_even, single) < 1e-9 && rel(r.z_odd, single) < 1e-9);
+        let r = cohn_coupled_stripline(0.4e-3, 0.3e-3, 1e-3, 3.0).unwrap();
+        assert!(r.z_odd < single && single < r.z_even);
+    }
+
+    #[test]
+    fn kj84_static_values() {
+        // Kirschning-Jansen 1984 static formulas evaluated independently at
+        // u = 1, g = 1, eps_r = 4: Z0e 84.457, Z0o 63.009 ohm; eps_e 3.1038, eps_o 2.6652.
+        let h = 1e-3;
+        let r = kirschning_jansen_coupled(h, h, h, 4.0).unwrap();
+        assert!(rel(r.z_even, 84.457) < 1e-4, "{}", r.z_even);
+        assert!(rel(r.z_odd, 63.009) < 1e-4, "{}", r.z_odd);
+        assert!(rel(r.eps_eff_even, 3.1038) < 1e-4, "{}", r.eps_eff_even);
+        assert!(rel(r.eps_eff_odd, 2.6652) < 1e-4, "{}", r.eps_eff_odd);
+        assert!(r.notes.is_empty());
+        // In microstrip the even mode is the slower one.
+        assert!(r.eps_eff_even > r.eps_eff_odd);
+    }
+
+    #[test]
+    fn kj84_notes_and_errors() {
+        let r = kirschning_jansen_coupled(20e-3, 1e-3, 1e-3, 4.0).unwrap();
+        assert_eq!(r.notes.len(), 1);
+        for x in [0.0, -1.0, f64::NAN, f64::INFINITY] {
+            assert!(kirschning_jansen_coupled(x, 1e-3, 1e-3, 4.0).is_err());
+            assert!(cohn_coupled_stripline(1e-3, x, 1e-3, 4.0).is_err());
+        }
+    }
+}
