@@ -1,0 +1,171 @@
+//! Roughness loss factors, causal surface impedance and wall recession.
+
+use num_complex::Complex64;
+use proptest::prelude::*;
+use stackup_physics::consts::MU0;
+use stackup_physics::copper::*;
+use stackup_physics::roughness::*;
+
+const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
+
+fn rel(a: f64, b: f64) -> f64 {
+    ((a - b) / b).abs()
+}
+
+/// Hammerstad-Bekkadal factor at 10 GHz, sigma 5.8e7: Rq 0.5 µm -> 1.4301,
+/// Rq 1 µm -> 1.8075. Formula of Hammerstad & Jensen, IEEE MTT-S Digest 1980,
+/// evaluated independently in mpmath (tests/materials_reference_values.py).
+#[test]
+fn hammerstad_check_values() {
+    let d = skin_depth(10e9, SIGMA).unwrap();
+    assert!(rel(hammerstad_factor(0.5e-6, d).unwrap(), 1.4301) < 1e-4);
+    assert!(rel(hammerstad_factor(1.0e-6, d).unwrap(), 1.8075) < 1e-4);
+    // Generalised form (Shlepnev & Nwachukwu 2011): RF = 2 is the classic form,
+    // and K - 1 scales with RF - 1.
+    let k2 = hammerstad_factor_general(1e-6, d, 2.0).unwrap();
+    let k3 = hammerstad_factor_general(1e-6, d, 3.0).unwrap();
+    assert!(rel(k3 - 1.0, 2.0 * (k2 - 1.0)) < 1e-12);
+    assert_eq!(hammerstad_factor_general(1e-6, d, 1.0).unwrap(), 1.0);
+}
+
+/// Groiss factor: 1 + exp(-(delta/2Rq)^1.6) (Groiss et al., IEEE Trans. Magn.
+/// 32(3) 1996, from memory): at Rq = delta/2 it is 1 + 1/e.
+#[test]
+fn groiss_values() {
+    let d = 1e-6;
+    assert!(rel(groiss_factor(0.5e-6, d).unwrap(), 1.0 + (-1.0f64).exp()) < 1e-12);
+    assert_eq!(groiss_factor(0.0, d).unwrap(), 1.0);
+    assert!(groiss_factor(100e-6, d).unwrap() > 1.99);
+}
+
+/// Cannonball-Huray, r = 0.5 µm, sigma 5.8e7: K and Im(Zs/Rs) at 1, 10,
+/// 28 GHz = (1.5268, 3.7288), (3.2942, 6.3265), (4.4876, 7.2424).
+/// Sources: Simonovich (DesignCon 2015, EDICon 2016) for the 14-sphere tile
+/// (f = 14 pi/9), Huray 2009 for K, Bracken (DesignCon 2012) for the causal
+/// Zs; values evaluated independently in mpmath
+/// (tests/materials_reference_values.py).
+#[test]
+fn cannonball_check_values() {
+    let m = HurayModel::cannonball(0.5e-6).unwrap();
+    assert!(
+        rel(
+            m.families[0].area_ratio(),
+            14.0 * std::f64::consts::PI / 9.0
+        ) < 1e-12
+    );
+    for (f, k, im) in [
+        (1e9, 1.5268, 3.7288),
+        (10e9, 3.2942, 6.3265),
+        (28e9, 4.4876, 7.2424),
+    ] {
+        let d = skin_depth(f, SIGMA).unwrap();
+        let rs = surface_resistance(f, SIGMA).unwrap();
+        let kk = m.loss_factor(d).unwrap();
+        assert!(rel(kk, k) < 1e-4, "K at {f}: {kk}");
+        let zs = m.causal_surface_impedance(f, SIGMA).unwrap();
+        assert!(rel(zs.im / rs, im) < 1e-4, "Im at {f}: {}", zs.im / rs);
+        // Bracken 2012: Re Zs reproduces the classic Huray factor exactly.
+        assert!(rel(zs.re / rs, kk) < 1e-12);
+    }
+}
+
+/// r = Rz/(2 + 2 sqrt 2): a 9-4-1 square-pyramid stack of spheres in cubic
+/// close packing has layer spacing sqrt(2) r (geometry of the fcc lattice).
+#[test]
+fn cannonball_radius_from_height() {
+    let r = cannonball_radius_from_rz(4.828_427_124_746_19e-6).unwrap();
+    assert!(rel(r, 1e-6) < 1e-12);
+    let m = HurayModel::cannonball_from_rz(2.414e-6).unwrap();
+    assert!(rel(m.families[0].radius, 0.5e-6) < 1e-3);
+}
+
+/// Causal Hammerstad (Dmitriev-Zdorov, Simonovich & Kochikov, Signal
+/// Integrity Journal 2018): Re Zs/Rs equals the Hammerstad factor, Im Zs >
+/// Rs (extra inductance) once rough, and Rq = 0 gives smooth copper.
+#[test]
+fn causal_hammerstad_real_part_is_k() {
+    for f in [1e8, 1e9, 1e10, 5e10] {
+        let d = skin_depth(f, SIGMA).unwrap();
+        let rs = surface_resistance(f, SIGMA).unwrap();
+        for rq in [0.1e-6, 0.5e-6, 1e-6, 3e-6] {
+            for rf in [2.0, 3.5] {
+                let zs = causal_hammerstad_surface_impedance(rq, rf, f, SIGMA).unwrap();
+                let k = hammerstad_factor_general(rq, d, rf).unwrap();
+                assert!(rel(zs.re / rs, k) < 1e-12, "{f} {rq} {rf}");
+                assert!(zs.im > rs);
+            }
+        }
+        let z0 = causal_hammerstad_surface_impedance(0.0, 2.0, f, SIGMA).unwrap();
+        assert!(rel(z0.re, rs) < 1e-12 && rel(z0.im, rs) < 1e-12);
+    }
+}
+
+/// Wheeler (Proc. IRE 1942): smooth copper recedes by delta/2 for both
+/// inductance and resistance.
+#[test]
+fn wheeler_recession_of_smooth_copper_is_half_delta() {
+    let f = 10e9;
+    let d = skin_depth(f, SIGMA).unwrap();
+    let zs = smooth_surface_impedance(f, SIGMA).unwrap();
+    let r = wheeler_recession(zs, 2.0 * std::f64::consts::PI * f).unwrap();
+    assert!(rel(r.inductive, d / 2.0) < 1e-12 && rel(r.resistive, d / 2.0) < 1e-12);
+    assert!(extra_inductive_recession(zs, f, SIGMA).unwrap().abs() < 1e-18);
+    // Im Zs = omega mu0 d_L by definition.
+    let z = Complex64::new(0.1, 0.3);
+    let w = 1e10;
+    let r = wheeler_recession(z, w).unwrap();
+    assert!(rel(r.inductive * w * MU0, 0.3) < 1e-12);
+}
+
+/// Cannonball spheres with delta >> r add a fixed inductance mu0 (3/2) f r
+/// per square (low-frequency limit of Bracken's causal Huray form), i.e.
+/// 7 pi/3 r = 3.665 µm of extra recession for r = 0.5 µm.
+#[test]
+fn cannonball_low_frequency_recession() {
+    let m = HurayModel::cannonball(0.5e-6).unwrap();
+    let f = 1e6; // delta = 66 µm >> r
+    let zs = m.causal_surface_impedance(f, SIGMA).unwrap();
+    let extra = extra_inductive_recession(zs, f, SIGMA).unwrap();
+    assert!(
+        rel(extra, 7.0 * std::f64::consts::PI / 3.0 * 0.5e-6) < 0.02,
+        "{extra}"
+    );
+}
+
+proptest! {
+    /// No roughness model ever reduces loss below smooth copper (K >= 1), and
+    /// causal forms never give less resistance or inductance than smooth.
+    #[test]
+    fn k_never_below_one(rq in 0.0f64..20e-6, lf in 6.0f64..11.5, rf in 1.0f64..6.0,
+                         r in 0.05e-6f64..5e-6, n in 0.0f64..1e13, mr in 1.0f64..3.0) {
+        let f = 10f64.powf(lf);
+        let d = skin_depth(f, SIGMA).unwrap();
+        let rs = surface_resistance(f, SIGMA).unwrap();
+        prop_assert!(hammerstad_factor(rq, d).unwrap() >= 1.0);
+        prop_assert!(hammerstad_factor_general(rq, d, rf).unwrap() >= 1.0);
+        prop_assert!(groiss_factor(rq, d).unwrap() >= 1.0);
+        let h = HurayModel::new(mr, vec![SphereFamily { radius: r, count_per_area: n }]).unwrap();
+        prop_assert!(h.loss_factor(d).unwrap() >= 1.0);
+        let zh = h.causal_surface_impedance(f, SIGMA).unwrap();
+        prop_assert!(zh.re >= rs * (1.0 - 1e-12) && zh.im >= rs * (1.0 - 1e-12));
+        let zc = causal_hammerstad_surface_impedance(rq, rf, f, SIGMA).unwrap();
+        prop_assert!(zc.re >= rs * (1.0 - 1e-12) && zc.im >= rs * (1.0 - 1e-12));
+        let c = HurayModel::cannonball(r).unwrap();
+        prop_assert!(c.loss_factor(d).unwrap() >= 1.0);
+    }
+
+    /// Never panics on arbitrary input.
+    #[test]
+    fn never_panics(a in proptest::num::f64::ANY, b in proptest::num::f64::ANY, c in proptest::num::f64::ANY) {
+        let _ = hammerstad_factor(a, b);
+        let _ = hammerstad_factor_general(a, b, c);
+        let _ = groiss_factor(a, b);
+        let _ = causal_hammerstad_surface_impedance(a, c, b, SIGMA);
+        if let Ok(m) = HurayModel::cannonball(a) {
+            let _ = m.loss_factor(b);
+            let _ = m.causal_surface_impedance(b, c);
+        }
+        let _ = wheeler_recession(Complex64::new(a, b), c);
+        let _ = cannonball_radius_from_rz(a);
+    }
+}
