@@ -36,7 +36,10 @@ pub const OUNCE_PER_SQUARE_FOOT: f64 = 0.028_349_523_125 / 0.092_903_04;
 pub fn skin_depth(f: f64, sigma: f64) -> Result<f64, InputError> {
     require_positive("frequency", f)?;
     require_positive("conductivity", sigma)?;
-    Ok(1.0 / (std::f64::consts::PI * f * MU0 * sigma).sqrt())
+    finite(
+        "skin depth",
+        1.0 / (std::f64::consts::PI * f * MU0 * sigma).sqrt(),
+    )
 }
 
 /// Surface resistance of smooth, thick copper, Rs = 1/(sigma delta) =
@@ -48,7 +51,10 @@ pub fn skin_depth(f: f64, sigma: f64) -> Result<f64, InputError> {
 pub fn surface_resistance(f: f64, sigma: f64) -> Result<f64, InputError> {
     require_positive("frequency", f)?;
     require_positive("conductivity", sigma)?;
-    Ok((std::f64::consts::PI * f * MU0 / sigma).sqrt())
+    finite(
+        "surface resistance",
+        (std::f64::consts::PI * f * MU0 / sigma).sqrt(),
+    )
 }
 
 /// Surface impedance of smooth, thick copper, Zs = (1 + j) Rs (time
@@ -68,7 +74,7 @@ pub fn smooth_surface_impedance(f: f64, sigma: f64) -> Result<Complex64, InputEr
 pub fn ounces_to_thickness(oz: f64, density: f64) -> Result<f64, InputError> {
     require_non_negative("copper weight (oz/ft²)", oz)?;
     require_positive("copper density", density)?;
-    Ok(oz * OUNCE_PER_SQUARE_FOOT / density)
+    finite("copper thickness", oz * OUNCE_PER_SQUARE_FOOT / density)
 }
 
 /// Foil weight in ounces per square foot from thickness (m), inverse of
@@ -76,7 +82,18 @@ pub fn ounces_to_thickness(oz: f64, density: f64) -> Result<f64, InputError> {
 pub fn thickness_to_ounces(thickness: f64, density: f64) -> Result<f64, InputError> {
     require_non_negative("copper thickness", thickness)?;
     require_positive("copper density", density)?;
-    Ok(thickness * density / OUNCE_PER_SQUARE_FOOT)
+    finite("copper weight", thickness * density / OUNCE_PER_SQUARE_FOOT)
+}
+
+/// Returns `v` when finite, else an error (inputs whose result overflows).
+fn finite(what: &str, v: f64) -> Result<f64, InputError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(InputError::new(format!(
+            "{what} overflows for these inputs (got {v})"
+        )))
+    }
 }
 
 #[cfg(test)]

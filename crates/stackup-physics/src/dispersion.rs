@@ -93,8 +93,10 @@ pub struct FitReport {
 }
 
 /// k(f) = ln[(f2 + j f)/(f1 + j f)].
+/// Computed as a difference of logarithms so that no intermediate overflows
+/// for any finite f.
 fn kernel(f: f64, f1: f64, f2: f64) -> Complex64 {
-    (Complex64::new(f2, f) / Complex64::new(f1, f)).ln()
+    Complex64::new(f2, f).ln() - Complex64::new(f1, f).ln()
 }
 
 fn check_band(f1: f64, f2: f64) -> Result<(), InputError> {

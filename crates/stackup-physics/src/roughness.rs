@@ -204,7 +204,7 @@ impl HurayModel {
                 k += 1.5 * fam.area_ratio() / d;
             }
         }
-        Ok(k)
+        finite("Huray loss factor", k)
     }
 
     /// Causal Huray surface impedance
@@ -225,7 +225,7 @@ impl HurayModel {
                 bracket += 1.5 * fam.area_ratio() / den;
             }
         }
-        Ok(Complex64::new(rs, rs) * bracket)
+        finite_complex("surface impedance", Complex64::new(rs, rs) * bracket)
     }
 }
 
@@ -264,7 +264,7 @@ pub fn causal_hammerstad_surface_impedance(
         // bracket tends to RF.
         bracket += rf - 1.0;
     }
-    Ok(Complex64::new(rs, rs) * bracket)
+    finite_complex("surface impedance", Complex64::new(rs, rs) * bracket)
 }
 
 /// Equivalent wall recessions of a surface impedance at angular frequency
@@ -295,8 +295,8 @@ pub fn wheeler_recession(zs: Complex64, omega: f64) -> Result<WallRecession, Inp
     }
     let wm = omega * MU0;
     Ok(WallRecession {
-        inductive: zs.im / wm,
-        resistive: zs.re / wm,
+        inductive: finite("inductive wall recession", zs.im / wm)?,
+        resistive: finite("resistive wall recession", zs.re / wm)?,
     })
 }
 
@@ -309,7 +309,7 @@ pub fn wheeler_recession(zs: Complex64, omega: f64) -> Result<WallRecession, Inp
 pub fn extra_inductive_recession(zs: Complex64, f: f64, sigma: f64) -> Result<f64, InputError> {
     let delta = skin_depth(f, sigma)?;
     let r = wheeler_recession(zs, 2.0 * PI * f)?;
-    Ok(r.inductive - 0.5 * delta)
+    finite("wall recession", r.inductive - 0.5 * delta)
 }
 
 /// Apparent Dk of a wide (parallel-plate) line of dielectric thickness `h`
@@ -332,7 +332,7 @@ pub fn apparent_dk_internal_inductance(
     require_eps_r("Dk", eps)?;
     require_positive("dielectric thickness", h)?;
     require_non_negative("wall recession", extra_recession_sum)?;
-    Ok(eps * (1.0 + extra_recession_sum / h))
+    finite("apparent Dk", eps * (1.0 + extra_recession_sum / h))
 }
 
 // ---------------------------------------------------------------------------
@@ -410,7 +410,7 @@ impl RoughSurface {
             }
             (None, Some(rq)) => {
                 require_non_negative("RMS roughness Rq", rq)?;
-                Ok(rq * RZ_PER_RQ)
+                finite("ten-point roughness Rz", rq * RZ_PER_RQ)
             }
             (None, None) => Err(InputError::new("copper surface needs Rq or Rz")),
         }
@@ -527,7 +527,10 @@ impl RoughLayerModel {
         self.check()?;
         let rq = surface.rq()?;
         let delta = skin_depth(f, sigma)?;
-        Ok(self.k * rq * roughness_onset(rq, delta)?)
+        finite(
+            "roughness layer thickness",
+            self.k * rq * roughness_onset(rq, delta)?,
+        )
     }
 
     /// Relative permittivity eps_rough = eps (1 + 2 phi)/(1 - phi) of the
@@ -538,7 +541,10 @@ impl RoughLayerModel {
         self.check()?;
         require_eps_r("Dk", eps_bulk)?;
         let phi = self.metal_fraction;
-        Ok(eps_bulk * (1.0 + 2.0 * phi) / (1.0 - phi))
+        finite(
+            "roughness layer permittivity",
+            eps_bulk * (1.0 + 2.0 * phi) / (1.0 - phi),
+        )
     }
 
     /// Apparent Dk of a dielectric of bulk Dk `eps_bulk` and thickness `h`
@@ -571,8 +577,26 @@ impl RoughLayerModel {
         let t = t_sum.min(h);
         // Series form h/eps_app = (h - t)/eps + t/eps_r, algebraically equal
         // to the expression above and free of cancellation.
-        Ok(h / ((h - t) / eps_bulk + t / eps_r))
+        finite("apparent Dk", h / ((h - t) / eps_bulk + t / eps_r))
     }
+}
+
+/// Returns `v` when finite, else an error (inputs whose result overflows).
+fn finite(what: &str, v: f64) -> Result<f64, InputError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(InputError::new(format!(
+            "{what} overflows for these inputs (got {v})"
+        )))
+    }
+}
+
+/// Returns `z` when both parts are finite, else an error.
+fn finite_complex(what: &str, z: Complex64) -> Result<Complex64, InputError> {
+    finite(what, z.re)?;
+    finite(what, z.im)?;
+    Ok(z)
 }
 
 #[cfg(test)]

@@ -167,7 +167,12 @@ proptest! {
     fn never_panics(dk in proptest::num::f64::ANY, df in proptest::num::f64::ANY,
                     f0 in proptest::num::f64::ANY, f in proptest::num::f64::ANY) {
         if let Ok(m) = DjordjevicSarkar::fit_one_point_default(dk, df, f0) {
-            let _ = m.eval(f);
+            if let Ok(p) = m.eval(f) {
+                prop_assert!(p.dk.is_finite() && p.df.is_finite() && p.dk >= 1.0 && p.df >= 0.0);
+            }
+            if let Ok(p) = m.eval(f.abs()) {
+                prop_assert!(p.dk.is_finite() && p.df.is_finite());
+            }
         }
         let _ = DjordjevicSarkar::fit_table(&[DielectricPoint { f: f0, dk, df }], 1e3, 1e12);
     }

@@ -157,15 +157,27 @@ proptest! {
     /// Never panics on arbitrary input.
     #[test]
     fn never_panics(a in proptest::num::f64::ANY, b in proptest::num::f64::ANY, c in proptest::num::f64::ANY) {
-        let _ = hammerstad_factor(a, b);
-        let _ = hammerstad_factor_general(a, b, c);
-        let _ = groiss_factor(a, b);
-        let _ = causal_hammerstad_surface_impedance(a, c, b, SIGMA);
-        if let Ok(m) = HurayModel::cannonball(a) {
-            let _ = m.loss_factor(b);
-            let _ = m.causal_surface_impedance(b, c);
+        let reals = [
+            hammerstad_factor(a, b),
+            hammerstad_factor_general(a, b, c),
+            groiss_factor(a, b),
+            cannonball_radius_from_rz(a),
+        ];
+        for k in reals.into_iter().flatten() {
+            prop_assert!(k.is_finite() && k >= 0.0);
         }
-        let _ = wheeler_recession(Complex64::new(a, b), c);
-        let _ = cannonball_radius_from_rz(a);
+        let mut zs = vec![causal_hammerstad_surface_impedance(a, c, b, SIGMA)];
+        if let Ok(m) = HurayModel::cannonball(a) {
+            if let Ok(k) = m.loss_factor(b) {
+                prop_assert!(k.is_finite() && k >= 1.0);
+            }
+            zs.push(m.causal_surface_impedance(b, c));
+        }
+        for z in zs.into_iter().flatten() {
+            prop_assert!(z.re.is_finite() && z.im.is_finite() && z.re >= 0.0);
+        }
+        if let Ok(r) = wheeler_recession(Complex64::new(a, b), c) {
+            prop_assert!(r.inductive.is_finite() && r.resistive.is_finite());
+        }
     }
 }
