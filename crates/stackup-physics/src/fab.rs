@@ -1,1 +1,308 @@
-//! (module being written)
+//! Fabrication effects on the electrical stackup: pressed prepreg thickness,
+//! Dk of a glass-reinforced ply from its resin content, typical glass
+//! styles, and the trapezoidal etch profile of a trace.
+//!
+//! All lengths in metres, fractions in [0, 1], densities in kg/m³. The typical
+//! numbers here vary by fabricator and material; the analysis should let the
+//! user override them.
+
+use crate::validity::{require_eps_r, require_non_negative, require_positive, InputError};
+
+fn require_fraction(name: &str, v: f64) -> Result<(), InputError> {
+    if v.is_finite() && (0.0..=1.0).contains(&v) {
+        Ok(())
+    } else {
+        Err(InputError::new(format!(
+            "{name} must be a fraction in [0, 1], got {v}"
+        )))
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Pressed prepreg thickness
+// ---------------------------------------------------------------------------
+
+/// What one face of a prepreg ply touches during lamination.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum PrepregFace {
+    /// A laminate (core) surface or another ply with no copper: the resin
+    /// fills nothing, so this face takes no thickness.
+    Laminate,
+    /// An inner copper layer of thickness `thickness` (m) with copper fill
+    /// `fill` (fraction of the area left after etching: about 0.2-0.5 for
+    /// signal layers, 0.8-1 for planes, common practice, no source).
+    Copper {
+        /// Copper thickness, m.
+        thickness: f64,
+        /// Remaining copper fraction R in [0, 1].
+        fill: f64,
+    },
+}
+
+/// Pressed thickness of a prepreg ply between two faces:
+/// t_pressed = t_nominal - sum over faces of (1 - R_i) t_Cu,i: the resin
+/// flows into the etched-away parts of each adjacent copper layer. A
+/// [`PrepregFace::Laminate`] face contributes nothing.
+///
+/// Source: common practice, no source (fabricators' stackup calculations).
+/// Valid when the resin content suffices to fill the copper gaps; the
+/// nominal thickness must be the ply's thickness as pressed between flat
+/// plates.
+///
+/// Errors: `t_nominal` not finite and > 0; a copper face with thickness
+/// negative or not finite, or fill outside [0, 1]; a result <= 0 (the ply
+/// cannot fill the copper).
+pub fn pressed_prepreg_thickness(
+    t_nominal: f64,
+    faces: [PrepregFace; 2],
+) -> Result<f64, InputError> {
+    require_positive("nominal prepreg thickness", t_nominal)?;
+    let mut t = t_nominal;
+    for face in faces {
+        if let PrepregFace::Copper { thickness, fill } = face {
+            require_non_negative("copper thickness", thickness)?;
+            require_fraction("copper fill", fill)?;
+            t -= (1.0 - fill) * thickness;
+        }
+    }
+    if t > 0.0 {
+        Ok(t)
+    } else {
+        Err(InputError::new(format!(
+            "prepreg of nominal thickness {t_nominal} m cannot fill the adjacent copper (pressed thickness {t} m)"
+        )))
+    }
+}
+
+// ---------------------------------------------------------------------------
+// Dk of a glass-reinforced ply
+// ---------------------------------------------------------------------------
+
+/// Typical Dk of E-glass fibre, 6.3 (range about 6.0-6.6; from memory).
+pub const E_GLASS_DK: f64 = 6.3;
+/// Typical Dk of an FR-4 class epoxy resin system, 3.2 (range about 2.8-3.5
+/// across resin systems; from memory).
+pub const EPOXY_RESIN_DK: f64 = 3.2;
+/// Density of E-glass, 2540 kg/m³ (2.54-2.60 g/cm³; from memory).
+pub const E_GLASS_DENSITY: f64 = 2540.0;
+/// Density of a cured unfilled epoxy resin, 1200 kg/m³ (1.1-1.3 g/cm³; from
+/// memory). Filled resins are denser: give the real value when known.
+pub const EPOXY_RESIN_DENSITY: f64 = 1200.0;
+
+/// Lichtenecker logarithmic mixing rule: ln eps = sum_i v_i ln eps_i, with
+/// v_i the volume fractions (summing to 1) and eps_i the component Dk values.
+///
+/// Source: K. Lichtenecker, "Die Dielektrizitätskonstante natürlicher und
+/// künstlicher Mischkörper", Physikalische Zeitschrift 27, pp. 115-158, 1926
+/// (from memory). An empirical rule for random mixtures; it always lies
+/// between the series and parallel (Wiener) bounds. For glass/resin plies it
+/// ignores the anisotropy of the woven glass (out-of-plane field assumed).
+///
+/// Errors: empty list; a fraction outside [0, 1] or a Dk < 1 or not finite;
+/// fractions not summing to 1 within 1e-6.
+pub fn lichtenecker_dk(components: &[(f64, f64)]) -> Result<f64, InputError> {
+    if components.is_empty() {
+        return Err(InputError::new("mixing rule needs at least one component"));
+    }
+    let mut sum_v = 0.0;
+    let mut ln_eps = 0.0;
+    for &(v, eps) in components {
+        require_fraction("volume fraction", v)?;
+        require_eps_r("component Dk", eps)?;
+        sum_v += v;
+        ln_eps += v * eps.ln();
+    }
+    if (sum_v - 1.0).abs() > 1e-6 {
+        return Err(InputError::new(format!(
+            "volume fractions must sum to 1, got {sum_v}"
+        )));
+    }
+    Ok((ln_eps / sum_v).exp())
+}
+
+/// Resin volume fraction of a glass/resin ply from its resin content by
+/// weight: v_r = (w/rho_r) / [w/rho_r + (1 - w)/rho_g] (definition of mass and
+/// volume fractions; voids neglected).
+///
+/// Errors: `resin_weight_fraction` outside [0, 1]; densities not finite and
+/// > 0.
+pub fn resin_volume_fraction(
+    resin_weight_fraction: f64,
+    resin_density: f64,
+    glass_density: f64,
+) -> Result<f64, InputError> {
+    require_fraction("resin content", resin_weight_fraction)?;
+    require_positive("resin density", resin_density)?;
+    require_positive("glass density", glass_density)?;
+    let vr = resin_weight_fraction / resin_density;
+    let vg = (1.0 - resin_weight_fraction) / glass_density;
+    finite("resin volume fraction", vr / (vr + vg))
+}
+
+/// Dk of a glass-reinforced ply (an estimate) from its resin content by
+/// weight: weight -> volume fraction by [`resin_volume_fraction`], then
+/// [`lichtenecker_dk`] of resin and glass. With [`EPOXY_RESIN_DK`],
+/// [`E_GLASS_DK`], [`EPOXY_RESIN_DENSITY`] and [`E_GLASS_DENSITY`] it is an
+/// estimate for FR-4 class epoxy/E-glass; pass the material's own values when
+/// known.
+///
+/// Errors: as the two functions it combines.
+pub fn glass_ply_dk(
+    resin_weight_fraction: f64,
+    resin_dk: f64,
+    glass_dk: f64,
+    resin_density: f64,
+    glass_density: f64,
+) -> Result<f64, InputError> {
+    let v = resin_volume_fraction(resin_weight_fraction, resin_density, glass_density)?;
+    lichtenecker_dk(&[(v, resin_dk), (1.0 - v, glass_dk)])
+}
+
+/// A woven glass style with its typical prepreg build.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct GlassStyle {
+    /// Style number (IPC-4412 designation, from memory).
+    pub name: &'static str,
+    /// Typical pressed thickness of one ply, m.
+    pub pressed_thickness: f64,
+    /// Typical resin content by weight, fraction.
+    pub resin_content: f64,
+}
+
+/// Common glass styles with typical pressed thickness per ply and resin
+/// content by weight. Common practice, no source: fabricators offer several
+/// resin contents per style, so treat these as defaults to override.
+pub const GLASS_STYLES: [GlassStyle; 7] = [
+    GlassStyle {
+        name: "106",
+        pressed_thickness: 50e-6,
+        resin_content: 0.72,
+    },
+    GlassStyle {
+        name: "1035",
+        pressed_thickness: 60e-6,
+        resin_content: 0.68,
+    },
+    GlassStyle {
+        name: "1078",
+        pressed_thickness: 75e-6,
+        resin_content: 0.67,
+    },
+    GlassStyle {
+        name: "1080",
+        pressed_thickness: 70e-6,
+        resin_content: 0.63,
+    },
+    GlassStyle {
+        name: "3313",
+        pressed_thickness: 100e-6,
+        resin_content: 0.56,
+    },
+    GlassStyle {
+        name: "2116",
+        pressed_thickness: 115e-6,
+        resin_content: 0.54,
+    },
+    GlassStyle {
+        name: "7628",
+        pressed_thickness: 185e-6,
+        resin_content: 0.44,
+    },
+];
+
+/// Looks up a glass style of [`GLASS_STYLES`] by its number, e.g. "2116".
+pub fn glass_style(name: &str) -> Option<&'static GlassStyle> {
+    GLASS_STYLES.iter().find(|g| g.name == name.trim())
+}
+
+// ---------------------------------------------------------------------------
+// Etch profile
+// ---------------------------------------------------------------------------
+
+/// Top width of an etched trace: W_top = W_bottom - 2 t/EF, where the etch
+/// factor EF = etch depth / undercut per side (typically 2-4; EF = +inf means
+/// vertical walls).
+///
+/// Source: common practice, no source (etch factor definition per IPC-T-50,
+/// from memory). The trace is a trapezoid with the wide base on the
+/// dielectric it was laminated to.
+///
+/// Errors: `w_bottom` not finite and > 0; `t` negative or not finite;
+/// `etch_factor` not > 0 (NaN, zero, negative); a top width <= 0 (the
+/// trace would be a triangle).
+pub fn etched_top_width(w_bottom: f64, t: f64, etch_factor: f64) -> Result<f64, InputError> {
+    require_positive("bottom width", w_bottom)?;
+    require_non_negative("copper thickness", t)?;
+    if etch_factor.is_nan() || etch_factor <= 0.0 {
+        return Err(InputError::new(format!(
+            "etch factor must be > 0, got {etch_factor}"
+        )));
+    }
+    let w_top = w_bottom - 2.0 * t / etch_factor;
+    if w_top > 0.0 {
+        Ok(w_top)
+    } else {
+        Err(InputError::new(format!(
+            "etch undercut 2t/EF = {} m consumes the whole {w_bottom} m trace",
+            2.0 * t / etch_factor
+        )))
+    }
+}
+
+/// Bottom width from the top width, inverse of [`etched_top_width`]:
+/// W_bottom = W_top + 2 t/EF.
+///
+/// Errors: `w_top` not finite and > 0; `t` negative or not finite;
+/// `etch_factor` not > 0.
+pub fn etched_bottom_width(w_top: f64, t: f64, etch_factor: f64) -> Result<f64, InputError> {
+    require_positive("top width", w_top)?;
+    require_non_negative("copper thickness", t)?;
+    if etch_factor.is_nan() || etch_factor <= 0.0 {
+        return Err(InputError::new(format!(
+            "etch factor must be > 0, got {etch_factor}"
+        )));
+    }
+    finite("bottom width", w_top + 2.0 * t / etch_factor)
+}
+
+/// Mean width (W_bottom + W_top)/2 of a trapezoidal trace, the width closed
+/// forms should use (common practice, no source).
+///
+/// Errors: a width not finite and > 0.
+pub fn mean_width(w_bottom: f64, w_top: f64) -> Result<f64, InputError> {
+    require_positive("bottom width", w_bottom)?;
+    require_positive("top width", w_top)?;
+    finite("mean width", 0.5 * (w_bottom + w_top))
+}
+
+/// Returns `v` when finite, else an error (inputs whose result overflows).
+fn finite(what: &str, v: f64) -> Result<f64, InputError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(InputError::new(format!(
+            "{what} overflows for these inputs (got {v})"
+        )))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn rejects_bad_input() {
+        assert!(pressed_prepreg_thickness(-1e-4, [PrepregFace::Laminate; 2]).is_err());
+        let cu = PrepregFace::Copper {
+            thickness: 35e-6,
+            fill: 1.5,
+        };
+        assert!(pressed_prepreg_thickness(1e-4, [cu, PrepregFace::Laminate]).is_err());
+        assert!(lichtenecker_dk(&[]).is_err());
+        assert!(lichtenecker_dk(&[(0.5, 3.0), (0.4, 6.0)]).is_err());
+        assert!(etched_top_width(100e-6, 35e-6, 0.0).is_err());
+        assert!(etched_top_width(100e-6, 35e-6, f64::NAN).is_err());
+        assert!(etched_top_width(10e-6, 35e-6, 2.0).is_err());
+        assert!(glass_style("9999").is_none());
+    }
+}
