@@ -176,8 +176,87 @@ proptest! {
         for z in zs.into_iter().flatten() {
             prop_assert!(z.re.is_finite() && z.im.is_finite() && z.re >= 0.0);
         }
+        for d in [HeightDistribution::Normal, HeightDistribution::Rayleigh] {
+            if let Ok(z) = gradient_model_surface_impedance(a, d, b, SIGMA, c) {
+                prop_assert!(z.re.is_finite() && z.im.is_finite() && z.re > 0.0);
+            }
+        }
         if let Ok(r) = wheeler_recession(Complex64::new(a, b), c) {
             prop_assert!(r.inductive.is_finite() && r.resistive.is_finite());
+        }
+    }
+}
+
+/// Gradient model (Gold & Helmreich, IEEE T-MTT 65(10) 2017), Rq 1 µm
+/// Rayleigh, sigma 58 MS/m, 10 GHz: Re Zs = 0.074824 ohm by the published
+/// rational approximation (Grujic, IEEE T-MTT 70(4) 2022, as evaluated by an
+/// open implementation); Rq 0.5 µm normal: sigma_eff = 2.276e7 S/m (same
+/// source; sigma_eff defined by Re Zs = sqrt(omega mu0/(2 sigma_eff))). The
+/// approximation is not exact, hence the tolerances.
+#[test]
+fn gradient_model_loss_matches_published_approximation() {
+    let f = 10e9;
+    let z =
+        gradient_model_surface_impedance(1e-6, HeightDistribution::Rayleigh, f, 58e6, 0.0).unwrap();
+    assert!(rel(z.re, 0.074824) < 2e-4, "{z}");
+    let z =
+        gradient_model_surface_impedance(0.5e-6, HeightDistribution::Normal, f, 58e6, 0.0).unwrap();
+    let w = 2.0 * std::f64::consts::PI * f;
+    let sigma_eff = w * MU0 / (2.0 * z.re * z.re);
+    assert!(rel(sigma_eff, 2.276e7) < 5e-3, "{sigma_eff}");
+}
+
+/// Gradient model limits [derived from the model]: Rq = 0 is smooth copper;
+/// with delta >> Rq both profiles look like smooth copper at the mean line
+/// (metal volume above the base = mean height); moving the reference plane
+/// outward by d adds j omega mu0 d and leaves Re Zs unchanged.
+#[test]
+fn gradient_model_limits() {
+    let zs0 = smooth_surface_impedance(1e9, SIGMA).unwrap();
+    let z =
+        gradient_model_surface_impedance(0.0, HeightDistribution::Normal, 1e9, SIGMA, 0.0).unwrap();
+    assert!((z - zs0).norm() < 1e-15);
+    let f = 1e6; // delta = 66 µm
+    let zs = smooth_surface_impedance(f, SIGMA).unwrap();
+    for d in [HeightDistribution::Normal, HeightDistribution::Rayleigh] {
+        let z = gradient_model_surface_impedance(0.5e-6, d, f, SIGMA, 0.0).unwrap();
+        assert!((z - zs).norm() / zs.norm() < 0.02, "{d:?} {z} vs {zs}");
+        let z1 = gradient_model_surface_impedance(0.5e-6, d, 20e9, SIGMA, 0.0).unwrap();
+        let z2 = gradient_model_surface_impedance(0.5e-6, d, 20e9, SIGMA, 2e-6).unwrap();
+        let w = 2.0 * std::f64::consts::PI * 20e9;
+        assert!((z2.re - z1.re).abs() < 1e-12 && rel(z2.im - z1.im, w * MU0 * 2e-6) < 1e-9);
+    }
+    assert!(gradient_model_surface_impedance(
+        f64::NAN,
+        HeightDistribution::Normal,
+        1e9,
+        SIGMA,
+        0.0
+    )
+    .is_err());
+    assert!(gradient_model_surface_impedance(
+        1e-6,
+        HeightDistribution::Normal,
+        1e9,
+        SIGMA,
+        f64::INFINITY
+    )
+    .is_err());
+}
+
+#[test]
+fn gradient_model_loss_never_below_smooth_sweep() {
+    for d in [HeightDistribution::Normal, HeightDistribution::Rayleigh] {
+        for rq in [0.05e-6, 0.2e-6, 0.5e-6, 1e-6, 3e-6, 8e-6] {
+            for f in [1e6, 1e7, 1e8, 1e9, 1e10, 5e10, 2e11] {
+                let z = gradient_model_surface_impedance(rq, d, f, SIGMA, 0.0).unwrap();
+                let rs = surface_resistance(f, SIGMA).unwrap();
+                assert!(
+                    z.re >= rs * (1.0 - 1e-9),
+                    "{d:?} rq {rq} f {f}: K = {}",
+                    z.re / rs
+                );
+            }
         }
     }
 }
