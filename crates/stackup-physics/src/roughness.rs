@@ -11,10 +11,19 @@
 //! an effective roughness dielectric layer, [`RoughLayerModel`]) and the
 //! current crowding in the teeth adds internal inductance (the imaginary part
 //! of a causal surface impedance, [`HurayModel::causal_surface_impedance`],
-//! [`causal_hammerstad_surface_impedance`], turned into a length by
+//! [`causal_hammerstad_surface_impedance`],
+//! [`gradient_model_surface_impedance`], turned into a length by
 //! [`wheeler_recession`] and into a Dk by [`apparent_dk_internal_inductance`]).
 //! The layer model is the project's default; see [`RoughLayerModel`] for its
 //! calibration.
+//!
+//! Use one route for the apparent Dk, not both: the layer model is
+//! calibrated to the total apparent Dk reported in the trade, so a line model
+//! that uses it should give the copper only the smooth internal inductance
+//! (delta/2 per face) and take roughness loss from a loss factor K or from
+//! Re Zs. The reactance of a causal Zs depends on the plane it is referred to
+//! (moving the plane by d changes it by omega mu0 d), so its apparent Dk is
+//! only meaningful with the smooth copper placed on that same plane.
 
 use std::f64::consts::{FRAC_2_PI, PI, SQRT_2};
 

@@ -139,6 +139,16 @@ fn nyquist_and_highest_frequency() {
     assert!(rel(il, 0.8685889638) < 1e-9);
 }
 
+/// Overflowing intermediate results are errors, never inf or NaN (found by
+/// the property test below: pi f sqrt(eps) overflowing times a zero loss
+/// tangent gave NaN).
+#[test]
+fn overflow_is_an_error() {
+    assert!(dielectric_loss_stripline(2.6e191, 4.7e275, -0.0).is_err());
+    assert!(dielectric_loss_stripline(1e300, 1e300, 1.0).is_err());
+    assert!(conductor_loss_wheeler(1e-300, 1e300, 1e300, 1.0).is_err());
+}
+
 proptest! {
     /// Never panics on arbitrary input; losses are never negative.
     #[test]
