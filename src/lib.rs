@@ -1,1 +1,17 @@
-//! stackup-lint library
+//! stackup-lint: lint PCB layer stackups and impedance-controlled net classes.
+//!
+//! Data flow, one direction: file text → [`input`] (YAML with spans, units,
+//! schema) → [`model`] (typed, SI) → [`rules`] (findings) → [`output`]
+//! (terminal, JSON, SARIF). Physics lives in the `stackup-physics` crate.
+
+pub mod engine;
+pub mod finding;
+pub mod input;
+pub mod load;
+pub mod model;
+pub mod output;
+pub mod rules;
+pub mod source;
+pub mod walk;
+
+pub use finding::{Finding, Severity};

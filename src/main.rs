@@ -1,1 +1,245 @@
-fn main() {}
+//! The `stackup-lint` command line: parse arguments, call the library, map
+//! the result to an exit code (0 clean, 1 findings, 2 bad input or usage).
+
+use std::io::{IsTerminal, Write};
+use std::path::PathBuf;
+use std::process::ExitCode;
+
+use clap::{Parser, Subcommand, ValueEnum};
+
+use stackup_lint::engine::{self, CheckOptions};
+use stackup_lint::finding::Severity;
+use stackup_lint::input::yaml::YamlLimits;
+use stackup_lint::load::InputLimits;
+use stackup_lint::output::{self, human, json, sarif, Summary};
+use stackup_lint::rules;
+use stackup_lint::walk::WalkOptions;
+
+#[derive(Parser)]
+#[command(
+    name = "stackup-lint",
+    version,
+    about = "Check PCB layer stackups and impedance-controlled net classes kept as YAML",
+    long_about = "Check PCB layer stackups and impedance-controlled net classes kept as YAML.\n\n\
+Reads *.stackup.yaml files (layers top to bottom, materials, copper foils, net classes), \
+validates them, computes what the stackup really does electrically and reports where the \
+stated design assumptions are wrong, pointing at the YAML line.\n\n\
+Results are an engineering aid: confirm final stackups with your fabricator's impedance \
+modelling and test coupons, and follow the applicable IPC standards."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum FailOn {
+    Error,
+    Warning,
+    Note,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum Format {
+    /// Diagnostics with source excerpts (default).
+    Human,
+    /// The stable JSON report (see README).
+    Json,
+}
+
+#[derive(Clone, Copy, ValueEnum)]
+enum Color {
+    Auto,
+    Always,
+    Never,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Lint stackup files (directories are searched for *.stackup.yaml)
+    Check {
+        /// Files or directories to check [default: .]
+        paths: Vec<PathBuf>,
+        /// File-name suffix that marks a stackup file when walking directories
+        #[arg(long, default_value = ".stackup.yaml")]
+        suffix: String,
+        /// Only check files matching this glob (repeatable)
+        #[arg(long, value_name = "GLOB")]
+        include: Vec<String>,
+        /// Skip files matching this glob (repeatable)
+        #[arg(long, value_name = "GLOB")]
+        exclude: Vec<String>,
+        /// Lowest severity that makes the run fail (exit code 1)
+        #[arg(long, value_enum, default_value = "error")]
+        fail_on: FailOn,
+        /// Output format on standard output
+        #[arg(long, value_enum, default_value = "human")]
+        format: Format,
+        /// Also write a SARIF 2.1.0 log for code review tools to this path
+        #[arg(long, value_name = "PATH")]
+        sarif: Option<PathBuf>,
+        /// Colour in terminal output
+        #[arg(long, value_enum, default_value = "auto")]
+        color: Color,
+        /// Largest input file accepted, in bytes
+        #[arg(long, default_value_t = 4 * 1024 * 1024, value_name = "BYTES")]
+        max_file_size: u64,
+        /// Deepest YAML nesting accepted
+        #[arg(long, default_value_t = 64, value_name = "LEVELS")]
+        max_yaml_depth: usize,
+        /// Most YAML nodes a file may expand to (aliases included)
+        #[arg(long, default_value_t = 200_000, value_name = "NODES")]
+        max_yaml_nodes: usize,
+        /// Base address of the rule pages linked from SARIF
+        #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
+        rule_docs_url: String,
+    },
+    /// Print a rule's page: what it checks, the physics, how to fix it
+    Explain {
+        /// Rule name, as printed in brackets by `check`
+        rule: String,
+    },
+    /// List every rule with its default severity
+    Rules,
+}
+
+fn main() -> ExitCode {
+    let cli = Cli::parse();
+    match cli.command {
+        Command::Rules => {
+            let mut out = String::new();
+            for m in rules::all_meta() {
+                out.push_str(&format!(
+                    "{:<28} {:<8} {}\n",
+                    m.name,
+                    m.default_severity.as_str(),
+                    m.summary
+                ));
+            }
+            print(&out);
+            ExitCode::SUCCESS
+        }
+        Command::Explain { rule } => match rules::find_meta(&rule) {
+            Some(m) => {
+                print(m.doc);
+                ExitCode::SUCCESS
+            }
+            None => {
+                let names: Vec<_> = rules::all_meta().iter().map(|m| m.name).collect();
+                eprintln!(
+                    "error: there is no rule named `{rule}`; rules: {}",
+                    names.join(", ")
+                );
+                ExitCode::from(2)
+            }
+        },
+        Command::Check {
+            paths,
+            suffix,
+            include,
+            exclude,
+            fail_on,
+            format,
+            sarif: sarif_path,
+            color,
+            max_file_size,
+            max_yaml_depth,
+            max_yaml_nodes,
+            rule_docs_url,
+        } => {
+            let paths = if paths.is_empty() {
+                vec![PathBuf::from(".")]
+            } else {
+                paths
+            };
+            let opts = CheckOptions {
+                walk: WalkOptions {
+                    suffix,
+                    include,
+                    exclude,
+                    ..WalkOptions::default()
+                },
+                limits: InputLimits {
+                    max_file_bytes: max_file_size,
+                    yaml: YamlLimits {
+                        max_depth: max_yaml_depth,
+                        max_nodes: max_yaml_nodes,
+                    },
+                },
+            };
+            let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+            let outcome = match engine::check_paths(&paths, &base, &opts) {
+                Ok(o) => o,
+                Err(e) => {
+                    eprintln!("error: {e}");
+                    return ExitCode::from(2);
+                }
+            };
+            if let Some(path) = &sarif_path {
+                let log = sarif::render(
+                    &outcome.findings,
+                    &outcome.db,
+                    &rules::all_meta(),
+                    &rule_docs_url,
+                );
+                if let Err(e) = output::write_atomic(path, log.as_bytes()) {
+                    eprintln!(
+                        "error: cannot write the SARIF log to {}: {e}",
+                        path.display()
+                    );
+                    return ExitCode::from(2);
+                }
+            }
+            let summary = Summary::of(&outcome.findings, outcome.files);
+            match format {
+                Format::Json => print(&json::render(&outcome.findings, &outcome.db, outcome.files)),
+                Format::Human => {
+                    let use_color = match color {
+                        Color::Always => true,
+                        Color::Never => false,
+                        Color::Auto => {
+                            std::io::stdout().is_terminal()
+                                && std::env::var_os("NO_COLOR").is_none()
+                        }
+                    };
+                    let width = 100;
+                    let mut text = human::render(
+                        &outcome.findings,
+                        &outcome.db,
+                        human::HumanOptions {
+                            color: use_color,
+                            width,
+                        },
+                    );
+                    text.push_str(&summary.line());
+                    text.push('\n');
+                    print(&text);
+                }
+            }
+            if outcome.has_input_errors() {
+                return ExitCode::from(2);
+            }
+            let threshold = match fail_on {
+                FailOn::Error => Severity::Error,
+                FailOn::Warning => Severity::Warning,
+                FailOn::Note => Severity::Note,
+            };
+            let failing = outcome
+                .findings
+                .iter()
+                .any(|f| f.suppressed.is_none() && f.severity >= threshold);
+            if failing {
+                ExitCode::from(1)
+            } else {
+                ExitCode::SUCCESS
+            }
+        }
+    }
+}
+
+/// Print to standard output, ignoring a closed pipe (`| head`).
+fn print(text: &str) {
+    let mut out = std::io::stdout().lock();
+    let _ = out.write_all(text.as_bytes());
+    let _ = out.flush();
+}

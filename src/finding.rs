@@ -1,0 +1,148 @@
+//! The one finding type every rule returns and every emitter consumes.
+
+use std::fmt;
+
+use crate::source::Location;
+
+/// How serious a finding is.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, PartialOrd, Ord, Hash)]
+pub enum Severity {
+    Note,
+    Warning,
+    Error,
+}
+
+impl Severity {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Severity::Note => "note",
+            Severity::Warning => "warning",
+            Severity::Error => "error",
+        }
+    }
+
+    pub fn parse(s: &str) -> Option<Severity> {
+        match s {
+            "note" => Some(Severity::Note),
+            "warning" => Some(Severity::Warning),
+            "error" => Some(Severity::Error),
+            _ => None,
+        }
+    }
+}
+
+impl fmt::Display for Severity {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(self.as_str())
+    }
+}
+
+/// A secondary place that explains a finding (the material entry, the foil
+/// on the other face, the mirrored layer).
+#[derive(Debug, Clone, PartialEq)]
+pub struct Label {
+    pub location: Location,
+    pub message: String,
+}
+
+/// A problem found in a stackup.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Finding {
+    /// Rule name (kebab-case); `invalid-input` for load and schema errors.
+    pub rule: &'static str,
+    pub severity: Severity,
+    /// What is wrong, with computed and assumed numbers and units;
+    /// lowercase start, no trailing period.
+    pub message: String,
+    /// Where it is.
+    pub primary: Location,
+    /// Short text shown at the primary span.
+    pub primary_label: String,
+    pub labels: Vec<Label>,
+    /// The concrete change that would pass.
+    pub help: Option<String>,
+    /// The numbers that identify this finding, rounded, for the stable
+    /// fingerprint (a finding whose numbers change materially is new).
+    pub key_numbers: Vec<String>,
+    /// Set when a suppression matched: its reason.
+    pub suppressed: Option<String>,
+}
+
+impl Finding {
+    pub fn new(rule: &'static str, primary: Location, message: impl Into<String>) -> Finding {
+        Finding {
+            rule,
+            severity: Severity::Error,
+            message: message.into(),
+            primary,
+            primary_label: String::new(),
+            labels: Vec::new(),
+            help: None,
+            key_numbers: Vec::new(),
+            suppressed: None,
+        }
+    }
+
+    pub fn label(mut self, text: impl Into<String>) -> Self {
+        self.primary_label = text.into();
+        self
+    }
+
+    pub fn with_help(mut self, help: impl Into<String>) -> Self {
+        self.help = Some(help.into());
+        self
+    }
+
+    pub fn secondary(mut self, location: Location, message: impl Into<String>) -> Self {
+        self.labels.push(Label {
+            location,
+            message: message.into(),
+        });
+        self
+    }
+
+    pub fn key(mut self, number: impl Into<String>) -> Self {
+        self.key_numbers.push(number.into());
+        self
+    }
+
+    /// Stable fingerprint: rule, file path, JSON pointer and key numbers.
+    /// It does not change when unrelated lines move.
+    pub fn fingerprint(&self, display_path: &str) -> String {
+        let mut text = format!(
+            "{}\u{0}{}\u{0}{}",
+            self.rule, display_path, self.primary.pointer
+        );
+        for k in &self.key_numbers {
+            text.push('\u{0}');
+            text.push_str(k);
+        }
+        format!("{:016x}", fnv1a64(text.as_bytes()))
+    }
+}
+
+/// FNV-1a 64-bit hash (Fowler, Noll, Vo): deterministic across platforms
+/// and releases, unlike `std`'s `DefaultHasher`.
+pub fn fnv1a64(bytes: &[u8]) -> u64 {
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325;
+    for &b in bytes {
+        h ^= u64::from(b);
+        h = h.wrapping_mul(0x0000_0100_0000_01b3);
+    }
+    h
+}
+
+/// The rule name used for load, YAML, schema and model errors.
+pub const INVALID_INPUT: &str = "invalid-input";
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn fnv_reference_values() {
+        // Test vectors from the FNV reference (Noll, "FNV hash", test suite).
+        assert_eq!(fnv1a64(b""), 0xcbf29ce484222325);
+        assert_eq!(fnv1a64(b"a"), 0xaf63dc4c8601ec8c);
+        assert_eq!(fnv1a64(b"foobar"), 0x85944171f73967e8);
+    }
+}

@@ -1,0 +1,5 @@
+//! Input: YAML with positions, units, and JSON Schema validation.
+
+pub mod schema;
+pub mod units;
+pub mod yaml;

@@ -1,0 +1,395 @@
+//! JSON Schema validation of stackup and library files.
+//!
+//! The schemas in `schema/` are the contract of the input format. Errors from
+//! the `jsonschema` crate are rewritten into plain sentences and placed at
+//! the span of the offending YAML node.
+
+use std::sync::OnceLock;
+
+use jsonschema::error::ValidationErrorKind;
+use jsonschema::{Draft, Registry, ValidationError, Validator};
+
+use crate::finding::{Finding, INVALID_INPUT};
+use crate::source::{escape_token, FileId, SourceDb};
+
+/// The stackup file schema (schema/stackup.schema.json).
+pub const STACKUP_SCHEMA: &str = include_str!("../../schema/stackup.schema.json");
+/// The material library schema (schema/materials.schema.json).
+pub const MATERIALS_SCHEMA: &str = include_str!("../../schema/materials.schema.json");
+
+const STACKUP_ID: &str = "https://stackup-lint.invalid/schema/stackup.schema.json";
+
+/// Which kind of file is being validated.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FileKind {
+    Stackup,
+    Library,
+}
+
+fn parse_schema(text: &str) -> serde_json::Value {
+    serde_json::from_str(text).expect("bundled schema is valid JSON (checked by tests)")
+}
+
+fn registry() -> &'static Registry<'static> {
+    static REG: OnceLock<Registry<'static>> = OnceLock::new();
+    REG.get_or_init(|| {
+        Registry::new()
+            .add(STACKUP_ID, parse_schema(STACKUP_SCHEMA))
+            .and_then(|b| b.prepare())
+            .expect("bundled schema registers (checked by tests)")
+    })
+}
+
+fn validator(kind: FileKind) -> &'static Validator {
+    static STACKUP: OnceLock<Validator> = OnceLock::new();
+    static LIBRARY: OnceLock<Validator> = OnceLock::new();
+    let (cell, text) = match kind {
+        FileKind::Stackup => (&STACKUP, STACKUP_SCHEMA),
+        FileKind::Library => (&LIBRARY, MATERIALS_SCHEMA),
+    };
+    cell.get_or_init(|| {
+        jsonschema::options()
+            .with_draft(Draft::Draft202012)
+            .with_registry(registry())
+            .build(&parse_schema(text))
+            .expect("bundled schema compiles (checked by tests)")
+    })
+}
+
+/// Validate the parsed file `file` of `db`; returns findings at spans.
+pub fn validate(db: &SourceDb, file: FileId, kind: FileKind) -> Vec<Finding> {
+    let Some(tree) = db.get(file).tree.as_ref() else {
+        return Vec::new();
+    };
+    let instance = tree.to_json();
+    let mut out: Vec<Finding> = Vec::new();
+    for err in validator(kind).iter_errors(&instance) {
+        explain(db, file, &err, &mut out);
+    }
+    // One message per place is enough; keep the first.
+    let mut seen = std::collections::BTreeSet::new();
+    out.retain(|f| seen.insert((f.primary.pointer.clone(), f.message.clone())));
+    out
+}
+
+fn finding(
+    db: &SourceDb,
+    file: FileId,
+    pointer: &str,
+    key: bool,
+    message: String,
+    label: &str,
+    help: Option<String>,
+) -> Finding {
+    let loc = if key {
+        db.locate_key(file, pointer)
+    } else {
+        db.locate(file, pointer)
+    };
+    let mut f = Finding::new(INVALID_INPUT, loc, message).label(label);
+    f.help = help;
+    f
+}
+
+fn describe_json(v: &serde_json::Value) -> String {
+    match v {
+        serde_json::Value::Null => "nothing (null)".into(),
+        serde_json::Value::Bool(b) => format!("`{b}`"),
+        serde_json::Value::Number(n) => format!("the number {n}"),
+        serde_json::Value::String(s) => format!("the text \"{s}\""),
+        serde_json::Value::Array(_) => "a list".into(),
+        serde_json::Value::Object(_) => "a mapping".into(),
+    }
+}
+
+/// Name of the last pointer token, for messages.
+fn field_name(pointer: &str) -> String {
+    let last = pointer.rsplit('/').next().unwrap_or("");
+    if last.is_empty() {
+        "the file".into()
+    } else if last.bytes().all(|b| b.is_ascii_digit()) {
+        format!("entry {last}")
+    } else {
+        format!("`{}`", last.replace("~1", "/").replace("~0", "~"))
+    }
+}
+
+fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
+    let ptr = err.instance_path().as_str().to_string();
+    let schema_path = err.schema_path().as_str().to_string();
+    let what = field_name(&ptr);
+    let instance = err.instance();
+    match err.kind() {
+        ValidationErrorKind::Required { property } => {
+            let name = property.as_str().unwrap_or("?");
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                ptr.rsplit('/')
+                    .next()
+                    .is_some_and(|t| !t.bytes().all(|b| b.is_ascii_digit()))
+                    && !ptr.is_empty(),
+                format!("{what} is missing the required key `{name}`"),
+                &format!("`{name}` missing"),
+                required_help(name),
+            ));
+        }
+        ValidationErrorKind::AdditionalProperties { unexpected } => {
+            for key in unexpected {
+                let kp = format!("{ptr}/{}", escape_token(key));
+                let allowed = allowed_keys(&schema_path);
+                out.push(finding(
+                    db,
+                    file,
+                    &kp,
+                    true,
+                    format!("unknown key `{key}` in {what}"),
+                    "not a key of this format",
+                    allowed.map(|a| format!("allowed keys here: {a}")),
+                ));
+            }
+        }
+        ValidationErrorKind::Type { kind } => {
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                false,
+                format!(
+                    "{what} should be {}, found {}",
+                    type_words(&format!("{kind:?}")),
+                    describe_json(instance)
+                ),
+                "wrong type",
+                quantity_help(&schema_path),
+            ));
+        }
+        ValidationErrorKind::Enum { options } => {
+            let opts: Vec<String> = options
+                .as_array()
+                .map(|a| {
+                    a.iter()
+                        .map(|o| o.as_str().map_or(o.to_string(), str::to_string))
+                        .collect()
+                })
+                .unwrap_or_default();
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                false,
+                format!(
+                    "{what} is {}, which is not one of: {}",
+                    describe_json(instance),
+                    opts.join(", ")
+                ),
+                "not an allowed value",
+                Some(format!("use one of: {}", opts.join(", "))),
+            ));
+        }
+        ValidationErrorKind::Constant { expected_value } => out.push(finding(
+            db,
+            file,
+            &ptr,
+            false,
+            format!(
+                "{what} must be {expected_value}, found {}",
+                describe_json(instance)
+            ),
+            "unsupported value",
+            Some(format!(
+                "this version of stackup-lint reads format {expected_value}"
+            )),
+        )),
+        ValidationErrorKind::Pattern { .. } => out.push(finding(
+            db,
+            file,
+            &ptr,
+            false,
+            format!(
+                "{what} is {}, which is not a number followed by a unit",
+                describe_json(instance)
+            ),
+            "expected a number with a unit",
+            quantity_help(&schema_path)
+                .or_else(|| Some("write e.g. \"0.1 mm\", \"4 mil\", \"28 GHz\", \"5 ps\"".into())),
+        )),
+        ValidationErrorKind::MinItems { limit } => out.push(finding(
+            db,
+            file,
+            &ptr,
+            false,
+            format!(
+                "{what} needs at least {limit} entr{}",
+                if *limit == 1 { "y" } else { "ies" }
+            ),
+            "too few entries",
+            None,
+        )),
+        ValidationErrorKind::MinLength { .. } => out.push(finding(
+            db,
+            file,
+            &ptr,
+            false,
+            format!("{what} must not be empty"),
+            "empty",
+            None,
+        )),
+        ValidationErrorKind::OneOfNotValid { context } | ValidationErrorKind::AnyOf { context } => {
+            // Prefer the branch whose problems all lie deeper than this node:
+            // it is the form the author meant.
+            let deeper: Option<&Vec<ValidationError<'static>>> = context
+                .iter()
+                .filter(|branch| {
+                    !branch.is_empty()
+                        && branch
+                            .iter()
+                            .all(|e| e.instance_path().as_str().len() > ptr.len())
+                })
+                .min_by_key(|b| b.len());
+            if let Some(branch) = deeper {
+                for e in branch {
+                    explain(db, file, e, out);
+                }
+            } else {
+                out.push(one_of_message(db, file, &ptr, &schema_path, &what));
+            }
+        }
+        ValidationErrorKind::OneOfMultipleValid { .. } | ValidationErrorKind::Not { .. } => {
+            out.push(one_of_message(db, file, &ptr, &schema_path, &what));
+        }
+        _ => out.push(finding(
+            db,
+            file,
+            &ptr,
+            false,
+            format!("{what}: {err}"),
+            "does not match the format",
+            None,
+        )),
+    }
+}
+
+fn one_of_message(
+    db: &SourceDb,
+    file: FileId,
+    ptr: &str,
+    schema_path: &str,
+    what: &str,
+) -> Finding {
+    let (msg, help) = if schema_path.contains("/layer/")
+        || schema_path.starts_with("/properties/layers")
+    {
+        (
+            format!("{what} of `layers` must be either a copper layer (`copper:`) or a dielectric (`dielectric:`), exactly one"),
+            "e.g. `- name: L1` with `copper: {role: signal, thickness: 35 um}`",
+        )
+    } else if schema_path.contains("dielectric") {
+        (
+            format!("{what} needs `thickness` (pressed) or `nominal-thickness` (as bought)"),
+            "add e.g. `thickness: 0.1 mm`",
+        )
+    } else {
+        (
+            format!("{what} does not match any of the allowed forms"),
+            "see the schema description of this key",
+        )
+    };
+    finding(
+        db,
+        file,
+        ptr,
+        false,
+        msg,
+        "not an allowed form",
+        Some(help.into()),
+    )
+}
+
+fn type_words(kind: &str) -> String {
+    kind.replace("Single(", "")
+        .replace("Multiple(", "")
+        .replace(['(', ')'], "")
+        .to_lowercase()
+        .replace("object", "a mapping")
+        .replace("array", "a list")
+        .replace("string", "text")
+        .replace("number", "a number")
+        .replace("integer", "a whole number")
+        .replace("boolean", "true or false")
+}
+
+fn quantity_help(schema_path: &str) -> Option<String> {
+    let hint = if schema_path.contains("length") {
+        "a length with its unit, e.g. \"0.1 mm\" or \"4 mil\""
+    } else if schema_path.contains("frequency") {
+        "a frequency with its unit, e.g. \"28 GHz\""
+    } else if schema_path.contains("time") {
+        "a time with its unit, e.g. \"5 ps\""
+    } else {
+        return None;
+    };
+    Some(format!("write {hint}"))
+}
+
+fn required_help(name: &str) -> Option<String> {
+    let h = match name {
+        "stackup-lint" => "start the file with `stackup-lint: 1`",
+        "stackup-lint-materials" => "start the library with `stackup-lint-materials: 1`",
+        "layers" => "list the layers from top to bottom under `layers:`",
+        "thickness" => "add e.g. `thickness: 35 um` (copper) or `thickness: 0.1 mm` (dielectric)",
+        "material" => "name a material defined under `materials:`",
+        "width" => "add the trace width, e.g. `width: 0.1 mm`",
+        _ => return None,
+    };
+    Some(h.into())
+}
+
+/// The allowed keys of the object schema at `schema_path`, for help text.
+fn allowed_keys(schema_path: &str) -> Option<String> {
+    let schema = parse_schema(STACKUP_SCHEMA);
+    let base = schema_path.strip_suffix("/additionalProperties")?;
+    // Follow "$ref" segments: the path is expressed through the reference.
+    let mut node = &schema;
+    for tok in base.split('/').filter(|t| !t.is_empty()) {
+        node = match tok {
+            "$ref" => {
+                let r = node.as_str()?;
+                let local = r.rsplit('#').next()?;
+                schema.pointer(local)?
+            }
+            t => node.get(t)?,
+        };
+        if let Some(r) = node.get("$ref").and_then(|v| v.as_str()) {
+            if node.get("properties").is_none() {
+                let local = r.rsplit('#').next()?;
+                node = schema.pointer(local)?;
+            }
+        }
+    }
+    let props = node.get("properties")?.as_object()?;
+    Some(
+        props
+            .keys()
+            .map(String::as_str)
+            .collect::<Vec<_>>()
+            .join(", "),
+    )
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    #[test]
+    fn bundled_schemas_compile() {
+        let _ = validator(FileKind::Stackup);
+        let _ = validator(FileKind::Library);
+        // The schema itself must be a valid 2020-12 schema.
+        for text in [STACKUP_SCHEMA, MATERIALS_SCHEMA] {
+            let schema = parse_schema(text);
+            let meta = jsonschema::draft202012::meta::validate(&schema);
+            assert!(meta.is_ok(), "{meta:?}");
+        }
+    }
+}

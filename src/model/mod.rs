@@ -1,0 +1,380 @@
+//! The typed stackup model, in SI units, with invariants checked.
+//!
+//! Every element keeps the JSON pointer of its YAML node so rules can point
+//! findings at it. Built from the positioned YAML tree by [`build`].
+
+mod build;
+
+pub use build::{build_stackup, load_library, LibraryData};
+
+use std::collections::BTreeMap;
+
+use crate::source::FileId;
+
+/// A whole stackup file, loaded and checked.
+#[derive(Debug, Clone)]
+pub struct Stackup {
+    pub file: FileId,
+    pub board: Option<String>,
+    /// Layers from top to bottom.
+    pub layers: Vec<Layer>,
+    /// Materials by name (file entries override library entries).
+    pub materials: BTreeMap<String, Material>,
+    pub foils: BTreeMap<String, Foil>,
+    pub net_classes: Vec<NetClass>,
+    pub matched_groups: Vec<MatchedGroup>,
+    pub settings: Settings,
+}
+
+#[derive(Debug, Clone)]
+pub struct Layer {
+    pub name: String,
+    pub pointer: String,
+    pub kind: LayerKind,
+}
+
+#[derive(Debug, Clone)]
+pub enum LayerKind {
+    Copper(CopperLayer),
+    Dielectric(DielectricLayer),
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CopperRole {
+    Signal,
+    Plane,
+    Mixed,
+}
+
+impl CopperRole {
+    /// Planes and mixed layers can serve as a return-current reference.
+    pub fn is_reference(self) -> bool {
+        matches!(self, CopperRole::Plane | CopperRole::Mixed)
+    }
+
+    pub fn as_str(self) -> &'static str {
+        match self {
+            CopperRole::Signal => "signal",
+            CopperRole::Plane => "plane",
+            CopperRole::Mixed => "mixed",
+        }
+    }
+}
+
+#[derive(Debug, Clone)]
+pub struct CopperLayer {
+    pub role: CopperRole,
+    /// Finished thickness, m.
+    pub thickness: f64,
+    /// Remaining copper fraction after etching, 0..1.
+    pub fill: Option<f64>,
+    pub plated: bool,
+    /// Face towards the top of the board.
+    pub up: Option<Face>,
+    /// Face towards the bottom of the board.
+    pub down: Option<Face>,
+}
+
+/// Which side of the foil faces the dielectric.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FoilSide {
+    Treated,
+    Drum,
+    BondTreatment,
+}
+
+impl FoilSide {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            FoilSide::Treated => "treated side",
+            FoilSide::Drum => "drum side",
+            FoilSide::BondTreatment => "bond-enhancement treatment",
+        }
+    }
+}
+
+/// Roughness of one copper surface, m.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Roughness {
+    pub rz: Option<f64>,
+    pub rq: Option<f64>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Face {
+    pub pointer: String,
+    pub side: FoilSide,
+    /// `None` when unknown (bond treatment with no data): carried as a range.
+    pub roughness: Option<Roughness>,
+    /// Name of the foil profile it came from, if any.
+    pub foil: Option<String>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Foil {
+    pub name: String,
+    pub file: FileId,
+    pub pointer: String,
+    pub roughness: Roughness,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum DielectricKind {
+    Core,
+    Prepreg,
+    BondingFilm,
+    SolderMask,
+}
+
+impl DielectricKind {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            DielectricKind::Core => "core",
+            DielectricKind::Prepreg => "prepreg",
+            DielectricKind::BondingFilm => "bonding film",
+            DielectricKind::SolderMask => "solder mask",
+        }
+    }
+}
+
+#[derive(Debug, Clone)]
+pub struct DielectricLayer {
+    pub kind: DielectricKind,
+    pub material: String,
+    pub material_pointer: String,
+    /// Thickness used for the electrical model, m (pressed if known).
+    pub thickness: f64,
+    /// Whether `thickness` is a pressed value given by the user (false when
+    /// only a nominal thickness was given).
+    pub pressed_given: bool,
+    /// Nominal (as-bought) thickness, if given.
+    pub nominal_thickness: Option<f64>,
+    pub glass_style: Option<String>,
+    pub resin_content: Option<f64>,
+    /// The Dk the design model gives this layer, when stated.
+    pub design_dk: Option<f64>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum MeasurementMethod {
+    Resonator,
+    TransmissionLine,
+    Unknown,
+}
+
+/// One measured (f, Dk, Df) point.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DkPoint {
+    pub frequency: f64,
+    pub dk: f64,
+    pub df: f64,
+}
+
+#[derive(Debug, Clone)]
+pub struct Material {
+    pub name: String,
+    pub file: FileId,
+    pub pointer: String,
+    pub class: Option<String>,
+    /// At least one point, sorted by frequency.
+    pub points: Vec<DkPoint>,
+    pub valid_from: Option<f64>,
+    pub valid_to: Option<f64>,
+    pub method: MeasurementMethod,
+    pub dk_tolerance: Option<f64>,
+}
+
+impl Material {
+    /// The Dk at the first data point (the headline value).
+    pub fn dk(&self) -> f64 {
+        self.points[0].dk
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Structure {
+    Microstrip,
+    EmbeddedMicrostrip,
+    Stripline,
+    DiffMicrostrip,
+    DiffStripline,
+    CoplanarGrounded,
+}
+
+impl Structure {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Structure::Microstrip => "microstrip",
+            Structure::EmbeddedMicrostrip => "embedded-microstrip",
+            Structure::Stripline => "stripline",
+            Structure::DiffMicrostrip => "diff-microstrip",
+            Structure::DiffStripline => "diff-stripline",
+            Structure::CoplanarGrounded => "coplanar-grounded",
+        }
+    }
+
+    /// Lines with a reference plane on both sides.
+    pub fn is_stripline(self) -> bool {
+        matches!(self, Structure::Stripline | Structure::DiffStripline)
+    }
+
+    pub fn is_differential(self) -> bool {
+        matches!(self, Structure::DiffMicrostrip | Structure::DiffStripline)
+    }
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Modulation {
+    Nrz,
+    Pam4,
+}
+
+/// A target impedance with its tolerance (absolute, ohms).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ImpedanceTarget {
+    pub target: f64,
+    pub tolerance: f64,
+}
+
+#[derive(Debug, Clone)]
+pub struct NetClass {
+    pub name: String,
+    pub pointer: String,
+    pub structure: Structure,
+    pub layer: String,
+    /// Index of the signal layer in `Stackup::layers`.
+    pub layer_index: usize,
+    /// Named references (indices into layers), when given.
+    pub references: Option<Vec<usize>>,
+    /// Base width, m.
+    pub width: f64,
+    /// Top width, m (from `top-width` or the etch factor), if known.
+    pub top_width: Option<f64>,
+    pub etch_factor: Option<f64>,
+    pub spacing: Option<f64>,
+    pub gap: Option<f64>,
+    pub impedance: Option<ImpedanceTarget>,
+    /// Highest frequency of interest, Hz (given or from the data rate).
+    pub max_frequency: Option<f64>,
+    pub data_rate: Option<f64>,
+    pub modulation: Option<Modulation>,
+    pub assumed_dk: Option<f64>,
+    pub via_fence_pitch: Option<f64>,
+    pub launch_valid_to: Option<f64>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Segment {
+    pub pointer: String,
+    pub layer_index: usize,
+    pub length: f64,
+    /// Index into `Stackup::net_classes` of the class giving the geometry.
+    pub net_class: Option<usize>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Net {
+    pub name: String,
+    pub pointer: String,
+    pub segments: Vec<Segment>,
+}
+
+#[derive(Debug, Clone)]
+pub struct MatchedGroup {
+    pub name: String,
+    pub pointer: String,
+    /// Seconds.
+    pub skew_budget: f64,
+    pub nets: Vec<Net>,
+}
+
+/// Configured severity of a rule: a level, or off.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Level {
+    Off,
+    On(crate::finding::Severity),
+}
+
+#[derive(Debug, Clone)]
+pub struct RuleSettings {
+    pub pointer: String,
+    pub level: Option<Level>,
+    /// The rule's options, as the YAML node pointer for each key.
+    pub options: BTreeMap<String, String>,
+}
+
+#[derive(Debug, Clone)]
+pub struct Suppression {
+    pub pointer: String,
+    pub rule: String,
+    /// A layer, material, net class or group name; `None` = whole file.
+    pub at: Option<String>,
+    pub reason: String,
+}
+
+#[derive(Debug, Clone)]
+pub struct BoardThickness {
+    pub pointer: String,
+    pub target: f64,
+    /// Absolute, m.
+    pub tolerance: f64,
+}
+
+#[derive(Debug, Clone, Default)]
+pub struct Settings {
+    pub board_thickness: Option<BoardThickness>,
+    pub rules: BTreeMap<String, RuleSettings>,
+    pub suppressions: Vec<Suppression>,
+}
+
+impl Stackup {
+    pub fn layer_index(&self, name: &str) -> Option<usize> {
+        self.layers.iter().position(|l| l.name == name)
+    }
+
+    pub fn copper(&self, i: usize) -> Option<&CopperLayer> {
+        match &self.layers.get(i)?.kind {
+            LayerKind::Copper(c) => Some(c),
+            LayerKind::Dielectric(_) => None,
+        }
+    }
+
+    pub fn dielectric(&self, i: usize) -> Option<&DielectricLayer> {
+        match &self.layers.get(i)?.kind {
+            LayerKind::Dielectric(d) => Some(d),
+            LayerKind::Copper(_) => None,
+        }
+    }
+
+    /// Thickness of layer `i`, m.
+    pub fn thickness(&self, i: usize) -> f64 {
+        match &self.layers[i].kind {
+            LayerKind::Copper(c) => c.thickness,
+            LayerKind::Dielectric(d) => d.thickness,
+        }
+    }
+
+    /// Total thickness over all layers, m.
+    pub fn total_thickness(&self) -> f64 {
+        (0..self.layers.len()).map(|i| self.thickness(i)).sum()
+    }
+
+    /// Nearest reference (plane or mixed) copper layer above layer `i`.
+    pub fn reference_above(&self, i: usize) -> Option<usize> {
+        (0..i)
+            .rev()
+            .find(|&j| self.copper(j).is_some_and(|c| c.role.is_reference()))
+    }
+
+    /// Nearest reference (plane or mixed) copper layer below layer `i`.
+    pub fn reference_below(&self, i: usize) -> Option<usize> {
+        (i + 1..self.layers.len()).find(|&j| self.copper(j).is_some_and(|c| c.role.is_reference()))
+    }
+
+    /// Copper layers, as indices, top to bottom.
+    pub fn copper_indices(&self) -> Vec<usize> {
+        (0..self.layers.len())
+            .filter(|&i| self.copper(i).is_some())
+            .collect()
+    }
+}

@@ -1,0 +1,113 @@
+//! `--format json`: a documented, stable JSON report (format version 1).
+//!
+//! ```json
+//! { "version": 1,
+//!   "findings": [ { "rule", "severity", "message", "help", "file", "pointer",
+//!                   "line", "column", "end_line", "end_column",
+//!                   "labels": [ { "message", "file", "line", "column" } ],
+//!                   "fingerprint", "suppressed" } ],
+//!   "summary": { "errors", "warnings", "notes", "suppressed", "files" } }
+//! ```
+//! Lines and columns are 1-based; columns count Unicode scalar values.
+
+use serde::Serialize;
+
+use crate::finding::Finding;
+use crate::output::Summary;
+use crate::source::{line_col, SourceDb};
+
+#[derive(Serialize)]
+struct Report<'a> {
+    version: u32,
+    findings: Vec<JsonFinding<'a>>,
+    summary: JsonSummary,
+}
+
+#[derive(Serialize)]
+struct JsonSummary {
+    errors: usize,
+    warnings: usize,
+    notes: usize,
+    suppressed: usize,
+    files: usize,
+}
+
+#[derive(Serialize)]
+struct JsonLabel<'a> {
+    message: &'a str,
+    file: &'a str,
+    line: usize,
+    column: usize,
+}
+
+#[derive(Serialize)]
+struct JsonFinding<'a> {
+    rule: &'a str,
+    severity: &'a str,
+    message: &'a str,
+    help: Option<&'a str>,
+    file: &'a str,
+    pointer: &'a str,
+    line: usize,
+    column: usize,
+    end_line: usize,
+    end_column: usize,
+    labels: Vec<JsonLabel<'a>>,
+    fingerprint: String,
+    suppressed: Option<&'a str>,
+}
+
+/// Render the findings as the JSON report.
+pub fn render(findings: &[Finding], db: &SourceDb, files: usize) -> String {
+    let s = Summary::of(findings, files);
+    let report = Report {
+        version: 1,
+        findings: findings
+            .iter()
+            .map(|f| {
+                let file = db.get(f.primary.file);
+                let (line, column) = line_col(&file.text, f.primary.span.start);
+                let (end_line, end_column) = line_col(&file.text, f.primary.span.end);
+                JsonFinding {
+                    rule: f.rule,
+                    severity: f.severity.as_str(),
+                    message: &f.message,
+                    help: f.help.as_deref(),
+                    file: &file.display,
+                    pointer: &f.primary.pointer,
+                    line,
+                    column,
+                    end_line,
+                    end_column,
+                    labels: f
+                        .labels
+                        .iter()
+                        .map(|l| {
+                            let lf = db.get(l.location.file);
+                            let (line, column) = line_col(&lf.text, l.location.span.start);
+                            JsonLabel {
+                                message: &l.message,
+                                file: &lf.display,
+                                line,
+                                column,
+                            }
+                        })
+                        .collect(),
+                    fingerprint: f.fingerprint(&file.display),
+                    suppressed: f.suppressed.as_deref(),
+                }
+            })
+            .collect(),
+        summary: JsonSummary {
+            errors: s.errors,
+            warnings: s.warnings,
+            notes: s.notes,
+            suppressed: s.suppressed,
+            files: s.files,
+        },
+    };
+    let mut text =
+        serde_json::to_string_pretty(&report).unwrap_or_else(|e| format!("{{\"error\": \"{e}\"}}"));
+    text.push('\n');
+    text
+}

@@ -1,0 +1,68 @@
+//! Emitters: they consume the finished list of findings and rule metadata.
+
+pub mod human;
+pub mod json;
+pub mod sarif;
+
+use crate::finding::{Finding, Severity};
+
+/// Counts for the closing summary line.
+#[derive(Debug, Default, Clone, Copy, PartialEq, Eq)]
+pub struct Summary {
+    pub errors: usize,
+    pub warnings: usize,
+    pub notes: usize,
+    pub suppressed: usize,
+    pub files: usize,
+}
+
+impl Summary {
+    pub fn of(findings: &[Finding], files: usize) -> Summary {
+        let mut s = Summary {
+            files,
+            ..Summary::default()
+        };
+        for f in findings {
+            if f.suppressed.is_some() {
+                s.suppressed += 1;
+                continue;
+            }
+            match f.severity {
+                Severity::Error => s.errors += 1,
+                Severity::Warning => s.warnings += 1,
+                Severity::Note => s.notes += 1,
+            }
+        }
+        s
+    }
+
+    pub fn line(&self) -> String {
+        let plural = |n: usize, w: &str| format!("{n} {w}{}", if n == 1 { "" } else { "s" });
+        let mut line = format!(
+            "{}, {}, {} in {}",
+            plural(self.errors, "error"),
+            plural(self.warnings, "warning"),
+            plural(self.notes, "note"),
+            plural(self.files, "file")
+        );
+        if self.suppressed > 0 {
+            line.push_str(&format!(" ({} suppressed)", self.suppressed));
+        }
+        line
+    }
+}
+
+/// Write `contents` to `path` atomically: a temporary file in the same
+/// directory, then a rename, so no half-written file is ever left behind.
+pub fn write_atomic(path: &std::path::Path, contents: &[u8]) -> std::io::Result<()> {
+    use std::io::Write;
+    let dir = path
+        .parent()
+        .filter(|p| !p.as_os_str().is_empty())
+        .unwrap_or(std::path::Path::new("."));
+    let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
+    tmp.write_all(contents)?;
+    tmp.as_file().sync_all()?;
+    tmp.persist(path).map_err(|e| e.error)?;
+    Ok(())
+}

@@ -1,0 +1,118 @@
+//! `stackup-mirror-asymmetry`: the build is not mirror-symmetric about its
+//! centre in copper or dielectric (bow-and-twist risk).
+
+use crate::finding::{Finding, Severity};
+use crate::input::units::fmt_length;
+use crate::model::LayerKind;
+use crate::rules::{Rule, RuleContext, RuleMeta};
+
+pub struct StackupMirrorAsymmetry;
+
+static META: RuleMeta = RuleMeta {
+    name: "stackup-mirror-asymmetry",
+    summary:
+        "the stackup is not mirror-symmetric about its centre in copper or dielectric (warp risk)",
+    default_severity: Severity::Warning,
+    doc: include_str!("../../rules/stackup-mirror-asymmetry.md"),
+    options: &["thickness-tolerance", "fill-tolerance"],
+};
+
+impl Rule for StackupMirrorAsymmetry {
+    fn meta(&self) -> &'static RuleMeta {
+        &META
+    }
+
+    fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
+        let s = cx.stackup;
+        let tol = cx.option_fraction("thickness-tolerance", 0.10);
+        let fill_tol = cx.option_fraction("fill-tolerance", 0.30);
+        let n = s.layers.len();
+        let mut out = Vec::new();
+        for i in 0..n / 2 {
+            let j = n - 1 - i;
+            let (a, b) = (&s.layers[i], &s.layers[j]);
+            let mut problems = Vec::new();
+            let mut keys = Vec::new();
+            let rel = |x: f64, y: f64| (x - y).abs() / x.max(y);
+            match (&a.kind, &b.kind) {
+                (LayerKind::Copper(ca), LayerKind::Copper(cb)) => {
+                    if rel(ca.thickness, cb.thickness) > tol {
+                        problems.push(format!(
+                            "copper {} vs {}",
+                            fmt_length(ca.thickness),
+                            fmt_length(cb.thickness)
+                        ));
+                        keys.push(format!(
+                            "cu{:.0}/{:.0}",
+                            ca.thickness * 1e6,
+                            cb.thickness * 1e6
+                        ));
+                    }
+                    if let (Some(fa), Some(fb)) = (ca.fill, cb.fill) {
+                        if (fa - fb).abs() > fill_tol {
+                            problems.push(format!(
+                                "copper fill {:.0} % vs {:.0} %",
+                                fa * 100.0,
+                                fb * 100.0
+                            ));
+                            keys.push(format!("fill{:.0}/{:.0}", fa * 100.0, fb * 100.0));
+                        }
+                    }
+                }
+                (LayerKind::Dielectric(da), LayerKind::Dielectric(db)) => {
+                    if rel(da.thickness, db.thickness) > tol {
+                        problems.push(format!(
+                            "thickness {} vs {}",
+                            fmt_length(da.thickness),
+                            fmt_length(db.thickness)
+                        ));
+                        keys.push(format!(
+                            "t{:.0}/{:.0}",
+                            da.thickness * 1e6,
+                            db.thickness * 1e6
+                        ));
+                    }
+                    if da.kind != db.kind {
+                        problems.push(format!("{} vs {}", da.kind.as_str(), db.kind.as_str()));
+                        keys.push(format!("{}/{}", da.kind.as_str(), db.kind.as_str()));
+                    }
+                    if da.material != db.material {
+                        problems.push(format!("material `{}` vs `{}`", da.material, db.material));
+                        keys.push(format!("{}/{}", da.material, db.material));
+                    }
+                }
+                _ => {
+                    problems.push(
+                        "copper facing dielectric: the two halves have different layer sequences"
+                            .to_string(),
+                    );
+                    keys.push("sequence".into());
+                }
+            }
+            if problems.is_empty() {
+                continue;
+            }
+            let mut f = Finding::new(
+                META.name,
+                cx.at_layer(i),
+                format!(
+                    "layer `{}` and its mirror `{}` differ: {}",
+                    a.name,
+                    b.name,
+                    problems.join("; ")
+                ),
+            )
+            .label("upper half")
+            .secondary(cx.at_layer(j), "mirror position in the lower half")
+            .with_help(format!(
+                "build the two halves alike (copper weight, dielectric thickness within {:.0} %, ply kind and material) so the board stays flat through reflow; or suppress with the fab's agreement",
+                tol * 100.0
+            ));
+            for k in keys {
+                f = f.key(k);
+            }
+            out.push(f);
+        }
+        out
+    }
+}

@@ -1,0 +1,365 @@
+//! The rule engine: a registry of rules, per-project severities and options,
+//! and suppressions.
+//!
+//! A rule is a pure function of the model (and, for electrical rules, the
+//! analysis results) that returns neutral findings. The engine decorates them:
+//! configured severity, suppression state. Rules never parse YAML, never
+//! solve fields and never format output.
+
+mod board_thickness;
+mod broadside;
+mod mirror_symmetry;
+mod reference_plane;
+
+use std::cell::RefCell;
+use std::collections::BTreeSet;
+
+use crate::finding::{Finding, Severity, INVALID_INPUT};
+use crate::input::units::{self, Dimension};
+use crate::input::yaml::Value;
+use crate::model::{Level, Stackup};
+use crate::source::{Location, SourceDb};
+
+/// What a rule is, for `rules`, `explain` and SARIF metadata.
+#[derive(Debug)]
+pub struct RuleMeta {
+    /// kebab-case name, the rule's id everywhere.
+    pub name: &'static str,
+    /// One line: what it checks.
+    pub summary: &'static str,
+    pub default_severity: Severity,
+    /// The rule page (rules/<name>.md), one copy.
+    pub doc: &'static str,
+    /// Option keys accepted under `settings.rules.<name>`.
+    pub options: &'static [&'static str],
+}
+
+/// A lint rule.
+pub trait Rule: Sync {
+    fn meta(&self) -> &'static RuleMeta;
+    fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding>;
+}
+
+/// What a rule may read.
+pub struct RuleContext<'a> {
+    pub stackup: &'a Stackup,
+    pub db: &'a SourceDb,
+    rule: &'static str,
+    option_errors: RefCell<Vec<Finding>>,
+}
+
+impl<'a> RuleContext<'a> {
+    /// Location of a node of this stackup's file.
+    pub fn at(&self, pointer: &str) -> Location {
+        self.db.locate(self.stackup.file, pointer)
+    }
+
+    /// Location of the key that introduces a node (for whole entries).
+    pub fn at_key(&self, pointer: &str) -> Location {
+        self.db.locate_key(self.stackup.file, pointer)
+    }
+
+    /// Location of layer `i`'s name (a short, one-line span).
+    pub fn at_layer(&self, i: usize) -> Location {
+        self.at(&format!("{}/name", self.stackup.layers[i].pointer))
+    }
+
+    /// Location of a node in any file (materials may live in libraries).
+    pub fn at_in(&self, file: usize, pointer: &str) -> Location {
+        self.db.locate(file, pointer)
+    }
+
+    fn option_node(&self, key: &str) -> Option<(String, &'a Value)> {
+        let ptr = self
+            .stackup
+            .settings
+            .rules
+            .get(self.rule)?
+            .options
+            .get(key)?
+            .clone();
+        let node = self
+            .db
+            .get(self.stackup.file)
+            .tree
+            .as_ref()?
+            .pointer(&ptr)?;
+        Some((ptr, &node.value))
+    }
+
+    fn option_error(&self, ptr: &str, msg: String) {
+        let f = Finding::new(INVALID_INPUT, self.at(ptr), msg).label("invalid option value");
+        self.option_errors.borrow_mut().push(f);
+    }
+
+    /// A fraction option (bare 0..1 or "10 %").
+    pub fn option_fraction(&self, key: &str, default: f64) -> f64 {
+        let Some((ptr, v)) = self.option_node(key) else {
+            return default;
+        };
+        let parsed = match v {
+            Value::Number(n) => units::bare_number(*n, Dimension::Fraction),
+            Value::String(s) => units::parse_quantity(s, Dimension::Fraction),
+            _ => Err(units::UnitError::Empty),
+        };
+        match parsed {
+            Ok(x) if (0.0..=10.0).contains(&x) => x,
+            Ok(x) => {
+                self.option_error(
+                    &ptr,
+                    format!(
+                        "option `{key}` of `{}` must be a fraction, got {x}",
+                        self.rule
+                    ),
+                );
+                default
+            }
+            Err(e) => {
+                self.option_error(&ptr, format!("option `{key}` of `{}`: {e}", self.rule));
+                default
+            }
+        }
+    }
+
+    /// A quantity option with a unit.
+    pub fn option_quantity(&self, key: &str, dim: Dimension, default: f64) -> f64 {
+        let Some((ptr, v)) = self.option_node(key) else {
+            return default;
+        };
+        let parsed = match v {
+            Value::Number(n) => units::bare_number(*n, dim),
+            Value::String(s) => units::parse_quantity(s, dim),
+            _ => Err(units::UnitError::Empty),
+        };
+        match parsed {
+            Ok(x) if x >= 0.0 => x,
+            Ok(x) => {
+                self.option_error(
+                    &ptr,
+                    format!(
+                        "option `{key}` of `{}` must not be negative, got {x}",
+                        self.rule
+                    ),
+                );
+                default
+            }
+            Err(e) => {
+                self.option_error(&ptr, format!("option `{key}` of `{}`: {e}", self.rule));
+                default
+            }
+        }
+    }
+}
+
+/// Every rule, in the order they run and are listed.
+pub fn registry() -> &'static [&'static dyn Rule] {
+    &[
+        &reference_plane::MissingReferencePlane,
+        &broadside::BroadsideSignalLayers,
+        &mirror_symmetry::StackupMirrorAsymmetry,
+        &board_thickness::BoardThicknessOffTarget,
+    ]
+}
+
+/// Metadata of the pseudo-rule for load, YAML, schema and model errors.
+pub static INVALID_INPUT_META: RuleMeta = RuleMeta {
+    name: INVALID_INPUT,
+    summary: "the file cannot be read as a stackup: YAML, schema, unit or reference error",
+    default_severity: Severity::Error,
+    doc: include_str!("../../rules/invalid-input.md"),
+    options: &[],
+};
+
+/// Metadata of the pseudo-rule reporting suppressions that matched nothing.
+pub static UNUSED_SUPPRESSION_META: RuleMeta = RuleMeta {
+    name: UNUSED_SUPPRESSION,
+    summary: "a suppression in `settings.suppress` matches no finding",
+    default_severity: Severity::Warning,
+    doc: include_str!("../../rules/unused-suppression.md"),
+    options: &[],
+};
+
+pub const UNUSED_SUPPRESSION: &str = "unused-suppression";
+
+/// All rule metadata, the pseudo-rules included (SARIF lists them all).
+pub fn all_meta() -> Vec<&'static RuleMeta> {
+    let mut v: Vec<&'static RuleMeta> = registry().iter().map(|r| r.meta()).collect();
+    v.push(&INVALID_INPUT_META);
+    v.push(&UNUSED_SUPPRESSION_META);
+    v
+}
+
+pub fn find_meta(name: &str) -> Option<&'static RuleMeta> {
+    all_meta().into_iter().find(|m| m.name == name)
+}
+
+/// Run every enabled rule on one stackup; returns findings with configured
+/// severities, suppressed ones marked (not dropped).
+pub fn run(stackup: &Stackup, db: &SourceDb) -> Vec<Finding> {
+    let mut out = Vec::new();
+    let known: BTreeSet<&str> = all_meta().iter().map(|m| m.name).collect();
+    // Settings that name unknown rules or options are input errors.
+    for (name, rs) in &stackup.settings.rules {
+        match find_meta(name) {
+            None => out.push(
+                Finding::new(
+                    INVALID_INPUT,
+                    db.locate_key(stackup.file, &rs.pointer),
+                    format!("there is no rule named `{name}`"),
+                )
+                .label("unknown rule")
+                .with_help(format!(
+                    "rules: {}",
+                    known.iter().copied().collect::<Vec<_>>().join(", ")
+                )),
+            ),
+            Some(meta) => {
+                for (key, ptr) in &rs.options {
+                    if !meta.options.contains(&key.as_str()) {
+                        out.push(
+                            Finding::new(
+                                INVALID_INPUT,
+                                db.locate_key(stackup.file, ptr),
+                                format!("rule `{name}` has no option `{key}`"),
+                            )
+                            .label("unknown option")
+                            .with_help(if meta.options.is_empty() {
+                                "this rule takes only `severity`".to_string()
+                            } else {
+                                format!("options: severity, {}", meta.options.join(", "))
+                            }),
+                        );
+                    }
+                }
+            }
+        }
+    }
+    for s in &stackup.settings.suppressions {
+        if !known.contains(s.rule.as_str()) {
+            out.push(
+                Finding::new(
+                    INVALID_INPUT,
+                    db.locate(stackup.file, &format!("{}/rule", s.pointer)),
+                    format!("suppression names `{}`, which is not a rule", s.rule),
+                )
+                .label("unknown rule"),
+            );
+        }
+    }
+    for rule in registry() {
+        let meta = rule.meta();
+        let level = stackup
+            .settings
+            .rules
+            .get(meta.name)
+            .and_then(|r| r.level)
+            .unwrap_or(Level::On(meta.default_severity));
+        let Level::On(severity) = level else { continue };
+        let cx = RuleContext {
+            stackup,
+            db,
+            rule: meta.name,
+            option_errors: RefCell::new(Vec::new()),
+        };
+        let mut found = rule.check(&cx);
+        out.extend(cx.option_errors.into_inner());
+        for f in &mut found {
+            f.rule = meta.name;
+            f.severity = severity;
+        }
+        out.extend(found);
+    }
+    apply_suppressions(stackup, db, &mut out);
+    out
+}
+
+/// The JSON pointers an `at:` name covers in this stackup.
+fn pointers_named(stackup: &Stackup, name: &str) -> Vec<String> {
+    let mut v = Vec::new();
+    v.extend(
+        stackup
+            .layers
+            .iter()
+            .filter(|l| l.name == name)
+            .map(|l| l.pointer.clone()),
+    );
+    v.extend(
+        stackup
+            .net_classes
+            .iter()
+            .filter(|c| c.name == name)
+            .map(|c| c.pointer.clone()),
+    );
+    v.extend(
+        stackup
+            .matched_groups
+            .iter()
+            .filter(|g| g.name == name)
+            .map(|g| g.pointer.clone()),
+    );
+    v.extend(
+        stackup
+            .materials
+            .get(name)
+            .filter(|m| m.file == stackup.file)
+            .map(|m| m.pointer.clone()),
+    );
+    v.extend(
+        stackup
+            .foils
+            .get(name)
+            .filter(|f| f.file == stackup.file)
+            .map(|f| f.pointer.clone()),
+    );
+    v
+}
+
+fn covers(prefix: &str, pointer: &str) -> bool {
+    pointer == prefix || pointer.starts_with(&format!("{prefix}/"))
+}
+
+fn apply_suppressions(stackup: &Stackup, db: &SourceDb, findings: &mut Vec<Finding>) {
+    let mut unused = Vec::new();
+    for s in &stackup.settings.suppressions {
+        let scope = s.at.as_ref().map(|n| pointers_named(stackup, n));
+        let mut used = false;
+        for f in findings.iter_mut() {
+            if f.rule != s.rule || f.rule == INVALID_INPUT || f.primary.file != stackup.file {
+                continue;
+            }
+            let hit = match &scope {
+                None => true,
+                Some(ptrs) => ptrs.iter().any(|p| {
+                    covers(p, &f.primary.pointer)
+                        || f.labels.iter().any(|l| {
+                            l.location.file == stackup.file && covers(p, &l.location.pointer)
+                        })
+                }),
+            };
+            if hit {
+                used = true;
+                if f.suppressed.is_none() {
+                    f.suppressed = Some(s.reason.clone());
+                }
+            }
+        }
+        if !used && s.rule != INVALID_INPUT {
+            let mut f = Finding::new(
+                UNUSED_SUPPRESSION,
+                db.locate(stackup.file, &s.pointer),
+                format!(
+                    "this suppression of `{}`{} matches no finding",
+                    s.rule,
+                    s.at.as_ref()
+                        .map(|a| format!(" at `{a}`"))
+                        .unwrap_or_default()
+                ),
+            )
+            .label("matches nothing")
+            .with_help("remove it, so that a future finding of this rule is not hidden by mistake");
+            f.severity = UNUSED_SUPPRESSION_META.default_severity;
+            unused.push(f);
+        }
+    }
+    findings.extend(unused);
+}
