@@ -12,6 +12,11 @@ pub const ETA0: f64 = MU0 * C0;
 pub const MIL: f64 = 25.4e-6;
 /// Nepers to decibels: 20 / ln 10.
 pub const NP_TO_DB: f64 = 8.685_889_638_065_037;
+/// Thickness of one ounce per square foot of copper, m.
+///
+/// 1 oz = 28.3495 g spread over 1 ft² = 0.092903 m² at a density of
+/// 8.89 g/cm³ gives 34.3 µm; IPC-4562 lists 34.3 µm for 1 oz foil (from memory).
+pub const OUNCE_COPPER_THICKNESS: f64 = 28.349_523_125e-3 / (0.092_903_04 * 8_890.0);
 
 #[cfg(test)]
 mod tests {
@@ -20,5 +25,11 @@ mod tests {
     fn eta0_is_physical_not_120pi() {
         // CODATA 2018 characteristic impedance of vacuum: 376.730 313 668 ohm.
         assert!((ETA0 - 376.730_313_668).abs() < 1e-6);
+    }
+
+    #[test]
+    fn ounce_of_copper() {
+        // IPC-4562 nominal 1 oz foil: 34.3 um (from memory); 0.5 oz = 17.1 um.
+        assert!((OUNCE_COPPER_THICKNESS - 34.3e-6).abs() < 0.05e-6);
     }
 }

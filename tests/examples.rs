@@ -1,0 +1,103 @@
+//! The demo boards, through the binary: exit codes and reviewed snapshots of
+//! the terminal text (no colour, fixed width) and of the SARIF log.
+
+use std::process::Command;
+
+fn run(args: &[&str]) -> (Option<i32>, String, String) {
+    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .env("NO_COLOR", "1")
+        .args(args)
+        .output()
+        .expect("binary runs");
+    (
+        o.status.code(),
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn clean_board_passes() {
+    let (code, out, err) = run(&["check", "examples/radar-sensor-6l", "--color", "never"]);
+    assert_eq!(code, Some(0), "{out}{err}");
+    assert!(
+        out.contains("0 errors, 0 warnings, 0 notes in 1 file"),
+        "{out}"
+    );
+}
+
+#[test]
+fn flawed_board_fails_with_every_rule() {
+    let (code, out, err) = run(&["check", "examples/line-card-10l", "--color", "never"]);
+    assert_eq!(code, Some(1), "{err}");
+    for rule in stackup_lint::rules::registry() {
+        let name = rule.meta().name;
+        assert!(
+            out.contains(name),
+            "the flawed board should trigger `{name}`"
+        );
+    }
+    insta::assert_snapshot!("line_card_human", out);
+}
+
+#[test]
+fn flawed_board_sarif_snapshot() {
+    let dir = tempfile::tempdir().unwrap();
+    let path = dir.path().join("out.sarif");
+    let (code, _, _) = run(&[
+        "check",
+        "examples/line-card-10l",
+        "--color",
+        "never",
+        "--sarif",
+        path.to_str().unwrap(),
+    ]);
+    assert_eq!(code, Some(1));
+    let mut log: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(&path).unwrap()).unwrap();
+    // Rule help texts are the rule pages, reviewed on their own; keep the
+    // snapshot to what the run produced.
+    for r in log["runs"][0]["tool"]["driver"]["rules"]
+        .as_array_mut()
+        .unwrap()
+    {
+        r["help"] = serde_json::Value::String("(rule page)".into());
+        r["fullDescription"] =
+            serde_json::Value::String("(first paragraph of the rule page)".into());
+    }
+    log["runs"][0]["tool"]["driver"]["version"] = "(version)".into();
+    log["runs"][0]["tool"]["driver"]["semanticVersion"] = "(version)".into();
+    insta::assert_json_snapshot!("line_card_sarif", log);
+}
+
+#[test]
+fn json_format_is_stable() {
+    let (code, out, _) = run(&["check", "examples/line-card-10l", "--format", "json"]);
+    assert_eq!(code, Some(1));
+    let v: serde_json::Value = serde_json::from_str(&out).expect("JSON on stdout");
+    assert_eq!(v["version"], 1);
+    insta::assert_json_snapshot!("line_card_json", v);
+}
+
+#[test]
+fn fail_on_warning_and_rules_and_explain() {
+    let (code, _, _) = run(&["check", "examples/radar-sensor-6l", "--fail-on", "note"]);
+    assert_eq!(code, Some(0));
+    let (code, out, _) = run(&["rules"]);
+    assert_eq!(code, Some(0));
+    assert!(out.contains("missing-reference-plane"));
+    let (code, out, _) = run(&["explain", "broadside-signal-layers"]);
+    assert_eq!(code, Some(0));
+    assert!(out.starts_with("# broadside-signal-layers"));
+    let (code, _, err) = run(&["explain", "no-such-rule"]);
+    assert_eq!(code, Some(2));
+    assert!(err.contains("no rule named"));
+}
+
+#[test]
+fn output_is_deterministic() {
+    let a = run(&["check", "examples/", "--format", "json"]).1;
+    let b = run(&["check", "examples/", "--format", "json"]).1;
+    assert_eq!(a, b);
+}

@@ -1,0 +1,130 @@
+//! The project stays consistent with itself: every rule has exactly one page
+//! in rules/, the page has the required sections, and its YAML examples
+//! behave as labelled (the "fires" one fires the rule, the "passes" one does not).
+
+use stackup_lint::finding::INVALID_INPUT;
+use stackup_lint::load::{load_text, InputLimits};
+use stackup_lint::{engine, rules};
+
+/// Fenced code blocks whose info string is `yaml <label>`.
+fn blocks<'a>(doc: &'a str, label: &str) -> Vec<&'a str> {
+    let fence = format!("```yaml {label}\n");
+    let mut out = Vec::new();
+    let mut rest = doc;
+    while let Some(i) = rest.find(&fence) {
+        let body = &rest[i + fence.len()..];
+        let end = body.find("```").expect("closed fence");
+        out.push(&body[..end]);
+        rest = &body[end..];
+    }
+    out
+}
+
+fn rules_fired(text: &str) -> Vec<&'static str> {
+    let loaded = load_text("example.stackup.yaml", text, &InputLimits::default());
+    let outcome = engine::lint(loaded);
+    outcome
+        .findings
+        .iter()
+        .filter(|f| f.suppressed.is_none())
+        .map(|f| f.rule)
+        .collect()
+}
+
+#[test]
+fn every_rule_has_one_page_with_the_sections() {
+    let metas = rules::all_meta();
+    for m in &metas {
+        assert!(
+            m.doc.starts_with(&format!("# {}\n", m.name)),
+            "rules/{}.md must start with its title",
+            m.name
+        );
+        for section in [
+            "## Why it matters",
+            "## Example that fires",
+            "## Fixed example",
+            "## How to fix",
+        ] {
+            assert!(
+                m.doc.contains(section),
+                "rules/{}.md lacks `{section}`",
+                m.name
+            );
+        }
+        assert!(
+            m.summary.chars().next().is_some_and(|c| c.is_lowercase()),
+            "{}: summary starts lowercase",
+            m.name
+        );
+        assert!(
+            !m.summary.ends_with('.'),
+            "{}: summary has no trailing period",
+            m.name
+        );
+    }
+    // No orphan pages.
+    let dir = concat!(env!("CARGO_MANIFEST_DIR"), "/rules");
+    for entry in std::fs::read_dir(dir).unwrap() {
+        let name = entry.unwrap().file_name().to_string_lossy().into_owned();
+        let stem = name.trim_end_matches(".md");
+        assert!(
+            metas.iter().any(|m| m.name == stem),
+            "rules/{name} documents no registered rule"
+        );
+    }
+}
+
+#[test]
+fn page_examples_behave_as_labelled() {
+    for m in rules::all_meta() {
+        let fires = blocks(m.doc, "fires");
+        let passes = blocks(m.doc, "passes");
+        assert!(
+            !fires.is_empty() && !passes.is_empty(),
+            "{} needs both examples",
+            m.name
+        );
+        for text in fires {
+            let fired = rules_fired(text);
+            assert!(
+                fired.contains(&m.name),
+                "{}: the firing example gave {fired:?}",
+                m.name
+            );
+        }
+        for text in passes {
+            let fired = rules_fired(text);
+            assert!(
+                !fired.contains(&m.name),
+                "{}: the fixed example still fires: {fired:?}",
+                m.name
+            );
+            if m.name != INVALID_INPUT {
+                assert!(
+                    !fired.contains(&INVALID_INPUT),
+                    "{}: the fixed example is not valid input",
+                    m.name
+                );
+            }
+        }
+    }
+}
+
+#[test]
+fn rule_names_are_kebab_case_and_unique() {
+    let metas = rules::all_meta();
+    for m in &metas {
+        assert!(
+            m.name.bytes().all(|b| b.is_ascii_lowercase() || b == b'-'),
+            "{}",
+            m.name
+        );
+        assert_eq!(
+            metas.iter().filter(|n| n.name == m.name).count(),
+            1,
+            "{}",
+            m.name
+        );
+    }
+}
