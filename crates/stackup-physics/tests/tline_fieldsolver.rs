@@ -475,7 +475,7 @@ fn bad_geometry_is_an_error_not_a_panic() {
 
 proptest! {
     // Few cases: each runs several sparse factorisations.
-    #![proptest_config(ProptestConfig { cases: 6, .. ProptestConfig::default() })]
+    #![proptest_config(ProptestConfig { cases: 6, failure_persistence: None, .. ProptestConfig::default() })]
 
     /// Z falls as the width grows and rises with the height; eps_eff lies
     /// between 1 and the largest eps_r.

@@ -190,7 +190,7 @@ impl Default for SolverOptions {
     fn default() -> Self {
         SolverOptions {
             density: 0.6,
-            growth: 1.4,
+            growth: 1.7,
             edge_cell: 1.0 / 40.0,
             cells_per_layer: 8.0,
             cells_per_width: 6.0,
