@@ -60,14 +60,40 @@ pub(crate) fn dedup_sorted(mut v: Vec<f64>, tol: f64) -> Vec<f64> {
 
 /// Builds the base (level-1) lines of one axis. Each interval between key
 /// lines is filled by equidistributing 1/size, so cell sizes vary smoothly.
+#[cfg(test)]
 pub(crate) fn base_lines(spec: &AxisSpec, tol: f64) -> Vec<f64> {
+    lines_with_counts(spec, tol, None)
+        .map(|(l, _)| l)
+        .unwrap_or_default()
+}
+
+/// Like `base_lines`, also returning the number of cells of every interval
+/// between key lines; with `counts` given, those numbers are used instead
+/// of the ones the size function asks for (same mesh topology for two
+/// slightly different geometries). Errors if the number of intervals
+/// differs from `counts`.
+pub(crate) fn lines_with_counts(
+    spec: &AxisSpec,
+    tol: f64,
+    counts: Option<&[usize]>,
+) -> Result<(Vec<f64>, Vec<usize>), String> {
     let mut keys = spec.keys.clone();
     keys.push(spec.lo);
     keys.push(spec.hi);
     keys.retain(|&k| k >= spec.lo - tol && k <= spec.hi + tol);
     let keys = dedup_sorted(keys, tol);
+    if let Some(c) = counts {
+        if c.len() + 1 != keys.len() {
+            return Err(format!(
+                "mesh topology differs: {} key intervals instead of {}",
+                keys.len().saturating_sub(1),
+                c.len()
+            ));
+        }
+    }
+    let mut used = Vec::with_capacity(keys.len());
     let mut lines = vec![keys[0]];
-    for w in keys.windows(2) {
+    for (iv, w) in keys.windows(2).enumerate() {
         let (a, b) = (w[0], w[1]);
         let len = b - a;
         // Sample points clustered geometrically at both ends, where the size
@@ -94,7 +120,11 @@ pub(crate) fn base_lines(spec: &AxisSpec, tol: f64) -> Vec<f64> {
             prev = cur;
         }
         let total = *cum.last().unwrap_or(&0.0);
-        let n = (total.ceil() as usize).max(spec.min_cells).max(1);
+        let n = match counts {
+            Some(c) => c[iv],
+            None => (total.ceil() as usize).max(spec.min_cells).max(1),
+        };
+        used.push(n);
         for k in 1..n {
             let target = total * k as f64 / n as f64;
             // invert the cumulative integral by linear interpolation
@@ -109,7 +139,7 @@ pub(crate) fn base_lines(spec: &AxisSpec, tol: f64) -> Vec<f64> {
         }
         lines.push(b);
     }
-    lines
+    Ok((lines, used))
 }
 
 #[cfg(test)]

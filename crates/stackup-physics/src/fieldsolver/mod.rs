@@ -38,7 +38,7 @@ mod mesh;
 
 use crate::consts::{C0, EPS0};
 use fv::{Grid, Node, Solver};
-use mesh::{base_lines, dedup_sorted, AxisSpec};
+use mesh::{dedup_sorted, lines_with_counts, AxisSpec};
 use std::fmt;
 
 /// A dielectric layer of the stack, listed bottom to top.
@@ -811,39 +811,69 @@ fn richardson(ms: &[f64], v: &[f64], assumed_p: f64) -> (f64, f64) {
 /// the grading ratio brought towards 1 as 1 + (g − 1)/m. The edge region
 /// then contributes O(1/m²) like the rest, so the capacitance converges at
 /// second order and the two-level extrapolation can assume p = 2.
-fn level_lines(spec: &AxisSpec, m: f64, tol: f64) -> Vec<f64> {
+fn level_lines(
+    spec: &AxisSpec,
+    m: f64,
+    tol: f64,
+    counts: Option<&[usize]>,
+) -> Result<(Vec<f64>, Vec<usize>), SolveError> {
     let mut s = spec.clone();
     s.h_fine = spec.h_fine / (m * m);
     s.growth = 1.0 + (spec.growth - 1.0) / m;
     s.caps = spec.caps.iter().map(|&(a, b, h)| (a, b, h / m)).collect();
     s.h_far = spec.h_far / m;
-    dedup_sorted(base_lines(&s, tol), tol)
+    let (lines, used) = lines_with_counts(&s, tol, counts).map_err(SolveError::new)?;
+    let n = lines.len();
+    let lines = dedup_sorted(lines, tol);
+    if lines.len() != n {
+        return Err(SolveError::new("degenerate mesh: coincident lines"));
+    }
+    Ok((lines, used))
 }
 
-/// Solves all meshes; returns per-level capacitance matrices (÷ε0).
-type Levels = (Vec<Vec<f64>>, Vec<Vec<f64>>, usize);
+/// Cells per key interval (x, y) at every level.
+type Topology = Vec<(Vec<usize>, Vec<usize>)>;
+
+/// Per-level capacitance matrices (÷ε0) with dielectrics and in vacuum,
+/// unknowns of the finest mesh, and the mesh topology used.
+struct Levels {
+    c: Vec<Vec<f64>>,
+    c0: Vec<Vec<f64>>,
+    unknowns: usize,
+    topology: Topology,
+}
+
 fn run_levels(
     p: &Prepared,
     opt: &SolverOptions,
     with_dielectric: bool,
+    topology: Option<&Topology>,
 ) -> Result<Levels, SolveError> {
-    let mut cs = Vec::new();
-    let mut c0s = Vec::new();
-    let mut unknowns = 0;
-    for &m in &opt.refinements {
-        let grid = build_grid(
-            p,
-            level_lines(&p.xspec, m, p.tol),
-            level_lines(&p.yspec, m, p.tol),
-        )?;
-        unknowns = grid.n_free;
+    let mut out = Levels {
+        c: Vec::new(),
+        c0: Vec::new(),
+        unknowns: 0,
+        topology: Vec::new(),
+    };
+    for (l, &m) in opt.refinements.iter().enumerate() {
+        let (cx, cy) = match topology.and_then(|t| t.get(l)) {
+            Some((cx, cy)) => (Some(cx.as_slice()), Some(cy.as_slice())),
+            None => (None, None),
+        };
+        let (xs, ux) = level_lines(&p.xspec, m, p.tol, cx)?;
+        let (ys, uy) = level_lines(&p.yspec, m, p.tol, cy)?;
+        out.topology.push((ux, uy));
+        let grid = build_grid(p, xs, ys)?;
+        out.unknowns = grid.n_free;
         let solver = Solver::new(&grid).map_err(SolveError::new)?;
         if with_dielectric {
-            cs.push(solver.capacitance(false).map_err(SolveError::new)?);
+            out.c
+                .push(solver.capacitance(false).map_err(SolveError::new)?);
         }
-        c0s.push(solver.capacitance(true).map_err(SolveError::new)?);
+        out.c0
+            .push(solver.capacitance(true).map_err(SolveError::new)?);
     }
-    Ok((cs, c0s, unknowns))
+    Ok(out)
 }
 
 /// Extrapolates each entry of a list of per-level matrices.
@@ -963,10 +993,10 @@ fn matmul(a: &[f64], b: &[f64], n: usize) -> Vec<f64> {
 pub fn solve(cs: &CrossSection, opt: &SolverOptions) -> Result<SolvedLine, SolveError> {
     let p = prepare(cs, opt)?;
     let n = cs.conductors.len();
-    let (cl, c0l, unknowns) = run_levels(&p, opt, true)?;
-    let (c, ce) = extrapolate(&opt.refinements, &cl, opt.assumed_order, n);
-    let (c0, c0e) = extrapolate(&opt.refinements, &c0l, opt.assumed_order, n);
-    finish(c, c0, ce, c0e, n, unknowns)
+    let lv = run_levels(&p, opt, true, None)?;
+    let (c, ce) = extrapolate(&opt.refinements, &lv.c, opt.assumed_order, n);
+    let (c0, c0e) = extrapolate(&opt.refinements, &lv.c0, opt.assumed_order, n);
+    finish(c, c0, ce, c0e, n, lv.unknowns)
 }
 
 fn finish(
@@ -1037,21 +1067,60 @@ pub fn solve_vacuum(
     opt: &SolverOptions,
 ) -> Result<VacuumCapacitance, SolveError> {
     let p = prepare(cs, opt)?;
-    let n = cs.conductors.len();
-    let (_, c0l, _) = run_levels(&p, opt, false)?;
-    let (c0, err) = extrapolate(&opt.refinements, &c0l, opt.assumed_order, n);
+    let lv = run_levels(&p, opt, false, None)?;
+    vacuum_result(&lv, opt, cs.conductors.len())
+}
+
+fn vacuum_result(
+    lv: &Levels,
+    opt: &SolverOptions,
+    n: usize,
+) -> Result<VacuumCapacitance, SolveError> {
+    let (c0, err) = extrapolate(&opt.refinements, &lv.c0, opt.assumed_order, n);
     let c0f: Vec<f64> = c0.iter().map(|v| v * EPS0).collect();
     let inductance: Vec<f64> = inverse(&c0f, n)
         .ok_or_else(|| SolveError::new("singular vacuum capacitance matrix"))?
         .iter()
         .map(|v| v / (C0 * C0))
         .collect();
+    if c0f.iter().chain(inductance.iter()).any(|v| !v.is_finite()) {
+        return Err(SolveError::new("solver produced non-finite values"));
+    }
     Ok(VacuumCapacitance {
         capacitance_vacuum: c0f,
         inductance,
         n,
         rel_error: err,
     })
+}
+
+/// Vacuum capacitance and inductance of two nearly identical
+/// cross-sections, the second meshed with the first one's topology (same
+/// number of cells between corresponding key lines, lines moving with the
+/// geometry). Differences such as L(b) − L(a) then vary smoothly with the
+/// geometry instead of jumping when a mesh count changes. This is the path
+/// for H. A. Wheeler's incremental-inductance rule ("Formulas for the skin
+/// effect", Proc. IRE 30, 1942), with `b` equal to `a` with every metal
+/// surface receded by half a skin depth.
+///
+/// Errors if the two sections differ in conductor count or in the number
+/// of key lines (topology), or for any geometry error of either.
+pub fn solve_vacuum_pair(
+    a: &CrossSection,
+    b: &CrossSection,
+    opt: &SolverOptions,
+) -> Result<(VacuumCapacitance, VacuumCapacitance), SolveError> {
+    if a.conductors.len() != b.conductors.len() {
+        return Err(SolveError::new(
+            "paired vacuum solve needs the same conductors in both sections",
+        ));
+    }
+    let pa = prepare(a, opt)?;
+    let pb = prepare(b, opt)?;
+    let la = run_levels(&pa, opt, false, None)?;
+    let lb = run_levels(&pb, opt, false, Some(&la.topology))?;
+    let n = a.conductors.len();
+    Ok((vacuum_result(&la, opt, n)?, vacuum_result(&lb, opt, n)?))
 }
 
 #[cfg(test)]
