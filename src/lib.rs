@@ -4,6 +4,7 @@
 //! schema) → [`model`] (typed, SI) → [`rules`] (findings) → [`output`]
 //! (terminal, JSON, SARIF). Physics lives in the `stackup-physics` crate.
 
+pub mod analysis;
 pub mod engine;
 pub mod finding;
 pub mod input;

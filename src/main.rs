@@ -101,11 +101,21 @@ enum Command {
     },
     /// List every rule with its default severity
     Rules,
+    /// Print, per net class, the field-solved impedance, effective Dk, delay
+    /// and loss with smooth and with rough copper
+    Impedance {
+        /// Stackup files or directories
+        paths: Vec<PathBuf>,
+        /// Output format
+        #[arg(long, value_enum, default_value = "human")]
+        format: Format,
+    },
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match cli.command {
+        Command::Impedance { paths, format } => impedance(paths, format),
         Command::Rules => {
             let mut out = String::new();
             for m in rules::all_meta() {
@@ -235,6 +245,62 @@ fn main() -> ExitCode {
             }
         }
     }
+}
+
+fn impedance(paths: Vec<PathBuf>, format: Format) -> ExitCode {
+    let paths = if paths.is_empty() {
+        vec![PathBuf::from(".")]
+    } else {
+        paths
+    };
+    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let (files, _) = match stackup_lint::walk::collect(&paths, &WalkOptions::default()) {
+        Ok(x) => x,
+        Err(e) => {
+            eprintln!("error: {}", e.message);
+            return ExitCode::from(2);
+        }
+    };
+    let loaded = stackup_lint::load::load(&files, &base, &InputLimits::default());
+    if !loaded.problems.is_empty() {
+        let mut problems = loaded.problems.clone();
+        engine::sort_findings(&mut problems, &loaded.db);
+        print(&human::render(
+            &problems,
+            &loaded.db,
+            human::HumanOptions {
+                color: false,
+                width: 100,
+            },
+        ));
+        return ExitCode::from(2);
+    }
+    let analyses: Vec<_> = loaded
+        .stackups
+        .iter()
+        .map(stackup_lint::analysis::analyze)
+        .collect();
+    let items: Vec<(
+        &str,
+        &stackup_lint::model::Stackup,
+        &stackup_lint::analysis::Analysis,
+    )> = loaded
+        .stackups
+        .iter()
+        .zip(&analyses)
+        .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
+        .collect();
+    match format {
+        Format::Json => print(&output::impedance::json(&items)),
+        Format::Human => {
+            let text: Vec<String> = items
+                .iter()
+                .map(|(n, s, a)| output::impedance::table(n, s, a))
+                .collect();
+            print(&text.join("\n"));
+        }
+    }
+    ExitCode::SUCCESS
 }
 
 /// Print to standard output, ignoring a closed pipe (`| head`).

@@ -12,11 +12,10 @@ use crate::input::units::{self, Dimension};
 use crate::input::yaml::{Node, Value};
 use crate::source::{escape_token, SourceDb};
 
-/// Common-practice factor from the Nyquist frequency to the highest
-/// frequency a class must carry when only a data rate is given: 1.5× covers
-/// the band that channel-loss budgets are usually written over (common
-/// practice, no source).
-pub const HARMONIC_FACTOR: f64 = 1.5;
+/// Factor from the Nyquist frequency to the highest frequency a class must
+/// carry when only a data rate is given: the third harmonic (see
+/// `stackup_physics::loss::DEFAULT_HARMONIC_FACTOR`, common practice).
+pub const HARMONIC_FACTOR: f64 = stackup_physics::loss::DEFAULT_HARMONIC_FACTOR;
 
 struct Reader<'a> {
     db: &'a SourceDb,
@@ -466,7 +465,8 @@ pub fn build_stackup(
     materials.extend(own.materials);
     foils.extend(own.foils);
 
-    let layers = read_layers(&mut r, &materials, &foils);
+    let mut layers = read_layers(&mut r, &materials, &foils);
+    press_prepregs(&mut r, &mut layers);
     let mut stackup = Stackup {
         file,
         board: r.string("/board"),
@@ -980,14 +980,13 @@ fn read_net_class(r: &mut Reader<'_>, s: &Stackup, ptr: &str, name: String) -> O
             return None;
         }
     }
-    let max_frequency = max_frequency.or_else(|| {
-        let rate = data_rate?;
-        let nyquist = match modulation? {
-            Modulation::Nrz => rate / 2.0,
-            Modulation::Pam4 => rate / 4.0,
-        };
-        Some(nyquist * HARMONIC_FACTOR)
+    // Nyquist: bit rate / 2 for NRZ, / 4 for PAM4 (two bits per symbol).
+    let nyquist = data_rate.zip(modulation).map(|(rate, m)| match m {
+        Modulation::Nrz => rate / 2.0,
+        Modulation::Pam4 => rate / 4.0,
     });
+    let max_frequency_given = max_frequency.is_some();
+    let max_frequency = max_frequency.or(nyquist.map(|n| n * HARMONIC_FACTOR));
     Some(NetClass {
         name,
         pointer: ptr.to_string(),
@@ -1002,6 +1001,8 @@ fn read_net_class(r: &mut Reader<'_>, s: &Stackup, ptr: &str, name: String) -> O
         gap,
         impedance,
         max_frequency,
+        max_frequency_given,
+        nyquist,
         data_rate,
         modulation,
         assumed_dk,
@@ -1187,4 +1188,65 @@ fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
         });
     }
     out
+}
+
+/// Copper fill assumed when a layer gives none: planes 0.9, mixed 0.6,
+/// signal 0.3 (common practice, no source; fabricators use similar values).
+pub fn default_fill(role: CopperRole) -> f64 {
+    match role {
+        CopperRole::Plane => 0.9,
+        CopperRole::Mixed => 0.6,
+        CopperRole::Signal => 0.3,
+    }
+}
+
+/// Pressed thickness of prepregs and bonding films given only a nominal
+/// thickness: resin flows into the etched copper of the neighbouring layers
+/// (`stackup_physics::fab::pressed_prepreg_thickness`).
+fn press_prepregs(r: &mut Reader<'_>, layers: &mut [Layer]) {
+    use stackup_physics::fab::{pressed_prepreg_thickness, PrepregFace};
+    for k in 0..layers.len() {
+        let LayerKind::Dielectric(d) = &layers[k].kind else {
+            continue;
+        };
+        if d.pressed_given
+            || !matches!(
+                d.kind,
+                DielectricKind::Prepreg | DielectricKind::BondingFilm
+            )
+        {
+            continue;
+        }
+        let Some(nominal) = d.nominal_thickness else {
+            continue;
+        };
+        let face = |j: Option<usize>| match j.and_then(|j| layers.get(j)).map(|l| &l.kind) {
+            Some(LayerKind::Copper(c)) => PrepregFace::Copper {
+                thickness: c.thickness,
+                fill: c.fill.unwrap_or_else(|| default_fill(c.role)),
+            },
+            _ => PrepregFace::Laminate,
+        };
+        let faces = [face(k.checked_sub(1)), face(Some(k + 1))];
+        match pressed_prepreg_thickness(nominal, faces) {
+            Ok(t) => {
+                if let LayerKind::Dielectric(d) = &mut layers[k].kind {
+                    d.thickness = t;
+                }
+            }
+            Err(_) => {
+                let p = format!("{}/dielectric/nominal-thickness", layers[k].pointer);
+                r.error(
+                    &p,
+                    format!(
+                        "a {} ply cannot fill the etched copper next to it: nominal {} leaves no pressed thickness",
+                        d.kind.as_str(),
+                        fmt_len(nominal)
+                    ),
+                    "too thin to fill the copper",
+                    Some("use a thicker or resin-richer ply, or give the pressed `thickness`".into()),
+                );
+            }
+        }
+    }
 }

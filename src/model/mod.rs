@@ -254,8 +254,13 @@ pub struct NetClass {
     pub spacing: Option<f64>,
     pub gap: Option<f64>,
     pub impedance: Option<ImpedanceTarget>,
-    /// Highest frequency of interest, Hz (given or from the data rate).
+    /// Highest frequency of interest, Hz: given, or 3 × Nyquist from the
+    /// data rate.
     pub max_frequency: Option<f64>,
+    /// Whether `max_frequency` was given (not derived from a data rate).
+    pub max_frequency_given: bool,
+    /// Nyquist frequency of the data rate, Hz.
+    pub nyquist: Option<f64>,
     pub data_rate: Option<f64>,
     pub modulation: Option<Modulation>,
     pub assumed_dk: Option<f64>,
@@ -376,5 +381,18 @@ impl Stackup {
         (0..self.layers.len())
             .filter(|&i| self.copper(i).is_some())
             .collect()
+    }
+}
+
+impl NetClass {
+    /// The frequency the line's impedance, apparent Dk and loss are
+    /// evaluated at: the given highest frequency, else the Nyquist
+    /// frequency, else 1 GHz.
+    pub fn analysis_frequency(&self) -> f64 {
+        if self.max_frequency_given {
+            self.max_frequency.unwrap_or(1e9)
+        } else {
+            self.nyquist.unwrap_or(1e9)
+        }
     }
 }

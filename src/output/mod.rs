@@ -1,6 +1,7 @@
 //! Emitters: they consume the finished list of findings and rule metadata.
 
 pub mod human;
+pub mod impedance;
 pub mod json;
 pub mod sarif;
 

@@ -1,0 +1,92 @@
+//! Material permittivity at any frequency: a causal Djordjevic-Sarkar model
+//! fitted to the material's data, with the validated range kept so that
+//! extrapolation can be reported.
+
+use stackup_physics::dispersion::{DielectricPoint, DjordjevicSarkar, DEFAULT_F1, DEFAULT_F2};
+
+use crate::model::Material;
+
+/// Dk and Df of a material at one frequency.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct DkAt {
+    pub dk: f64,
+    pub df: f64,
+    /// The frequency lies outside the data's validated range.
+    pub extrapolated: bool,
+}
+
+/// A material's wideband model.
+#[derive(Debug, Clone)]
+pub struct MaterialModel {
+    ds: Option<DjordjevicSarkar>,
+    /// Fallback when no causal fit exists (e.g. Df too large for the band):
+    /// the first data point, held constant.
+    constant: (f64, f64),
+    pub valid_from: f64,
+    pub valid_to: f64,
+    /// Why the causal fit was not possible, if it was not.
+    pub fit_problem: Option<String>,
+}
+
+impl MaterialModel {
+    /// Fit the model: one point by Djordjevic et al. (2001) eqs. 9-11, several
+    /// points by least squares (see `stackup_physics::dispersion`). The
+    /// validated range is the material's `valid-from`/`valid-to`, or the span
+    /// of its data points when not given.
+    pub fn fit(m: &Material) -> MaterialModel {
+        let lo = m.points.first().map_or(1e9, |p| p.frequency);
+        let hi = m.points.last().map_or(1e9, |p| p.frequency);
+        let valid_from = m.valid_from.unwrap_or(lo);
+        let valid_to = m.valid_to.unwrap_or(hi);
+        let fitted = if m.points.len() == 1 {
+            let p = m.points[0];
+            DjordjevicSarkar::fit_one_point_default(p.dk, p.df, p.frequency)
+        } else {
+            let pts: Vec<DielectricPoint> = m
+                .points
+                .iter()
+                .map(|p| DielectricPoint {
+                    f: p.frequency,
+                    dk: p.dk,
+                    df: p.df,
+                })
+                .collect();
+            DjordjevicSarkar::fit_table(&pts, DEFAULT_F1, DEFAULT_F2).map(|(ds, _)| ds)
+        }
+        .and_then(|ds| ds.with_valid_range(valid_from.min(valid_to), valid_to.max(valid_from)));
+        let constant = (m.points[0].dk, m.points[0].df);
+        match fitted {
+            Ok(ds) => MaterialModel {
+                ds: Some(ds),
+                constant,
+                valid_from,
+                valid_to,
+                fit_problem: None,
+            },
+            Err(e) => MaterialModel {
+                ds: None,
+                constant,
+                valid_from,
+                valid_to,
+                fit_problem: Some(e.to_string()),
+            },
+        }
+    }
+
+    /// Dk and Df at `f`.
+    pub fn at(&self, f: f64) -> DkAt {
+        let extrapolated = f < self.valid_from * (1.0 - 1e-9) || f > self.valid_to * (1.0 + 1e-9);
+        match self.ds.as_ref().and_then(|ds| ds.eval(f).ok()) {
+            Some(p) => DkAt {
+                dk: p.dk,
+                df: p.df,
+                extrapolated,
+            },
+            None => DkAt {
+                dk: self.constant.0,
+                df: self.constant.1,
+                extrapolated,
+            },
+        }
+    }
+}

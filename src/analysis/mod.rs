@@ -1,0 +1,454 @@
+//! Analysis: turn each net class of a loaded stackup into solved
+//! cross-sections and electrical numbers, once, for the rules and the
+//! `impedance` command to read.
+//!
+//! Per class: the section is built from the stackup (`section`), every
+//! dielectric's Dk taken at the class's analysis frequency from a causal
+//! Djordjevic-Sarkar fit (`materials`), and solved by the 2-D field solver
+//! with smooth copper and with the declared copper roughness (the
+//! effective-roughness-layer model, `stackup_physics::roughness::RoughLayerModel`),
+//! unknown roughness carried as best and worst case. Identical sections are
+//! solved once; distinct ones in parallel.
+
+pub mod materials;
+pub mod section;
+
+use std::collections::{BTreeMap, HashMap};
+
+use stackup_physics::consts::C0;
+use stackup_physics::copper::{surface_resistance, SIGMA_ANNEALED_COPPER};
+use stackup_physics::fieldsolver::{solve, CrossSection, SolvedLine, SolverOptions};
+use stackup_physics::loss;
+use stackup_physics::roughness::{HurayModel, RoughLayerModel, RoughSurface};
+
+use crate::model::{Stackup, Structure};
+use materials::{DkAt, MaterialModel};
+use section::{FaceRoughness, LineGeometry, RoughLayers};
+
+/// Electrical numbers of one solved section.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LineNumbers {
+    /// Z0 (single-ended) or Z_diff (pairs), ohm.
+    pub z: f64,
+    pub z_even: Option<f64>,
+    pub z_odd: Option<f64>,
+    /// Effective permittivity of the mode that carries the signal (the odd
+    /// mode for pairs).
+    pub eps_eff: f64,
+    pub eps_eff_even: Option<f64>,
+    pub eps_eff_odd: Option<f64>,
+    /// Propagation delay of the signal mode, s/m.
+    pub delay: f64,
+    /// Solver's estimated relative error of the impedance.
+    pub rel_error: f64,
+}
+
+impl LineNumbers {
+    fn from_solved(s: &SolvedLine) -> Option<LineNumbers> {
+        if let Some(p) = s.pair {
+            return Some(LineNumbers {
+                z: p.z_diff,
+                z_even: Some(p.z_even),
+                z_odd: Some(p.z_odd),
+                eps_eff: p.eps_eff_odd,
+                eps_eff_even: Some(p.eps_eff_even),
+                eps_eff_odd: Some(p.eps_eff_odd),
+                delay: p.eps_eff_odd.sqrt() / C0,
+                rel_error: s.z_rel_error,
+            });
+        }
+        let single = s.single?;
+        Some(LineNumbers {
+            z: single.z0,
+            z_even: None,
+            z_odd: None,
+            eps_eff: single.eps_eff,
+            eps_eff_even: None,
+            eps_eff_odd: None,
+            delay: single.eps_eff.sqrt() / C0,
+            rel_error: s.z_rel_error,
+        })
+    }
+
+    /// Delay in ps/mm.
+    pub fn ps_per_mm(&self) -> f64 {
+        self.delay * 1e9
+    }
+}
+
+/// Loss per unit length at the analysis frequency, dB/m.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LossNumbers {
+    pub dielectric: f64,
+    pub conductor_smooth: f64,
+    /// Worst case of the declared roughness.
+    pub conductor_rough: f64,
+}
+
+impl LossNumbers {
+    pub fn total_rough(&self) -> f64 {
+        self.dielectric + self.conductor_rough
+    }
+}
+
+/// Everything the analysis knows about one net class.
+#[derive(Debug, Clone)]
+pub struct ClassAnalysis {
+    /// Frequency the numbers are evaluated at, Hz.
+    pub frequency: f64,
+    pub geometry: Result<LineGeometry, String>,
+    /// Smooth copper, bulk Dk at the frequency.
+    pub smooth: Result<LineNumbers, String>,
+    /// Declared roughness, best and worst case (equal when every face is
+    /// known). `None` when the section could not be solved.
+    pub rough_best: Option<LineNumbers>,
+    pub rough_worst: Option<LineNumbers>,
+    /// Some copper face of the line has no roughness data (bond treatment).
+    pub roughness_unknown: bool,
+    /// No face of the line declares roughness.
+    pub roughness_undeclared: bool,
+    /// Width that brings the worst-case rough line back to its target, m.
+    pub width_for_target: Option<f64>,
+    pub loss: Option<LossNumbers>,
+    /// Dk of each dielectric of the section at the frequency (layer index).
+    pub dk: BTreeMap<usize, DkAt>,
+    /// Name of the model that produced the numbers.
+    pub model: &'static str,
+    pub notes: Vec<String>,
+}
+
+/// The analysis of one stackup: one entry per net class, same order.
+#[derive(Debug, Clone)]
+pub struct Analysis {
+    pub classes: Vec<ClassAnalysis>,
+    pub materials: BTreeMap<String, MaterialModel>,
+}
+
+/// The project's field-solver model name, as reported.
+pub const FIELD_SOLVER: &str = "2-D field solver (finite volume, Richardson-extrapolated)";
+
+/// Copper conductivity used for skin depth and loss (annealed copper).
+pub const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
+
+fn key(cs: &CrossSection) -> String {
+    format!("{cs:?}")
+}
+
+/// Solve distinct sections, in parallel, deterministically (results keyed by section).
+fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, String>> {
+    let mut unique: Vec<(String, CrossSection)> = Vec::new();
+    let mut seen = std::collections::HashSet::new();
+    for cs in sections {
+        let k = key(&cs);
+        if seen.insert(k.clone()) {
+            unique.push((k, cs));
+        }
+    }
+    let threads = std::thread::available_parallelism()
+        .map_or(1, |n| n.get())
+        .min(unique.len().max(1));
+    let opts = SolverOptions::default();
+    let chunks: Vec<Vec<(String, CrossSection)>> = (0..threads)
+        .map(|t| unique.iter().skip(t).step_by(threads).cloned().collect())
+        .collect();
+    let mut out = HashMap::new();
+    std::thread::scope(|scope| {
+        let handles: Vec<_> = chunks
+            .iter()
+            .map(|chunk| {
+                let opts = &opts;
+                scope.spawn(move || {
+                    chunk
+                        .iter()
+                        .map(|(k, cs)| (k.clone(), solve(cs, opts).map_err(|e| e.message)))
+                        .collect::<Vec<_>>()
+                })
+            })
+            .collect();
+        for h in handles {
+            if let Ok(v) = h.join() {
+                out.extend(v);
+            }
+        }
+    });
+    out
+}
+
+/// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
+fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
+    let model = RoughLayerModel::default();
+    // Faces are in the order plane below, trace bottom, trace top, [plane above].
+    let mut thickness = vec![0.0; 4];
+    for (k, face) in g.faces.iter().enumerate() {
+        let slot = if k == 3 || face.role == "plane above" {
+            3
+        } else {
+            k
+        };
+        thickness[slot] = model
+            .thickness(&face.roughness.surface(worst), f, SIGMA)
+            .unwrap_or(0.0);
+    }
+    let eps_factor = model.permittivity(1.0).unwrap_or(4.0);
+    RoughLayers {
+        thickness,
+        eps_factor,
+    }
+}
+
+struct Pending {
+    geometry: LineGeometry,
+    smooth: String,
+    best: String,
+    worst: String,
+}
+
+/// Analyse every net class of `s`.
+pub fn analyze(s: &Stackup) -> Analysis {
+    let materials: BTreeMap<String, MaterialModel> = s
+        .materials
+        .iter()
+        .map(|(k, m)| (k.clone(), MaterialModel::fit(m)))
+        .collect();
+    let dk_at = |layer: usize, f: f64| -> Option<DkAt> {
+        let d = s.dielectric(layer)?;
+        Some(materials.get(&d.material)?.at(f))
+    };
+    // First pass: build sections.
+    let mut pending: Vec<Result<Pending, String>> = Vec::new();
+    let mut sections = Vec::new();
+    for nc in &s.net_classes {
+        let f = nc.analysis_frequency();
+        let eps_of = |layer: usize| dk_at(layer, f).map_or(1.0, |d| d.dk);
+        match section::geometry(s, nc, &eps_of) {
+            Ok(g) => {
+                let smooth = section::cross_section(&g, None);
+                let best = section::cross_section(&g, Some(&rough_layers(&g, f, false)));
+                let worst = section::cross_section(&g, Some(&rough_layers(&g, f, true)));
+                let p = Pending {
+                    smooth: key(&smooth),
+                    best: key(&best),
+                    worst: key(&worst),
+                    geometry: g,
+                };
+                sections.extend([smooth, best, worst]);
+                pending.push(Ok(p));
+            }
+            Err(e) => pending.push(Err(e.0)),
+        }
+    }
+    let solved = solve_all(sections);
+    let numbers = |k: &str| -> Result<LineNumbers, String> {
+        match solved.get(k) {
+            Some(Ok(s)) => LineNumbers::from_solved(s)
+                .ok_or_else(|| "the solver returned no impedance".to_string()),
+            Some(Err(e)) => Err(e.clone()),
+            None => Err("not solved".into()),
+        }
+    };
+    // Second pass: width back to target (secant on the worst-case section).
+    let mut classes = Vec::new();
+    for (nc, p) in s.net_classes.iter().zip(pending) {
+        let f = nc.analysis_frequency();
+        let mut notes = Vec::new();
+        if !nc.max_frequency_given && nc.nyquist.is_none() {
+            notes.push("no max-frequency or data-rate given: evaluated at 1 GHz".to_string());
+        }
+        let p = match p {
+            Ok(p) => p,
+            Err(e) => {
+                classes.push(ClassAnalysis {
+                    frequency: f,
+                    geometry: Err(e.clone()),
+                    smooth: Err(e),
+                    rough_best: None,
+                    rough_worst: None,
+                    roughness_unknown: false,
+                    roughness_undeclared: true,
+                    width_for_target: None,
+                    loss: None,
+                    dk: BTreeMap::new(),
+                    model: FIELD_SOLVER,
+                    notes,
+                });
+                continue;
+            }
+        };
+        let g = p.geometry;
+        notes.extend(g.notes.iter().cloned());
+        let smooth = numbers(&p.smooth);
+        let best = numbers(&p.best).ok();
+        let worst = numbers(&p.worst).ok();
+        let roughness_unknown = g
+            .faces
+            .iter()
+            .any(|f| f.roughness == FaceRoughness::Unknown);
+        let roughness_undeclared = g
+            .faces
+            .iter()
+            .all(|f| f.roughness == FaceRoughness::NotDeclared);
+        let mut dk = BTreeMap::new();
+        for sl in &g.slabs {
+            if let Some(d) = dk_at(sl.layer, f) {
+                dk.insert(sl.layer, d);
+            }
+        }
+        let width_for_target = match (nc.impedance, worst) {
+            (Some(t), Some(w)) if (w.z - t.target).abs() > 1e-3 * t.target => {
+                width_for_target(&g, f, t.target, w.z)
+            }
+            (Some(_), Some(_)) => Some(nc.width),
+            _ => None,
+        };
+        let loss = smooth
+            .as_ref()
+            .ok()
+            .map(|sm| line_loss(s, nc.structure, &g, &dk, f, sm, worst.unwrap_or(*sm)));
+        classes.push(ClassAnalysis {
+            frequency: f,
+            geometry: Ok(g),
+            smooth,
+            rough_best: best,
+            rough_worst: worst,
+            roughness_unknown,
+            roughness_undeclared,
+            width_for_target,
+            loss,
+            dk,
+            model: FIELD_SOLVER,
+            notes,
+        });
+    }
+    Analysis { classes, materials }
+}
+
+/// Width (base width, top width scaled alike) at which the worst-case rough
+/// section meets `target`, by two secant steps from the current width.
+fn width_for_target(g: &LineGeometry, f: f64, target: f64, z_now: f64) -> Option<f64> {
+    let opts = SolverOptions::default();
+    let z_at = |w: f64| -> Option<f64> {
+        let mut g2 = g.clone();
+        let scale = w / g.width_bottom.max(g.width_top);
+        g2.width_bottom = g.width_bottom * scale;
+        g2.width_top = g.width_top * scale;
+        let cs = section::cross_section(&g2, Some(&rough_layers(&g2, f, true)));
+        solve(&cs, &opts)
+            .ok()
+            .as_ref()
+            .and_then(LineNumbers::from_solved)
+            .map(|n| n.z)
+    };
+    let w0 = g.width_bottom.max(g.width_top);
+    let (mut wa, mut za) = (w0, z_now);
+    let mut wb = w0 * if z_now > target { 1.1 } else { 0.9 };
+    let mut zb = z_at(wb)?;
+    for _ in 0..3 {
+        if (zb - za).abs() < 1e-9 {
+            break;
+        }
+        let w = wb + (target - zb) * (wb - wa) / (zb - za);
+        let w = w.clamp(0.3 * w0, 3.0 * w0);
+        wa = wb;
+        za = zb;
+        wb = w;
+        zb = z_at(wb)?;
+        if (zb - target).abs() < 0.002 * target {
+            break;
+        }
+    }
+    Some(wb)
+}
+
+/// Loss per metre: dielectric loss from the filling-weighted loss tangent,
+/// conductor loss from the closed forms (Hammerstad-Jensen microstrip,
+/// Pozar stripline) with the Huray-Cannonball roughness factor averaged over
+/// the line's faces (common practice: equal weight to trace and planes).
+fn line_loss(
+    s: &Stackup,
+    structure: Structure,
+    g: &LineGeometry,
+    dk: &BTreeMap<usize, DkAt>,
+    f: f64,
+    smooth: &LineNumbers,
+    rough: LineNumbers,
+) -> LossNumbers {
+    let _ = s;
+    // Filling-weighted loss tangent of the dielectrics between the planes
+    // (weights h·eps: the share of electric energy in each, to first order).
+    let (mut num, mut den) = (0.0, 0.0);
+    for sl in &g.slabs {
+        if let Some(d) = dk.get(&sl.layer) {
+            num += sl.thickness * d.dk * d.df;
+            den += sl.thickness * d.dk;
+        }
+    }
+    let tand = if den > 0.0 { num / den } else { 0.0 };
+    let eps_bulk = if den > 0.0 {
+        den / g.slabs.iter().map(|s| s.thickness).sum::<f64>()
+    } else {
+        1.0
+    };
+    let alpha_d = if g.top_plane.is_some() {
+        // Homogeneous-equivalent stripline: pi f sqrt(eps_eff) tan(d) / c0.
+        loss::dielectric_loss_stripline(f, smooth.eps_eff, tand).unwrap_or(0.0)
+    } else {
+        loss::dielectric_loss_microstrip(
+            f,
+            eps_bulk.max(smooth.eps_eff + 1e-6),
+            smooth.eps_eff,
+            tand,
+        )
+        .unwrap_or(0.0)
+    };
+    let rs = surface_resistance(f, SIGMA).unwrap_or(0.0);
+    let delta = stackup_physics::copper::skin_depth(f, SIGMA).unwrap_or(1e-6);
+    let k_of = |r: RoughSurface| -> f64 {
+        let rz = r.rz().unwrap_or(0.0);
+        if rz <= 0.0 {
+            return 1.0;
+        }
+        HurayModel::cannonball_from_rz(rz)
+            .and_then(|m| m.loss_factor(delta))
+            .unwrap_or(1.0)
+    };
+    let mean = |v: Vec<f64>| {
+        if v.is_empty() {
+            1.0
+        } else {
+            v.iter().sum::<f64>() / v.len() as f64
+        }
+    };
+    let trace_k = mean(
+        g.faces
+            .iter()
+            .filter(|x| x.role.starts_with("trace"))
+            .map(|x| k_of(x.roughness.surface(true)))
+            .collect(),
+    );
+    let plane_k = mean(
+        g.faces
+            .iter()
+            .filter(|x| x.role.starts_with("plane"))
+            .map(|x| k_of(x.roughness.surface(true)))
+            .collect(),
+    );
+    let k_rough = 0.5 * (trace_k + plane_k);
+    let w = 0.5 * (g.width_bottom + g.width_top);
+    let z_line = smooth.z_odd.unwrap_or(smooth.z);
+    let alpha_c = |k: f64| -> f64 {
+        if let Some(_top) = g.top_plane {
+            let b = g.height();
+            let eps = smooth.eps_eff;
+            loss::conductor_loss_stripline_pozar(rs * k, eps, z_line, w, b, g.thickness)
+                .unwrap_or(0.0)
+        } else {
+            loss::conductor_loss_microstrip_hj(rs, z_line, w, k).unwrap_or(0.0)
+        }
+    };
+    let _ = (structure, rough);
+    LossNumbers {
+        dielectric: loss::np_per_m_to_db_per_m(alpha_d),
+        conductor_smooth: loss::np_per_m_to_db_per_m(alpha_c(1.0)),
+        conductor_rough: loss::np_per_m_to_db_per_m(alpha_c(k_rough)),
+    }
+}

@@ -1,0 +1,490 @@
+//! Build the 2-D cross-section of a net class from the stackup: which
+//! dielectrics lie between the trace and its planes, what fills the copper
+//! slot around the trace, the etch profile, and the rough copper faces.
+
+use stackup_physics::fieldsolver::{
+    CoplanarGrounds, CrossSection, DielectricBlock, DielectricLayer, Trace,
+};
+use stackup_physics::roughness::RoughSurface;
+
+use crate::model::{DielectricKind, Face, LayerKind, NetClass, Stackup, Structure};
+
+/// Roughness of one copper face as the analysis carries it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum FaceRoughness {
+    /// No face data given: treated as smooth copper.
+    NotDeclared,
+    Known(RoughSurface),
+    /// A bond-enhancement treatment with no data: a best/worst range.
+    Unknown,
+}
+
+impl FaceRoughness {
+    pub fn of(face: Option<&Face>) -> FaceRoughness {
+        match face {
+            None => FaceRoughness::NotDeclared,
+            Some(f) => match f.roughness {
+                Some(r) => FaceRoughness::Known(RoughSurface { rq: r.rq, rz: r.rz }),
+                None => FaceRoughness::Unknown,
+            },
+        }
+    }
+
+    /// The surface in the best (smoothest) or worst case.
+    pub fn surface(self, worst: bool) -> RoughSurface {
+        use stackup_physics::roughness::{
+            BOND_TREATMENT_UNKNOWN_BEST, BOND_TREATMENT_UNKNOWN_WORST,
+        };
+        match self {
+            FaceRoughness::NotDeclared => RoughSurface::SMOOTH,
+            FaceRoughness::Known(s) => s,
+            FaceRoughness::Unknown if worst => BOND_TREATMENT_UNKNOWN_WORST,
+            FaceRoughness::Unknown => BOND_TREATMENT_UNKNOWN_BEST,
+        }
+    }
+}
+
+/// One of the (up to) four copper faces a line's field meets.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineFace {
+    /// Which face: "plane below", "trace bottom", "trace top", "plane above"
+    /// (in the frame where the solver's first plane is below).
+    pub role: &'static str,
+    /// Copper layer index and the JSON pointer of its face (if declared).
+    pub layer: usize,
+    pub pointer: Option<String>,
+    pub roughness: FaceRoughness,
+}
+
+/// A horizontal slab of the section, bottom to top in the solver frame.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Slab {
+    pub thickness: f64,
+    pub eps: f64,
+    /// The stackup layer it comes from.
+    pub layer: usize,
+}
+
+/// The geometry of a net class's line, before roughness.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LineGeometry {
+    /// Slabs from the first reference plane upwards (solver frame).
+    pub slabs: Vec<Slab>,
+    /// Index into `slabs` of the copper slot holding the trace.
+    pub trace_slot: usize,
+    pub bottom_plane: usize,
+    pub top_plane: Option<usize>,
+    /// The solver frame is the board turned upside down (plane above the trace).
+    pub flipped: bool,
+    pub width_bottom: f64,
+    pub width_top: f64,
+    pub thickness: f64,
+    pub spacing: Option<f64>,
+    pub gap: Option<f64>,
+    pub faces: Vec<LineFace>,
+    /// Notes on how the section was built (approximations taken).
+    pub notes: Vec<String>,
+}
+
+impl LineGeometry {
+    /// Height of the trace's bottom face above the first plane.
+    pub fn y_trace(&self) -> f64 {
+        self.slabs[..self.trace_slot]
+            .iter()
+            .map(|s| s.thickness)
+            .sum()
+    }
+
+    /// Total height between the planes (or to the board surface when open).
+    pub fn height(&self) -> f64 {
+        self.slabs.iter().map(|s| s.thickness).sum()
+    }
+
+    /// Dielectric between the trace and the first plane.
+    pub fn h_below(&self) -> f64 {
+        self.y_trace()
+    }
+
+    /// Stackup layer indices of the dielectrics below and above the trace.
+    pub fn dielectrics_below(&self) -> Vec<usize> {
+        self.slabs[..self.trace_slot]
+            .iter()
+            .map(|s| s.layer)
+            .collect()
+    }
+
+    pub fn dielectrics_above(&self) -> Vec<usize> {
+        self.slabs[self.trace_slot + 1..]
+            .iter()
+            .map(|s| s.layer)
+            .collect()
+    }
+}
+
+/// Why a net class has no computable cross-section.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SectionError(pub String);
+
+/// Build the line geometry of `nc`; `eps_of(layer)` gives each dielectric
+/// layer's Dk at the analysis frequency.
+pub fn geometry(
+    s: &Stackup,
+    nc: &NetClass,
+    eps_of: &dyn Fn(usize) -> f64,
+) -> Result<LineGeometry, SectionError> {
+    let i = nc.layer_index;
+    let trace = s
+        .copper(i)
+        .ok_or_else(|| SectionError(format!("layer `{}` is not copper", nc.layer)))?;
+    let pick = |above: bool| -> Option<usize> {
+        if let Some(refs) = &nc.references {
+            let r = refs
+                .iter()
+                .copied()
+                .filter(|&r| if above { r < i } else { r > i });
+            return if above { r.max() } else { r.min() };
+        }
+        if above {
+            s.reference_above(i)
+        } else {
+            s.reference_below(i)
+        }
+    };
+    let (ra, rb) = (pick(true), pick(false));
+    let mut notes = Vec::new();
+    // Choose the frame: the first plane is "below" in the solver.
+    let (first, second, flipped) = if nc.structure.is_stripline() {
+        match (rb, ra) {
+            (Some(b), Some(a)) => (b, Some(a), false),
+            (Some(b), None) => {
+                notes.push("no plane above: solved as an embedded microstrip".into());
+                (b, None, false)
+            }
+            (None, Some(a)) => {
+                notes.push("no plane below: solved as an embedded microstrip".into());
+                (a, None, true)
+            }
+            (None, None) => {
+                return Err(SectionError(format!(
+                    "no reference plane above or below `{}`",
+                    nc.layer
+                )))
+            }
+        }
+    } else {
+        // Microstrip-like: the plane on the side facing the open surface.
+        let copper_above = (0..i).any(|j| s.copper(j).is_some());
+        let copper_below = (i + 1..s.layers.len()).any(|j| s.copper(j).is_some());
+        match (rb, ra) {
+            (None, None) => {
+                return Err(SectionError(format!(
+                    "no reference plane next to `{}`",
+                    nc.layer
+                )))
+            }
+            (Some(b), None) => (b, None, false),
+            (None, Some(a)) => (a, None, true),
+            (Some(b), Some(a)) => {
+                if !copper_above || nc.structure == Structure::EmbeddedMicrostrip {
+                    (b, None, false)
+                } else if !copper_below {
+                    (a, None, true)
+                } else {
+                    notes.push("planes on both sides: solved as a stripline".into());
+                    (b, Some(a), false)
+                }
+            }
+        }
+    };
+    // Board-frame index walk from the first plane through the trace to the
+    // second plane (or the board surface).
+    let step: isize = if flipped { 1 } else { -1 };
+    let end: isize = match second {
+        Some(p) => p as isize,
+        None => {
+            if flipped {
+                s.layers.len() as isize
+            } else {
+                -1
+            }
+        }
+    };
+    let mut order = Vec::new();
+    let mut k = first as isize + step;
+    while k != end {
+        order.push(k as usize);
+        k += step;
+    }
+    // Fill of a copper slot: the neighbouring prepreg (resin flows into the
+    // etched copper), else solder mask, else the neighbour on the open side.
+    let fill_eps = |j: usize| -> f64 {
+        let nb = [j.checked_sub(1), Some(j + 1)];
+        let mut best: Option<(u8, f64)> = None;
+        for n in nb.into_iter().flatten() {
+            if let Some(d) = s.dielectric(n) {
+                let rank = match d.kind {
+                    DielectricKind::Prepreg | DielectricKind::BondingFilm => 3,
+                    DielectricKind::SolderMask => 2,
+                    DielectricKind::Core => 1,
+                };
+                if best.is_none_or(|(r, _)| rank > r) {
+                    best = Some((rank, eps_of(n)));
+                }
+            }
+        }
+        best.map_or(1.0, |b| b.1)
+    };
+    let mut slabs = Vec::new();
+    let mut trace_slot = None;
+    for &j in &order {
+        match &s.layers[j].kind {
+            LayerKind::Dielectric(d) => slabs.push(Slab {
+                thickness: d.thickness,
+                eps: eps_of(j),
+                layer: j,
+            }),
+            LayerKind::Copper(c) => {
+                if j == i {
+                    trace_slot = Some(slabs.len());
+                    // Open side (outer layer): solder mask fills around the
+                    // trace if the next layer out is mask, else air.
+                    let eps = if second.is_none() {
+                        let pos = order.iter().position(|&x| x == j).unwrap_or(0);
+                        match order
+                            .get(pos + 1)
+                            .and_then(|&n| s.dielectric(n).map(|d| (n, d)))
+                        {
+                            Some((n, d)) if d.kind == DielectricKind::SolderMask => eps_of(n),
+                            Some(_) => fill_eps(j),
+                            None => 1.0,
+                        }
+                    } else {
+                        fill_eps(j)
+                    };
+                    slabs.push(Slab {
+                        thickness: c.thickness,
+                        eps,
+                        layer: j,
+                    });
+                } else {
+                    if !c.role.is_reference() {
+                        notes.push(format!(
+                            "signal layer `{}` inside the section modelled as resin-filled",
+                            s.layers[j].name
+                        ));
+                    }
+                    slabs.push(Slab {
+                        thickness: c.thickness,
+                        eps: fill_eps(j),
+                        layer: j,
+                    });
+                }
+            }
+        }
+    }
+    let trace_slot = trace_slot
+        .ok_or_else(|| SectionError("the trace is not between its reference planes".into()))?;
+    // Etch profile: the base is on the laminate (core) the foil came with.
+    let below_is_core = trace_slot > 0
+        && s.dielectric(slabs[trace_slot - 1].layer)
+            .is_some_and(|d| d.kind == DielectricKind::Core);
+    let above_is_core = slabs.get(trace_slot + 1).is_some_and(|sl| {
+        s.dielectric(sl.layer)
+            .is_some_and(|d| d.kind == DielectricKind::Core)
+    });
+    let base_up = above_is_core && !below_is_core;
+    let top = nc.top_width.unwrap_or(nc.width);
+    let (width_bottom, width_top) = if base_up {
+        (top, nc.width)
+    } else {
+        (nc.width, top)
+    };
+    // Faces, in the solver frame.
+    let (face_lo, face_hi) = if flipped {
+        (trace.up.as_ref(), trace.down.as_ref())
+    } else {
+        (trace.down.as_ref(), trace.up.as_ref())
+    };
+    let mut faces = Vec::new();
+    let face_of = |layer: usize, up_in_frame: bool| -> (Option<String>, FaceRoughness) {
+        let c = s.copper(layer);
+        let f = c.and_then(|c| {
+            // up_in_frame: the face pointing up in the solver frame.
+            match (up_in_frame, flipped) {
+                (true, false) | (false, true) => c.up.as_ref(),
+                _ => c.down.as_ref(),
+            }
+        });
+        (f.map(|f| f.pointer.clone()), FaceRoughness::of(f))
+    };
+    let (p, r) = face_of(first, true);
+    faces.push(LineFace {
+        role: "plane below",
+        layer: first,
+        pointer: p,
+        roughness: r,
+    });
+    faces.push(LineFace {
+        role: "trace bottom",
+        layer: i,
+        pointer: face_lo.map(|f| f.pointer.clone()),
+        roughness: FaceRoughness::of(face_lo),
+    });
+    faces.push(LineFace {
+        role: "trace top",
+        layer: i,
+        pointer: face_hi.map(|f| f.pointer.clone()),
+        roughness: FaceRoughness::of(face_hi),
+    });
+    if let Some(sp) = second {
+        let (p, r) = face_of(sp, false);
+        faces.push(LineFace {
+            role: "plane above",
+            layer: sp,
+            pointer: p,
+            roughness: r,
+        });
+    }
+    Ok(LineGeometry {
+        slabs,
+        trace_slot,
+        bottom_plane: first,
+        top_plane: second,
+        flipped,
+        width_bottom,
+        width_top,
+        thickness: trace.thickness,
+        spacing: nc.spacing,
+        gap: if nc.structure == Structure::CoplanarGrounded {
+            nc.gap
+        } else {
+            None
+        },
+        faces,
+        notes,
+    })
+}
+
+/// Roughness layers to paint on the faces: thickness per face (same order
+/// as `LineGeometry::faces`) and the layer permittivity factor.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RoughLayers {
+    pub thickness: Vec<f64>,
+    /// eps_rough / eps_bulk.
+    pub eps_factor: f64,
+}
+
+/// The solver cross-section of a geometry, with optional roughness layers.
+pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSection {
+    let y_trace = g.y_trace();
+    let t = g.thickness;
+    let mut layers: Vec<DielectricLayer> = Vec::new();
+    let mut blocks = Vec::new();
+    let tr = |k: usize| {
+        rough
+            .and_then(|r| r.thickness.get(k).copied())
+            .unwrap_or(0.0)
+    };
+    let factor = rough.map_or(1.0, |r| r.eps_factor);
+    let n = g.slabs.len();
+    for (k, sl) in g.slabs.iter().enumerate() {
+        // Plane faces: split the first / last slab.
+        let mut lo = 0.0;
+        let mut hi = 0.0;
+        if k == 0 {
+            lo = tr(0).min(0.45 * sl.thickness);
+        }
+        if k + 1 == n && g.top_plane.is_some() {
+            hi = tr(3).min(0.45 * sl.thickness);
+        }
+        if lo > 0.0 {
+            layers.push(DielectricLayer {
+                thickness: lo,
+                eps_r: sl.eps * factor,
+            });
+        }
+        layers.push(DielectricLayer {
+            thickness: sl.thickness - lo - hi,
+            eps_r: sl.eps,
+        });
+        if hi > 0.0 {
+            layers.push(DielectricLayer {
+                thickness: hi,
+                eps_r: sl.eps * factor,
+            });
+        }
+    }
+    let conductors: Vec<Trace> = match g.spacing {
+        Some(sp) => {
+            let pitch = g.width_bottom.max(g.width_top) + sp;
+            vec![
+                Trace {
+                    x_center: -0.5 * pitch,
+                    y_bottom: y_trace,
+                    width_bottom: g.width_bottom,
+                    width_top: g.width_top,
+                    thickness: t,
+                },
+                Trace {
+                    x_center: 0.5 * pitch,
+                    y_bottom: y_trace,
+                    width_bottom: g.width_bottom,
+                    width_top: g.width_top,
+                    thickness: t,
+                },
+            ]
+        }
+        None => vec![Trace {
+            x_center: 0.0,
+            y_bottom: y_trace,
+            width_bottom: g.width_bottom,
+            width_top: g.width_top,
+            thickness: t,
+        }],
+    };
+    // Trace faces: blocks just under and over each trace, in the permittivity
+    // of the slab they sit in.
+    let eps_below = if g.trace_slot > 0 {
+        g.slabs[g.trace_slot - 1].eps
+    } else {
+        1.0
+    };
+    let eps_above = g.slabs.get(g.trace_slot + 1).map_or(1.0, |s| s.eps);
+    let (tb, tt) = (tr(1), tr(2));
+    for c in &conductors {
+        if tb > 0.0 && g.trace_slot > 0 {
+            let h = tb.min(0.45 * g.slabs[g.trace_slot - 1].thickness);
+            blocks.push(DielectricBlock {
+                x0: c.x_center - 0.5 * c.width_bottom,
+                x1: c.x_center + 0.5 * c.width_bottom,
+                y0: y_trace - h,
+                y1: y_trace,
+                eps_r: eps_below * factor,
+            });
+        }
+        if tt > 0.0 && g.trace_slot + 1 < n {
+            let h = tt.min(0.45 * g.slabs[g.trace_slot + 1].thickness);
+            blocks.push(DielectricBlock {
+                x0: c.x_center - 0.5 * c.width_top,
+                x1: c.x_center + 0.5 * c.width_top,
+                y0: y_trace + t,
+                y1: y_trace + t + h,
+                eps_r: eps_above * factor,
+            });
+        }
+    }
+    let coplanar_grounds = g.gap.map(|gap| CoplanarGrounds {
+        gap,
+        width: None,
+        y_bottom: y_trace,
+        thickness: t,
+    });
+    CrossSection {
+        layers,
+        bottom_plane: true,
+        top_plane: g.top_plane.is_some(),
+        conductors,
+        blocks,
+        coplanar_grounds,
+    }
+}

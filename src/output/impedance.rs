@@ -1,0 +1,224 @@
+//! The `impedance` command's table: per net class, what the stackup really
+//! gives (field-solved), with smooth and rough copper.
+
+use serde::Serialize;
+
+use crate::analysis::{Analysis, ClassAnalysis, LineNumbers};
+use crate::model::Stackup;
+
+#[derive(Serialize)]
+struct Row<'a> {
+    net_class: &'a str,
+    structure: &'a str,
+    layer: &'a str,
+    width_um: f64,
+    spacing_um: Option<f64>,
+    frequency_ghz: f64,
+    target_ohm: Option<f64>,
+    smooth: Option<Numbers>,
+    rough_best: Option<Numbers>,
+    rough_worst: Option<Numbers>,
+    roughness_unknown: bool,
+    width_for_target_um: Option<f64>,
+    loss_db_per_mm: Option<f64>,
+    dielectric_loss_db_per_mm: Option<f64>,
+    conductor_loss_db_per_mm: Option<f64>,
+    model: &'a str,
+    error: Option<&'a str>,
+    notes: &'a [String],
+}
+
+#[derive(Serialize)]
+struct Numbers {
+    z_ohm: f64,
+    z_even_ohm: Option<f64>,
+    z_odd_ohm: Option<f64>,
+    eps_eff: f64,
+    delay_ps_per_mm: f64,
+    rel_error: f64,
+}
+
+fn numbers(n: &LineNumbers) -> Numbers {
+    Numbers {
+        z_ohm: round(n.z, 2),
+        z_even_ohm: n.z_even.map(|v| round(v, 2)),
+        z_odd_ohm: n.z_odd.map(|v| round(v, 2)),
+        eps_eff: round(n.eps_eff, 4),
+        delay_ps_per_mm: round(n.ps_per_mm(), 3),
+        rel_error: round(n.rel_error, 5),
+    }
+}
+
+fn round(v: f64, digits: i32) -> f64 {
+    let p = 10f64.powi(digits);
+    (v * p).round() / p
+}
+
+fn rows<'a>(s: &'a Stackup, a: &'a Analysis) -> Vec<Row<'a>> {
+    s.net_classes
+        .iter()
+        .zip(&a.classes)
+        .map(|(nc, ca): (_, &ClassAnalysis)| Row {
+            net_class: &nc.name,
+            structure: nc.structure.as_str(),
+            layer: &nc.layer,
+            width_um: round(nc.width * 1e6, 2),
+            spacing_um: nc.spacing.map(|v| round(v * 1e6, 2)),
+            frequency_ghz: round(ca.frequency / 1e9, 4),
+            target_ohm: nc.impedance.map(|t| t.target),
+            smooth: ca.smooth.as_ref().ok().map(numbers),
+            rough_best: ca.rough_best.as_ref().map(numbers),
+            rough_worst: ca.rough_worst.as_ref().map(numbers),
+            roughness_unknown: ca.roughness_unknown,
+            width_for_target_um: ca.width_for_target.map(|w| round(w * 1e6, 1)),
+            loss_db_per_mm: ca.loss.map(|l| round(l.total_rough() / 1e3, 5)),
+            dielectric_loss_db_per_mm: ca.loss.map(|l| round(l.dielectric / 1e3, 5)),
+            conductor_loss_db_per_mm: ca.loss.map(|l| round(l.conductor_rough / 1e3, 5)),
+            model: ca.model,
+            error: ca.smooth.as_ref().err().map(String::as_str),
+            notes: &ca.notes,
+        })
+        .collect()
+}
+
+/// JSON: `{"file": …, "net_classes": [ … ]}` per stackup.
+pub fn json(items: &[(&str, &Stackup, &Analysis)]) -> String {
+    #[derive(Serialize)]
+    struct File<'a> {
+        file: &'a str,
+        net_classes: Vec<Row<'a>>,
+    }
+    let files: Vec<File> = items
+        .iter()
+        .map(|(name, s, a)| File {
+            file: name,
+            net_classes: rows(s, a),
+        })
+        .collect();
+    let mut out = serde_json::to_string_pretty(&files).unwrap_or_default();
+    out.push('\n');
+    out
+}
+
+/// Plain text table.
+pub fn table(name: &str, s: &Stackup, a: &Analysis) -> String {
+    let mut out = format!(
+        "{name}{}\n",
+        s.board
+            .as_ref()
+            .map(|b| format!(" — {b}"))
+            .unwrap_or_default()
+    );
+    if s.net_classes.is_empty() {
+        out.push_str("  (no net classes)\n");
+        return out;
+    }
+    let header = [
+        "net class",
+        "structure",
+        "layer",
+        "W/S um",
+        "f GHz",
+        "target",
+        "Z smooth",
+        "Z rough",
+        "eps_eff",
+        "ps/mm",
+        "dB/mm",
+        "W for target",
+    ];
+    let mut lines: Vec<[String; 12]> = Vec::new();
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        let ws = match nc.spacing {
+            Some(sp) => format!("{:.0}/{:.0}", nc.width * 1e6, sp * 1e6),
+            None => format!("{:.0}", nc.width * 1e6),
+        };
+        let (zs, eps, delay) = match &ca.smooth {
+            Ok(n) => (format!("{:.1}", n.z), n.eps_eff, n.ps_per_mm()),
+            Err(_) => ("—".into(), f64::NAN, f64::NAN),
+        };
+        let zr = match (ca.rough_best, ca.rough_worst) {
+            (Some(b), Some(w)) if (b.z - w.z).abs() >= 0.05 => {
+                format!("{:.1}..{:.1}", w.z.min(b.z), w.z.max(b.z))
+            }
+            (_, Some(w)) => format!("{:.1}", w.z),
+            _ => "—".into(),
+        };
+        let (eps, delay) = match ca.rough_worst {
+            Some(w) => (w.eps_eff, w.ps_per_mm()),
+            None => (eps, delay),
+        };
+        lines.push([
+            nc.name.clone(),
+            nc.structure.as_str().to_string(),
+            nc.layer.clone(),
+            ws,
+            format!("{:.3}", ca.frequency / 1e9)
+                .trim_end_matches('0')
+                .trim_end_matches('.')
+                .to_string(),
+            nc.impedance.map_or("—".into(), |t| {
+                format!("{:.0}±{:.1}", t.target, t.tolerance)
+            }),
+            zs,
+            zr,
+            if eps.is_nan() {
+                "—".into()
+            } else {
+                format!("{eps:.3}")
+            },
+            if delay.is_nan() {
+                "—".into()
+            } else {
+                format!("{delay:.2}")
+            },
+            ca.loss
+                .map_or("—".into(), |l| format!("{:.4}", l.total_rough() / 1e3)),
+            ca.width_for_target
+                .map_or("—".into(), |w| format!("{:.1} um", w * 1e6)),
+        ]);
+    }
+    let mut widths = header.map(str::len);
+    for l in &lines {
+        for (k, c) in l.iter().enumerate() {
+            widths[k] = widths[k].max(c.chars().count());
+        }
+    }
+    let fmt_row = |cells: Vec<&str>| -> String {
+        let mut r = String::from(" ");
+        for (k, c) in cells.iter().enumerate() {
+            r.push(' ');
+            r.push_str(c);
+            r.push_str(&" ".repeat(widths[k] - c.chars().count()));
+            r.push(' ');
+        }
+        r.trim_end().to_string() + "\n"
+    };
+    out.push_str(&fmt_row(header.to_vec()));
+    out.push_str(&fmt_row(
+        widths
+            .iter()
+            .map(|&w| "-".repeat(w))
+            .collect::<Vec<_>>()
+            .iter()
+            .map(String::as_str)
+            .collect(),
+    ));
+    for l in &lines {
+        out.push_str(&fmt_row(l.iter().map(String::as_str).collect()));
+    }
+    out.push_str("\n  Z rough, eps_eff, ps/mm and dB/mm include the declared copper roughness (worst case where a face is unknown);\n");
+    out.push_str(
+        "  W for target: base width that brings the rough line back to its target impedance.\n",
+    );
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        if let Err(e) = &ca.smooth {
+            out.push_str(&format!("  {}: not solved: {e}\n", nc.name));
+        }
+        for n in &ca.notes {
+            out.push_str(&format!("  {}: {n}\n", nc.name));
+        }
+    }
+    out.push_str(&format!("  model: {}\n", crate::analysis::FIELD_SOLVER));
+    out
+}
