@@ -9,10 +9,13 @@
 //! capacitance is an upper bound that decreases monotonically under nested
 //! refinement.
 
-use faer::linalg::solvers::Solve;
-use faer::sparse::linalg::solvers::{Llt, SymbolicLlt};
+use faer::dyn_stack::{MemBuffer, MemStack};
+use faer::perm::PermRef;
+use faer::sparse::linalg::cholesky::{
+    factorize_symbolic_cholesky, SymbolicCholesky, SymmetricOrdering,
+};
 use faer::sparse::{SparseColMat, SymbolicSparseColMat};
-use faer::{Mat, Side};
+use faer::{Conj, Mat, Par, Side};
 
 /// What a mesh node is.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -89,12 +92,60 @@ impl Grid {
     }
 }
 
+/// Nested-dissection ordering of the free nodes of a tensor grid
+/// (A. George, "Nested dissection of a regular finite element mesh", SIAM J.
+/// Numer. Anal. 10, 1973): the index box is split by a grid line across its
+/// longer side, both halves are ordered recursively and the separator
+/// line comes last. Returns `forward` (new → old free index).
+fn nested_dissection(grid: &Grid) -> Vec<usize> {
+    let (nx, ny) = (grid.nx(), grid.ny());
+    let mut order = Vec::with_capacity(grid.n_free);
+    // explicit stack instead of recursion
+    enum Task {
+        Box(usize, usize, usize, usize),
+        Line(usize, usize, usize, usize),
+    }
+    let mut stack = vec![Task::Box(0, nx, 0, ny)];
+    let emit = |i0: usize, i1: usize, j0: usize, j1: usize, order: &mut Vec<usize>| {
+        for j in j0..j1 {
+            for i in i0..i1 {
+                if let Node::Free(ip) = grid.nodes[j * nx + i] {
+                    order.push(ip);
+                }
+            }
+        }
+    };
+    while let Some(t) = stack.pop() {
+        match t {
+            Task::Line(i0, i1, j0, j1) => emit(i0, i1, j0, j1, &mut order),
+            Task::Box(i0, i1, j0, j1) => {
+                let (w, h) = (i1 - i0, j1 - j0);
+                if w * h <= 48 || w < 3 || h < 3 {
+                    emit(i0, i1, j0, j1, &mut order);
+                } else if w >= h {
+                    let s = i0 + w / 2;
+                    // pushed in reverse: first half, second half, separator
+                    stack.push(Task::Line(s, s + 1, j0, j1));
+                    stack.push(Task::Box(s + 1, i1, j0, j1));
+                    stack.push(Task::Box(i0, s, j0, j1));
+                } else {
+                    let s = j0 + h / 2;
+                    stack.push(Task::Line(i0, i1, s, s + 1));
+                    stack.push(Task::Box(i0, i1, s + 1, j1));
+                    stack.push(Task::Box(i0, i1, j0, s));
+                }
+            }
+        }
+    }
+    order
+}
+
 /// Sparse Cholesky solver for one grid; the symbolic factorisation (fill
 /// reducing ordering and elimination tree) is shared by the dielectric and
 /// the vacuum systems, which have the same pattern.
 pub(crate) struct Solver<'g> {
     grid: &'g Grid,
-    symbolic: SymbolicLlt<usize>,
+    symbolic: SymbolicCholesky<usize>,
     col_ptr: Vec<usize>,
     row_idx: Vec<usize>,
 }
@@ -130,8 +181,22 @@ impl<'g> Solver<'g> {
         }
         let pattern =
             SymbolicSparseColMat::new_checked(n, n, col_ptr.clone(), None, row_idx.clone());
-        let symbolic = SymbolicLlt::try_new(pattern.as_ref(), Side::Lower)
-            .map_err(|e| format!("symbolic factorisation failed: {e:?}"))?;
+        let forward = nested_dissection(grid);
+        if forward.len() != n {
+            return Err("internal error: ordering lost nodes".into());
+        }
+        let mut inverse = vec![0usize; n];
+        for (new, &old) in forward.iter().enumerate() {
+            inverse[old] = new;
+        }
+        let perm = PermRef::new_checked(&forward, &inverse, n);
+        let symbolic = factorize_symbolic_cholesky(
+            pattern.as_ref(),
+            Side::Lower,
+            SymmetricOrdering::Custom(perm),
+            Default::default(),
+        )
+        .map_err(|e| format!("symbolic factorisation failed: {e:?}"))?;
         Ok(Solver {
             grid,
             symbolic,
@@ -204,10 +269,27 @@ impl<'g> Solver<'g> {
             self.row_idx.clone(),
         );
         let a = SparseColMat::<usize, f64>::new(pattern, val);
-        let llt = Llt::try_new_with_symbolic(self.symbolic.clone(), a.as_ref(), Side::Lower)
+        let sym = &self.symbolic;
+        let mut l_values = vec![0.0f64; sym.len_val()];
+        let mut buf = MemBuffer::try_new(
+            sym.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()),
+        )
+        .map_err(|_| "out of memory for the factorisation workspace".to_string())?;
+        let llt = sym
+            .factorize_numeric_llt::<f64>(
+                &mut l_values,
+                a.as_ref(),
+                Side::Lower,
+                Default::default(),
+                Par::Seq,
+                MemStack::new(&mut buf),
+                Default::default(),
+            )
             .map_err(|e| format!("Cholesky factorisation failed: {e:?}"))?;
         let mut phi = rhs;
-        llt.solve_in_place(phi.as_mut());
+        let mut sbuf = MemBuffer::try_new(sym.solve_in_place_scratch::<f64>(nc, Par::Seq))
+            .map_err(|_| "out of memory for the solve workspace".to_string())?;
+        llt.solve_in_place_with_conj(Conj::No, phi.as_mut(), Par::Seq, MemStack::new(&mut sbuf));
         // Charge on conductor k for excitation m: Σ a (φ_k − φ_other) over the
         // links that leave conductor k's nodes.
         let mut c = vec![0.0; nc * nc];
@@ -241,5 +323,45 @@ impl<'g> Solver<'g> {
             return Err("non-finite capacitance (degenerate mesh)".into());
         }
         Ok(c)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn nested_dissection_is_a_permutation() {
+        let (nx, ny) = (37, 23);
+        let mut nodes = Vec::new();
+        let mut n_free = 0;
+        for j in 0..ny {
+            for i in 0..nx {
+                // boundary and a strip of fixed nodes, the rest free
+                if i == 0
+                    || j == 0
+                    || i == nx - 1
+                    || j == ny - 1
+                    || (j == 11 && (10..20).contains(&i))
+                {
+                    nodes.push(Node::Fixed(0));
+                } else {
+                    nodes.push(Node::Free(n_free));
+                    n_free += 1;
+                }
+            }
+        }
+        let grid = Grid {
+            xs: (0..nx).map(|i| i as f64).collect(),
+            ys: (0..ny).map(|j| j as f64).collect(),
+            eps: vec![1.0; (nx - 1) * (ny - 1)],
+            nodes,
+            n_free,
+            n_cond: 1,
+        };
+        let mut order = nested_dissection(&grid);
+        assert_eq!(order.len(), n_free);
+        order.sort_unstable();
+        assert!(order.iter().enumerate().all(|(k, &v)| k == v));
     }
 }
