@@ -89,7 +89,6 @@ def gcpw_rows():
                             rho=1.68e-8,
                             has_metal_backside=True,
                             diel="frequencyinvariant",
-                            compatibility_mode="ads",
                         )
                         z = float(np.real(np.atleast_1d(c.zl_eff)[0]))
                         e = float(np.real(np.atleast_1d(c.ep_reff)[0]))
