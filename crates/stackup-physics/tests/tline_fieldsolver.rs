@@ -582,3 +582,14 @@ fn offset_stripline_closed_form_vs_solver() {
         assert_eq!(c.notes.is_empty(), h1.max(h2) / h1.min(h2) <= 2.0);
     }
 }
+
+/// The reference-grade preset is within 0.03 % of Cohn's exact 1954 result.
+#[test]
+fn accurate_preset_vs_cohn() {
+    let b = 0.4e-3;
+    let r = solve(&stripline(0.5 * b, b, 1.0), &SolverOptions::accurate()).unwrap();
+    let want = cohn_stripline(0.5 * b, b, 1.0).unwrap().z0;
+    let z = r.single.unwrap().z0;
+    assert!(rel(z, want) < 3e-4, "{z} vs {want}");
+    assert!(r.z_rel_error < 1e-3);
+}

@@ -28,7 +28,14 @@
 //!
 //! The scheme equals linear finite elements on the rectangles split into
 //! triangles, so each mesh's capacitance is an upper bound (Dirichlet
-//! principle) and the un-extrapolated impedance a lower bound.
+//! principle) for the geometry as meshed; sloped trace sides (etch
+//! trapezoids) are represented by staircases of mesh nodes.
+//!
+//! Measured accuracy with the default options (tests/tline_fieldsolver.rs):
+//! within 0.13 % of Cohn's exact stripline (W/b 0.1–3), 0.08 % of Cohn's
+//! coupled stripline, 0.1 % of Hammerstad-Jensen microstrip (inside its
+//! 0.2 % stated accuracy). `SolverOptions::accurate()` runs three finer
+//! meshes with a fitted order for reference-grade values.
 //!
 //! The sparse symmetric positive-definite systems are solved by a sparse
 //! Cholesky factorisation (faer), sequential and deterministic.
@@ -198,6 +205,19 @@ impl Default for SolverOptions {
             assumed_order: 2.0,
             wall_factor_closed: 8.0,
             wall_factor_open: 40.0,
+        }
+    }
+}
+
+impl SolverOptions {
+    /// Reference-grade settings: three finer meshes (levels 1, 2, 3), the
+    /// convergence order fitted; about 10–50× the cost of the default.
+    pub fn accurate() -> Self {
+        SolverOptions {
+            density: 1.0,
+            growth: 1.3,
+            refinements: vec![1.0, 2.0, 3.0],
+            ..SolverOptions::default()
         }
     }
 }
