@@ -49,7 +49,8 @@ pub fn sort_findings(findings: &mut [Finding], db: &SourceDb) {
 pub fn lint(loaded: load::Loaded) -> CheckOutcome {
     let mut findings = loaded.problems;
     for s in &loaded.stackups {
-        findings.extend(rules::run(s, &loaded.db));
+        let analysis = crate::analysis::analyze(s);
+        findings.extend(rules::run(s, &analysis, &loaded.db));
     }
     let files = loaded
         .db

@@ -66,6 +66,10 @@ pub struct Finding {
     pub key_numbers: Vec<String>,
     /// Set when a suppression matched: its reason.
     pub suppressed: Option<String>,
+    /// The rule chose this finding's severity itself (e.g. a warning-level
+    /// variant of an error rule); a severity configured by the project
+    /// still overrides it.
+    pub severity_chosen: bool,
 }
 
 impl Finding {
@@ -80,7 +84,15 @@ impl Finding {
             help: None,
             key_numbers: Vec::new(),
             suppressed: None,
+            severity_chosen: false,
         }
+    }
+
+    /// Give this finding its own severity (see `severity_chosen`).
+    pub fn with_severity(mut self, severity: Severity) -> Self {
+        self.severity = severity;
+        self.severity_chosen = true;
+        self
     }
 
     pub fn label(mut self, text: impl Into<String>) -> Self {

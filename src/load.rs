@@ -97,11 +97,19 @@ fn read_file(
             "check the path and its permissions",
         )),
     };
+    // For text that is not UTF-8, keep a lossy copy so the finding can
+    // point at the bad byte (shown as U+FFFD) instead of the file start.
+    let mut bad_span = 0..0;
     let text = bytes.and_then(|b| {
         String::from_utf8(b).map_err(|e| {
             let at = e.utf8_error().valid_up_to();
+            let byte = e.as_bytes().get(at).copied().unwrap_or(0);
+            let lossy = String::from_utf8_lossy(e.as_bytes()).into_owned();
+            // The text before `at` is valid, so it is the same in the lossy copy.
+            bad_span = at..at + char::REPLACEMENT_CHARACTER.len_utf8();
+            file.text = lossy;
             problem(
-                format!("the file is not valid UTF-8 (bad byte at offset {at})"),
+                format!("the file is not valid UTF-8 (byte 0x{byte:02x} at offset {at})"),
                 "save the file as UTF-8",
             )
         })
@@ -110,8 +118,10 @@ fn read_file(
         Ok(t) => file.text = t,
         Err((msg, help)) => {
             let id = loaded.db.add(file);
+            let mut at = whole_file(id);
+            at.span = bad_span;
             loaded.problems.push(
-                Finding::new(INVALID_INPUT, whole_file(id), msg)
+                Finding::new(INVALID_INPUT, at, msg)
                     .label("unreadable")
                     .with_help(help),
             );

@@ -6,6 +6,12 @@ use stackup_physics::dispersion::{DielectricPoint, DjordjevicSarkar, DEFAULT_F1,
 
 use crate::model::Material;
 
+/// Policy when a material states no validated range: data are trusted down
+/// to a tenth of the lowest data point (Dk changes little downwards)…
+pub const UNSTATED_RANGE_BELOW: f64 = 10.0;
+/// …and up to twice the highest (a project policy, not a published rule).
+pub const UNSTATED_RANGE_ABOVE: f64 = 2.0;
+
 /// Dk and Df of a material at one frequency.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct DkAt {
@@ -31,11 +37,12 @@ pub struct MaterialModel {
 impl MaterialModel {
     /// Fit the model: one point by Djordjevic et al. (2001) eqs. 9-11, several
     /// points by least squares (see `stackup_physics::dispersion`). The
-    /// validated range is the material's `valid-from`/`valid-to`, or the span
-    /// of its data points when not given.
+    /// validated range is the material's `valid-from`/`valid-to`; when not
+    /// given, the project's policy is one decade below the lowest data point
+    /// to twice the highest ([`UNSTATED_RANGE_BELOW`], [`UNSTATED_RANGE_ABOVE`]).
     pub fn fit(m: &Material) -> MaterialModel {
-        let lo = m.points.first().map_or(1e9, |p| p.frequency);
-        let hi = m.points.last().map_or(1e9, |p| p.frequency);
+        let lo = m.points.first().map_or(1e9, |p| p.frequency) / UNSTATED_RANGE_BELOW;
+        let hi = m.points.last().map_or(1e9, |p| p.frequency) * UNSTATED_RANGE_ABOVE;
         let valid_from = m.valid_from.unwrap_or(lo);
         let valid_to = m.valid_to.unwrap_or(hi);
         let fitted = if m.points.len() == 1 {

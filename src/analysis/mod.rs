@@ -452,3 +452,102 @@ fn line_loss(
         conductor_rough: loss::np_per_m_to_db_per_m(alpha_c(k_rough)),
     }
 }
+
+impl ClassAnalysis {
+    /// Thickness-weighted bulk Dk of the dielectrics that carry the line's
+    /// field: all slabs between two planes; the slabs under the trace for
+    /// an open (microstrip-like) section.
+    pub fn bulk_dk(&self) -> Option<f64> {
+        let g = self.geometry.as_ref().ok()?;
+        let slabs = if g.top_plane.is_some() {
+            &g.slabs[..]
+        } else {
+            &g.slabs[..g.trace_slot]
+        };
+        let (mut num, mut den) = (0.0, 0.0);
+        for sl in slabs {
+            num += sl.thickness * sl.eps;
+            den += sl.thickness;
+        }
+        (den > 0.0).then(|| num / den)
+    }
+
+    /// Apparent Dk of the line (best, worst): the Dk a smooth-copper model
+    /// of this same section needs to reproduce the rough-copper delay, by
+    /// inverting the filling factor q = (eps_eff − 1)/(Dk − 1) of the smooth
+    /// solution (Wheeler's filling-factor form of eps_eff, Proc. IRE 1942 /
+    /// IEEE T-MTT 1965).
+    pub fn apparent_dk(&self) -> Option<(f64, f64)> {
+        let smooth = self.smooth.as_ref().ok()?;
+        let bulk = self.bulk_dk()?;
+        if bulk <= 1.0 + 1e-9 {
+            return None;
+        }
+        let q = (smooth.eps_eff - 1.0) / (bulk - 1.0);
+        if q <= 0.0 {
+            return None;
+        }
+        let app = |n: &LineNumbers| 1.0 + (n.eps_eff - 1.0) / q;
+        let best = self.rough_best.as_ref().map_or(bulk, app);
+        let worst = self.rough_worst.as_ref().map_or(bulk, app);
+        Some((best.min(worst), best.max(worst)))
+    }
+}
+
+/// A dielectric's copper contact: which of its faces touch copper and how
+/// rough, and the apparent Dk that follows.
+#[derive(Debug, Clone)]
+pub struct DielectricContact {
+    pub layer: usize,
+    pub bulk: DkAt,
+    /// Copper faces touching it: (copper layer, face pointer, roughness).
+    pub faces: Vec<(usize, Option<String>, FaceRoughness)>,
+    /// Faces that touch another dielectric (or the board surface).
+    pub dielectric_faces: usize,
+    pub apparent_best: f64,
+    pub apparent_worst: f64,
+    pub frequency: f64,
+}
+
+/// Copper contact and apparent Dk of dielectric layer `layer` at `f`, by the
+/// effective-roughness-layer model in its parallel-plate form
+/// (`RoughLayerModel::apparent_dk_parallel_plate`).
+pub fn dielectric_contact(
+    s: &Stackup,
+    a: &Analysis,
+    layer: usize,
+    f: f64,
+) -> Option<DielectricContact> {
+    let d = s.dielectric(layer)?;
+    let bulk = a.materials.get(&d.material)?.at(f);
+    let mut faces = Vec::new();
+    let mut dielectric_faces = 0;
+    let above = layer
+        .checked_sub(1)
+        .and_then(|j| s.copper(j).map(|c| (j, c.down.as_ref())));
+    let below = s.copper(layer + 1).map(|c| (layer + 1, c.up.as_ref()));
+    for side in [above, below] {
+        match side {
+            Some((j, face)) => {
+                faces.push((j, face.map(|f| f.pointer.clone()), FaceRoughness::of(face)))
+            }
+            None => dielectric_faces += 1,
+        }
+    }
+    let model = RoughLayerModel::default();
+    let app = |worst: bool| -> f64 {
+        let surfaces: Vec<RoughSurface> = faces.iter().map(|(_, _, r)| r.surface(worst)).collect();
+        model
+            .apparent_dk_parallel_plate(bulk.dk, d.thickness, &surfaces, f, SIGMA)
+            .unwrap_or(bulk.dk)
+    };
+    Some(DielectricContact {
+        layer,
+        bulk,
+        apparent_best: app(false),
+        apparent_worst: app(true),
+        faces,
+        dielectric_faces,
+        frequency: f,
+    })
+}

@@ -84,6 +84,9 @@ pub struct LineGeometry {
     pub faces: Vec<LineFace>,
     /// Notes on how the section was built (approximations taken).
     pub notes: Vec<String>,
+    /// The section differs from the declared structure (a plane is
+    /// missing or extra); `missing-reference-plane` reports why.
+    pub structure_fallback: bool,
 }
 
 impl LineGeometry {
@@ -137,12 +140,18 @@ pub fn geometry(
         .copper(i)
         .ok_or_else(|| SectionError(format!("layer `{}` is not copper", nc.layer)))?;
     let pick = |above: bool| -> Option<usize> {
+        // Named references count only where they are planes; a wrong name
+        // is reported by `missing-reference-plane` and the real plane used.
         if let Some(refs) = &nc.references {
             let r = refs
                 .iter()
                 .copied()
+                .filter(|&r| s.copper(r).is_some_and(|c| c.role.is_reference()))
                 .filter(|&r| if above { r < i } else { r > i });
-            return if above { r.max() } else { r.min() };
+            let named = if above { r.max() } else { r.min() };
+            if named.is_some() {
+                return named;
+            }
         }
         if above {
             s.reference_above(i)
@@ -361,6 +370,9 @@ pub fn geometry(
             None
         },
         faces,
+        structure_fallback: notes
+            .iter()
+            .any(|n| n.starts_with("no plane") || n.starts_with("planes on both")),
         notes,
     })
 }

@@ -10,6 +10,7 @@ use jsonschema::error::ValidationErrorKind;
 use jsonschema::{Draft, Registry, ValidationError, Validator};
 
 use crate::finding::{Finding, INVALID_INPUT};
+use crate::input::yaml::Value;
 use crate::source::{escape_token, FileId, SourceDb};
 
 /// The stackup file schema (schema/stackup.schema.json).
@@ -63,13 +64,64 @@ pub fn validate(db: &SourceDb, file: FileId, kind: FileKind) -> Vec<Finding> {
     };
     let instance = tree.to_json();
     let mut out: Vec<Finding> = Vec::new();
-    for err in validator(kind).iter_errors(&instance) {
+    // A hostile file can hold 100 000 unknown keys; a person reads the
+    // first few, so stop early instead of spending minutes on messages.
+    for err in validator(kind).iter_errors(&instance).take(MAX_FINDINGS) {
         explain(db, file, &err, &mut out);
     }
+    out.truncate(MAX_FINDINGS);
+    // A misspelt key also leaves a required key missing; the unknown-key
+    // finding (with its "did you mean") says it all, so drop the other.
+    let typos: Vec<(String, String)> = out
+        .iter()
+        .filter_map(|f| {
+            let fix = f.help.as_deref()?.strip_prefix("did you mean `")?;
+            let fix = fix.split('`').next()?;
+            let parent = f.primary.pointer.rsplit_once('/')?.0;
+            Some((parent.to_string(), fix.to_string()))
+        })
+        .collect();
+    out.retain(|f| {
+        !typos.iter().any(|(parent, fix)| {
+            &f.primary.pointer == parent
+                && (f.message.ends_with(&format!("required key `{fix}`"))
+                    || f.message.contains(&format!("`{fix}` (")))
+        })
+    });
     // One message per place is enough; keep the first.
     let mut seen = std::collections::BTreeSet::new();
     out.retain(|f| seen.insert((f.primary.pointer.clone(), f.message.clone())));
     out
+}
+
+/// Most schema findings reported for one file.
+const MAX_FINDINGS: usize = 50;
+
+/// The edit distance (Levenshtein) between two short words.
+fn edit_distance(a: &str, b: &str) -> usize {
+    let b: Vec<char> = b.chars().collect();
+    let mut row: Vec<usize> = (0..=b.len()).collect();
+    for (i, ca) in a.chars().enumerate() {
+        let mut prev = row[0];
+        row[0] = i + 1;
+        for (j, &cb) in b.iter().enumerate() {
+            let cur = row[j + 1];
+            row[j + 1] = (prev + usize::from(ca != cb)).min(row[j] + 1).min(cur + 1);
+            prev = cur;
+        }
+    }
+    row[b.len()]
+}
+
+/// The allowed key closest to a misspelt one, if it is close enough to be
+/// a typo (at most two edits, and fewer than half the letters).
+fn suggest<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
+    allowed
+        .iter()
+        .map(|a| (edit_distance(key, a), *a))
+        .filter(|(d, a)| *d <= 2 && *d * 2 < a.len().max(key.len()))
+        .min_by_key(|(d, _)| *d)
+        .map(|(_, a)| a)
 }
 
 fn finding(
@@ -102,22 +154,47 @@ fn describe_json(v: &serde_json::Value) -> String {
     }
 }
 
-/// Name of the last pointer token, for messages.
-fn field_name(pointer: &str) -> String {
-    let last = pointer.rsplit('/').next().unwrap_or("");
+/// Name of the node at `pointer`, for messages: the last key, or for a
+/// list entry its `name` (or its 1-based position) and the list it is in.
+fn field_name(db: &SourceDb, file: FileId, pointer: &str) -> String {
+    let unescape = |t: &str| t.replace("~1", "/").replace("~0", "~");
+    let (parent, last) = pointer.rsplit_once('/').unwrap_or(("", pointer));
     if last.is_empty() {
-        "the file".into()
-    } else if last.bytes().all(|b| b.is_ascii_digit()) {
-        format!("entry {last}")
-    } else {
-        format!("`{}`", last.replace("~1", "/").replace("~0", "~"))
+        return "the file".into();
+    }
+    if !last.bytes().all(|b| b.is_ascii_digit()) {
+        return format!("`{}`", unescape(last));
+    }
+    let list = parent.rsplit('/').next().map(unescape).unwrap_or_default();
+    let name = db
+        .get(file)
+        .tree
+        .as_ref()
+        .and_then(|t| t.pointer(pointer))
+        .and_then(|n| n.get("name"))
+        .and_then(|n| n.as_str().map(str::to_string));
+    let position = last.parse::<usize>().map_or(0, |i| i + 1);
+    match name {
+        Some(name) => format!("the `{list}` entry named `{name}`"),
+        None => format!("entry {position} of `{list}`"),
+    }
+}
+
+/// The YAML source text of a number that is not finite (`.nan`, `.inf`),
+/// which JSON cannot carry (it reaches the schema as null).
+fn non_finite_text(db: &SourceDb, file: FileId, pointer: &str) -> Option<String> {
+    let f = db.get(file);
+    let node = f.tree.as_ref()?.pointer(pointer)?;
+    match node.value {
+        Value::Number(n) if !n.is_finite() => f.text.get(node.span.clone()).map(str::to_string),
+        _ => None,
     }
 }
 
 fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
     let ptr = err.instance_path().as_str().to_string();
     let schema_path = err.schema_path().as_str().to_string();
-    let what = field_name(&ptr);
+    let what = field_name(db, file, &ptr);
     let instance = err.instance();
     match err.kind() {
         ValidationErrorKind::Required { property } => {
@@ -136,9 +213,16 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
             ));
         }
         ValidationErrorKind::AdditionalProperties { unexpected } => {
-            for key in unexpected {
+            let allowed = allowed_keys(&schema_path);
+            for key in unexpected.iter().take(MAX_FINDINGS) {
                 let kp = format!("{ptr}/{}", escape_token(key));
-                let allowed = allowed_keys(&schema_path);
+                let names: Vec<&str> = allowed
+                    .as_deref()
+                    .map_or(Vec::new(), |a| a.split(", ").collect());
+                let help = match suggest(key, &names) {
+                    Some(fix) => Some(format!("did you mean `{fix}`?")),
+                    None => allowed.as_ref().map(|a| format!("allowed keys here: {a}")),
+                };
                 out.push(finding(
                     db,
                     file,
@@ -146,9 +230,47 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                     true,
                     format!("unknown key `{key}` in {what}"),
                     "not a key of this format",
-                    allowed.map(|a| format!("allowed keys here: {a}")),
+                    help,
                 ));
             }
+        }
+        ValidationErrorKind::Type { .. } if ptr.is_empty() && instance.is_null() => {
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                false,
+                "the file is empty: it holds no YAML content".into(),
+                "empty",
+                Some("a stackup starts with `stackup-lint: 1` and lists its `layers:`".into()),
+            ));
+        }
+        ValidationErrorKind::Type { .. } if non_finite_text(db, file, &ptr).is_some() => {
+            let text = non_finite_text(db, file, &ptr).unwrap_or_default();
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                false,
+                format!("{what} is `{text}`, which is not a finite number"),
+                "NaN or infinity",
+                Some("give a finite value; NaN and infinity are never valid data".into()),
+            ));
+        }
+        ValidationErrorKind::Type { .. }
+            if instance.is_number() && quantity_help(&schema_path).is_some() =>
+        {
+            out.push(finding(
+                db,
+                file,
+                &ptr,
+                false,
+                format!(
+                    "{what} is the bare number {instance}; a bare number is ambiguous here, write it with a unit"
+                ),
+                "unit missing",
+                quantity_help(&schema_path),
+            ));
         }
         ValidationErrorKind::Type { kind } => {
             out.push(finding(
@@ -282,7 +404,7 @@ fn one_of_message(
         || schema_path.starts_with("/properties/layers")
     {
         (
-            format!("{what} of `layers` must be either a copper layer (`copper:`) or a dielectric (`dielectric:`), exactly one"),
+            format!("{what} must be either a copper layer (`copper:`) or a dielectric (`dielectric:`), exactly one"),
             "e.g. `- name: L1` with `copper: {role: signal, thickness: 35 um}`",
         )
     } else if schema_path.contains("dielectric") {

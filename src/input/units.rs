@@ -224,7 +224,9 @@ pub fn fmt_length(m: f64) -> String {
     if m.abs() < 1e-3 {
         format!("{:.1} µm", m * 1e6)
     } else {
-        format!("{:.3} mm", m * 1e3)
+        let t = format!("{:.3}", m * 1e3);
+        let t = t.trim_end_matches('0').trim_end_matches('.');
+        format!("{t} mm")
     }
 }
 

@@ -241,8 +241,26 @@ fn next<'i>(
         Some(Ok(ev)) => Ok(ev),
         Some(Err(e)) => {
             let at = offsets.byte(e.marker().index());
+            let info = e.info();
+            // The scanner reports a tab where the scalar before it ended;
+            // point at the tab itself.
+            if info.contains("tab") {
+                if let Some(tab) = offsets.text[at..].find('\t').map(|i| at + i) {
+                    return Err(YamlError {
+                        message: "the YAML is malformed: a tab character is used for indentation; \
+                                  YAML indents with spaces only"
+                            .into(),
+                        span: tab..tab + 1,
+                    });
+                }
+            }
+            let hint = if info.contains("did not find expected key") {
+                " (check the indentation of this line against the lines above)"
+            } else {
+                ""
+            };
             Err(YamlError {
-                message: format!("the YAML is malformed: {}", e.info()),
+                message: format!("the YAML is malformed: {info}{hint}"),
                 span: at..at,
             })
         }
@@ -326,7 +344,7 @@ impl Builder<'_, '_> {
                 let mut items = Vec::new();
                 let mut end = range.end;
                 loop {
-                    let (ev, sp) = next(parser, self.offsets)?;
+                    let (ev, sp) = self.next_in(parser, &range, ']')?;
                     if let Event::SequenceEnd = ev {
                         if items.is_empty() {
                             end = end.max(self.offsets.range(sp).end);
@@ -350,9 +368,12 @@ impl Builder<'_, '_> {
             Event::MappingStart(anchor, _) => {
                 self.count(1, &range)?;
                 let mut entries: Vec<Entry> = Vec::new();
+                // Key -> index in `entries`: a linear search per key made a
+                // 100 000-key mapping take minutes.
+                let mut seen: HashMap<String, usize> = HashMap::new();
                 let mut end = range.end;
                 loop {
-                    let (ev, sp) = next(parser, self.offsets)?;
+                    let (ev, sp) = self.next_in(parser, &range, '}')?;
                     if let Event::MappingEnd = ev {
                         if entries.is_empty() {
                             end = end.max(self.offsets.range(sp).end);
@@ -373,18 +394,22 @@ impl Builder<'_, '_> {
                             })
                         }
                     };
-                    let (ev, sp) = next(parser, self.offsets)?;
+                    let (ev, sp) = self.next_in(parser, &range, '}')?;
                     let value = self.node(parser, ev, sp, depth + 1)?;
-                    if let Some(first) = entries.iter().find(|e| e.key == key) {
-                        let line_hint = first.key_span.start;
+                    if let Some(&first) = seen.get(&key) {
+                        let (line, _) = crate::source::line_col(
+                            self.offsets.text,
+                            entries[first].key_span.start,
+                        );
                         return Err(YamlError {
                             message: format!(
-                                "key `{key}` appears twice in the same mapping (first at byte {line_hint}); \
+                                "key `{key}` appears twice in the same mapping (first at line {line}); \
                                  YAML keeps only one, so the other would be silently lost"
                             ),
                             span: key_node.span,
                         });
                     }
+                    seen.insert(key.clone(), entries.len());
                     end = end.max(value.span.end);
                     entries.push(Entry {
                         key,
@@ -407,6 +432,37 @@ impl Builder<'_, '_> {
                 span: range,
             }),
         }
+    }
+
+    /// The next event inside the collection that starts at `open`. When the
+    /// parser gives up on an unclosed flow collection (`[` or `{`), it
+    /// reports where it stopped (often the end of the file); the error is
+    /// moved to the opening bracket, where the fix belongs.
+    fn next_in<'i>(
+        &self,
+        parser: &mut Parser<'i, saphyr_parser::StrInput<'i>>,
+        open: &Range<usize>,
+        close: char,
+    ) -> Result<(Event<'i>, Span), YamlError> {
+        next(parser, self.offsets).map_err(|e| {
+            let text = self.offsets.text;
+            let opener = if close == ']' { '[' } else { '{' };
+            let flow_error =
+                e.message.contains("flow sequence") || e.message.contains("flow mapping");
+            let at_opener = text[open.start..].starts_with(opener);
+            if flow_error && at_opener && e.span.start >= open.start {
+                let (line, column) = crate::source::line_col(text, e.span.start);
+                YamlError {
+                    message: format!(
+                        "the YAML is malformed: this `{opener}` is never closed with `{close}` \
+                         (the parser stopped at line {line}, column {column})"
+                    ),
+                    span: open.start..open.start + 1,
+                }
+            } else {
+                e
+            }
+        })
     }
 
     /// For a flow collection (`[..]`, `{..}`), extend the span over the
@@ -575,6 +631,28 @@ mod tests {
         let e = p(t).unwrap_err();
         assert_eq!(&t[e.span.clone()], "a");
         assert_eq!(e.span.start, 5);
+    }
+
+    #[test]
+    fn tab_indentation_points_at_the_tab() {
+        let t = "a:\n  b: 1\n\tc: 2\n";
+        let e = p(t).unwrap_err();
+        assert!(e.message.contains("tab"), "{}", e.message);
+        assert_eq!(&t[e.span.clone()], "\t");
+    }
+
+    #[test]
+    fn unclosed_flow_list_points_at_its_bracket() {
+        let t = "a:\n  b: [1, 2\n";
+        let e = p(t).unwrap_err();
+        assert!(e.message.contains("never closed"), "{}", e.message);
+        assert_eq!(e.span.start, t.find('[').unwrap());
+    }
+
+    #[test]
+    fn duplicate_key_message_names_the_first_line() {
+        let e = p("a: 1\nb: 2\na: 3\n").unwrap_err();
+        assert!(e.message.contains("first at line 1"), "{}", e.message);
     }
 
     #[test]

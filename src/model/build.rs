@@ -4,7 +4,7 @@
 //! ranges and references, and collects every problem as an `invalid-input`
 //! finding at its span instead of stopping at the first.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 
 use super::*;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
@@ -22,6 +22,10 @@ struct Reader<'a> {
     file: FileId,
     root: &'a Node,
     errors: Vec<Finding>,
+    /// Names of materials, foils, layers and net classes that are defined
+    /// but failed to load. A reference to one of them is not reported
+    /// again: the definition already has its finding.
+    unusable: BTreeSet<String>,
 }
 
 impl<'a> Reader<'a> {
@@ -32,6 +36,7 @@ impl<'a> Reader<'a> {
             file,
             root,
             errors: Vec::new(),
+            unusable: BTreeSet::new(),
         })
     }
 
@@ -45,6 +50,13 @@ impl<'a> Reader<'a> {
         f.severity = Severity::Error;
         f.help = help;
         self.errors.push(f);
+    }
+
+    /// 1-based line of the node at `ptr`, for messages that name a
+    /// second place ("first at line 14").
+    fn line_of(&self, ptr: &str) -> usize {
+        let loc = self.db.locate(self.file, ptr);
+        crate::source::line_col(&self.db.get(self.file).text, loc.span.start).0
     }
 
     fn string(&self, ptr: &str) -> Option<String> {
@@ -141,9 +153,11 @@ impl<'a> Reader<'a> {
     fn fraction(&mut self, ptr: &str, what: &str) -> Option<f64> {
         let v = self.quantity(ptr, Dimension::Fraction, what)?;
         if !(0.0..=1.0).contains(&v) {
+            // Show the value as written ("150 %"), not only as a fraction.
+            let written = self.string(ptr).unwrap_or_else(|| format!("{v}"));
             self.error(
                 ptr,
-                format!("{what} must lie between 0 and 1 (0 % to 100 %), got {v}"),
+                format!("{what} must lie between 0 and 1 (0 % to 100 %), got {written}"),
                 "out of range",
                 Some("give a fraction such as 0.3 or a percentage such as \"30 %\"".into()),
             );
@@ -215,15 +229,24 @@ fn read_materials_and_foils(r: &mut Reader<'_>) -> LibraryData {
     if let Some(entries) = r.node("/materials").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/materials/{}", escape_token(&e.key));
-            if let Some(m) = read_material(r, &ptr, &e.key) {
-                out.materials.insert(e.key.clone(), m);
+            match read_material(r, &ptr, &e.key) {
+                Some(m) => {
+                    out.materials.insert(e.key.clone(), m);
+                }
+                None => {
+                    r.unusable.insert(e.key.clone());
+                }
             }
         }
     }
     if let Some(entries) = r.node("/foils").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/foils/{}", escape_token(&e.key));
-            if let Some(roughness) = read_roughness(r, &ptr, true) {
+            let roughness = read_roughness(r, &ptr, true);
+            if roughness.is_none() {
+                r.unusable.insert(e.key.clone());
+            }
+            if let Some(roughness) = roughness {
                 out.foils.insert(
                     e.key.clone(),
                     Foil {
@@ -261,7 +284,7 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
             if !(1.0..=200.0).contains(&dk) {
                 r.error(
                     &dkp,
-                    format!("Dk {dk} is not physical for a dielectric (it must be at least 1, the Dk of vacuum)"),
+                    format!("material `{name}` has Dk {dk}, which is not physical for a dielectric (it must be at least 1, the Dk of vacuum)"),
                     "Dk below 1",
                     Some("give the relative permittivity, e.g. 3.5".into()),
                 );
@@ -273,7 +296,7 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
                 r.error(
                     &dfp,
                     format!(
-                        "Df {df} is outside 0 to 1; board dielectrics lie between 0.0001 and 0.05"
+                        "material `{name}` has Df {df}, outside 0 to 1; board dielectrics lie between 0.0001 and 0.05"
                     ),
                     "not a loss tangent",
                     Some("give the loss tangent as a plain number, e.g. 0.002".into()),
@@ -503,10 +526,10 @@ fn read_layers(
         let ptr = format!("/layers/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
         if let Some(first) = seen.get(&name) {
-            let first = first.clone();
+            let first = r.line_of(first);
             r.error(
                 &format!("{ptr}/name"),
-                format!("layer name `{name}` is used twice (first at {first}); net classes could not tell them apart"),
+                format!("layer name `{name}` is used twice (first at line {first}); net classes could not tell them apart"),
                 "duplicate layer name",
                 Some("give every layer a unique name, e.g. L1..Ln for copper".into()),
             );
@@ -528,6 +551,7 @@ fn read_layers(
         }
     }
     if !ok {
+        r.unusable.extend(seen.into_keys());
         return Vec::new();
     }
     // Two copper layers must be separated by a dielectric.
@@ -609,6 +633,7 @@ fn read_face(
             }
             (Some(name), None) => match foils.get(name) {
                 Some(f) => Some(f.roughness),
+                None if r.unusable.contains(name) => return None,
                 None => {
                     let known: Vec<_> = foils.keys().map(String::as_str).collect();
                     r.error(
@@ -661,7 +686,9 @@ fn read_dielectric(
     let material_pointer = format!("{ptr}/material");
     let material = r.string(&material_pointer).unwrap_or_default();
     let mut ok = true;
-    if !materials.contains_key(&material) {
+    if !materials.contains_key(&material) && r.unusable.contains(&material) {
+        ok = false;
+    } else if !materials.contains_key(&material) {
         let known: Vec<_> = materials.keys().map(String::as_str).collect();
         r.error(
             &material_pointer,
@@ -750,6 +777,7 @@ fn layer_ref(r: &mut Reader<'_>, s: &Stackup, ptr: &str, want: &str) -> Option<u
             );
             None
         }
+        None if r.unusable.contains(&name) => None,
         None => {
             let copper: Vec<_> = s
                 .copper_indices()
@@ -778,15 +806,19 @@ fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass> {
         let ptr = format!("/net-classes/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
+            let first = r.line_of(&first);
             r.error(
                 &format!("{ptr}/name"),
-                format!("net class `{name}` is defined twice (first at {first})"),
+                format!("net class `{name}` is defined twice (first at line {first})"),
                 "duplicate net class",
                 None,
             );
         }
-        if let Some(nc) = read_net_class(r, s, &ptr, name) {
-            out.push(nc);
+        match read_net_class(r, s, &ptr, name.clone()) {
+            Some(nc) => out.push(nc),
+            None => {
+                r.unusable.insert(name);
+            }
         }
     }
     out
@@ -1055,6 +1087,10 @@ fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> {
                 let net_class = match r.string(&format!("{sp}/net-class")) {
                     Some(cn) => match s.net_classes.iter().position(|c| c.name == cn) {
                         Some(ci) => Some(ci),
+                        None if r.unusable.contains(&cn) => {
+                            ok = false;
+                            None
+                        }
                         None => {
                             r.error(
                                 &format!("{sp}/net-class"),
@@ -1169,7 +1205,8 @@ fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
                 || s.materials.contains_key(name)
                 || s.net_classes.iter().any(|c| &c.name == name)
                 || s.matched_groups.iter().any(|g| &g.name == name)
-                || s.foils.contains_key(name);
+                || s.foils.contains_key(name)
+                || r.unusable.contains(name);
             if !known {
                 r.error(
                     &format!("{p}/at"),

@@ -8,12 +8,17 @@
 
 mod board_thickness;
 mod broadside;
+mod copper_contact_dk;
+mod frequency_validity;
 mod mirror_symmetry;
+mod propagation_skew;
 mod reference_plane;
+mod roughness_drift;
 
 use std::cell::RefCell;
 use std::collections::BTreeSet;
 
+use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
 use crate::input::units::{self, Dimension};
 use crate::input::yaml::Value;
@@ -43,6 +48,8 @@ pub trait Rule: Sync {
 /// What a rule may read.
 pub struct RuleContext<'a> {
     pub stackup: &'a Stackup,
+    /// Electrical results per net class (same order as `stackup.net_classes`).
+    pub analysis: &'a Analysis,
     pub db: &'a SourceDb,
     rule: &'static str,
     option_errors: RefCell<Vec<Finding>>,
@@ -158,6 +165,10 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &broadside::BroadsideSignalLayers,
         &mirror_symmetry::StackupMirrorAsymmetry,
         &board_thickness::BoardThicknessOffTarget,
+        &copper_contact_dk::CopperContactDkMismatch,
+        &roughness_drift::RoughnessImpedanceDrift,
+        &propagation_skew::PropagationSkew,
+        &frequency_validity::FrequencyBeyondValidity,
     ]
 }
 
@@ -195,7 +206,7 @@ pub fn find_meta(name: &str) -> Option<&'static RuleMeta> {
 
 /// Run every enabled rule on one stackup; returns findings with configured
 /// severities, suppressed ones marked (not dropped).
-pub fn run(stackup: &Stackup, db: &SourceDb) -> Vec<Finding> {
+pub fn run(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding> {
     let mut out = Vec::new();
     let known: BTreeSet<&str> = all_meta().iter().map(|m| m.name).collect();
     // Settings that name unknown rules or options are input errors.
@@ -248,15 +259,12 @@ pub fn run(stackup: &Stackup, db: &SourceDb) -> Vec<Finding> {
     }
     for rule in registry() {
         let meta = rule.meta();
-        let level = stackup
-            .settings
-            .rules
-            .get(meta.name)
-            .and_then(|r| r.level)
-            .unwrap_or(Level::On(meta.default_severity));
+        let configured = stackup.settings.rules.get(meta.name).and_then(|r| r.level);
+        let level = configured.unwrap_or(Level::On(meta.default_severity));
         let Level::On(severity) = level else { continue };
         let cx = RuleContext {
             stackup,
+            analysis,
             db,
             rule: meta.name,
             option_errors: RefCell::new(Vec::new()),
@@ -265,7 +273,9 @@ pub fn run(stackup: &Stackup, db: &SourceDb) -> Vec<Finding> {
         out.extend(cx.option_errors.into_inner());
         for f in &mut found {
             f.rule = meta.name;
-            f.severity = severity;
+            if configured.is_some() || !f.severity_chosen {
+                f.severity = severity;
+            }
         }
         out.extend(found);
     }

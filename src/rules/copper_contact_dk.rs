@@ -1,0 +1,266 @@
+//! `copper-contact-dk-mismatch`: a dielectric's design Dk ignores what its
+//! faces touch — rough copper raises the Dk a line really sees; a ply bonded
+//! between laminates keeps its bulk Dk.
+
+use crate::analysis::section::FaceRoughness;
+use crate::analysis::{dielectric_contact, DielectricContact};
+use crate::finding::{Finding, Severity};
+use crate::input::units::{fmt_frequency, fmt_length};
+use crate::model::{DielectricKind, MeasurementMethod};
+use crate::rules::{Rule, RuleContext, RuleMeta};
+
+pub struct CopperContactDkMismatch;
+
+static META: RuleMeta = RuleMeta {
+    name: "copper-contact-dk-mismatch",
+    summary:
+        "a dielectric or net class uses a Dk that ignores the copper roughness its faces touch",
+    default_severity: Severity::Warning,
+    doc: include_str!("../../rules/copper-contact-dk-mismatch.md"),
+    options: &["margin", "assumed-dk-margin"],
+};
+
+fn range(lo: f64, hi: f64) -> String {
+    if (hi - lo).abs() < 0.005 {
+        format!("{hi:.2}")
+    } else {
+        format!("{lo:.2} to {hi:.2}")
+    }
+}
+
+impl Rule for CopperContactDkMismatch {
+    fn meta(&self) -> &'static RuleMeta {
+        &META
+    }
+
+    fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
+        let s = cx.stackup;
+        let a = cx.analysis;
+        let margin = cx.option_quantity("margin", crate::input::units::Dimension::Fraction, 0.05);
+        let class_margin = cx.option_quantity(
+            "assumed-dk-margin",
+            crate::input::units::Dimension::Fraction,
+            0.05,
+        );
+        let mut out = Vec::new();
+        let global_f = a
+            .classes
+            .iter()
+            .map(|c| c.frequency)
+            .fold(0.0_f64, f64::max);
+        for (k, layer) in s.layers.iter().enumerate() {
+            let Some(d) = s.dielectric(k) else { continue };
+            if d.kind == DielectricKind::SolderMask {
+                continue;
+            }
+            // Evaluate at the highest frequency of the lines that use this ply.
+            let users: Vec<usize> = a
+                .classes
+                .iter()
+                .enumerate()
+                .filter(|(_, c)| {
+                    c.geometry
+                        .as_ref()
+                        .is_ok_and(|g| g.slabs.iter().any(|sl| sl.layer == k))
+                })
+                .map(|(i, _)| i)
+                .collect();
+            let f = users
+                .iter()
+                .map(|&i| a.classes[i].frequency)
+                .fold(0.0_f64, f64::max);
+            let f = if f > 0.0 {
+                f
+            } else if global_f > 0.0 {
+                global_f
+            } else {
+                s.materials
+                    .get(&d.material)
+                    .map_or(1e9, |m| m.points[0].frequency)
+            };
+            let Some(c) = dielectric_contact(s, a, k, f) else {
+                continue;
+            };
+            let material = &s.materials[&d.material];
+            let apparent_data = material.method == MeasurementMethod::TransmissionLine;
+            let assigned = d.design_dk.unwrap_or(c.bulk.dk);
+            let rough_faces: Vec<&(usize, Option<String>, FaceRoughness)> = c
+                .faces
+                .iter()
+                .filter(|(_, _, r)| match r {
+                    FaceRoughness::Known(sf) => sf.rq().is_ok_and(|rq| rq > 0.0),
+                    FaceRoughness::Unknown => true,
+                    FaceRoughness::NotDeclared => false,
+                })
+                .collect();
+            let primary = match d.design_dk {
+                Some(_) => cx.at(&format!("{}/dielectric/design-dk", layer.pointer)),
+                None => cx.at(&d.material_pointer),
+            };
+            // Only plies that carry a controlled line's field matter here.
+            if !users.is_empty()
+                && !rough_faces.is_empty()
+                && !(apparent_data && d.design_dk.is_none())
+                && c.apparent_worst - assigned > margin
+            {
+                out.push(rough_finding(
+                    cx,
+                    k,
+                    &c,
+                    assigned,
+                    d.design_dk.is_some(),
+                    primary,
+                    &users,
+                    margin,
+                ));
+            } else if c.faces.is_empty()
+                && (apparent_data || d.design_dk.is_some_and(|dk| dk - c.bulk.dk > margin))
+            {
+                let what = if apparent_data && d.design_dk.is_none() {
+                    format!("material `{}` gives an apparent Dk {:.2} measured on transmission lines (it includes their copper roughness)", d.material, c.bulk.dk)
+                } else {
+                    format!(
+                        "it is given design Dk {assigned:.2}, above its bulk Dk {:.2}",
+                        c.bulk.dk
+                    )
+                };
+                let mut f = Finding::new(
+                    META.name,
+                    primary,
+                    format!(
+                        "{} `{}` is bonded between two dielectrics with no copper on either face, so it keeps its bulk Dk, but {what}",
+                        d.kind.as_str(),
+                        layer.name
+                    ),
+                )
+                .label("roughness-raised Dk on a ply with no copper contact")
+                .with_help(format!(
+                    "model this ply with its bulk (resonator) Dk {:.2}; a roughness-raised Dk applies only to plies that touch copper",
+                    c.bulk.dk
+                ))
+                .key(format!("{:.2}", c.bulk.dk));
+                f = f.secondary(cx.at_in(material.file, &material.pointer), "material data");
+                out.push(f);
+            }
+        }
+        // Net classes whose assumed Dk differs from their line's apparent Dk.
+        for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+            let (Some(assumed), Some((lo, hi))) = (nc.assumed_dk, ca.apparent_dk()) else {
+                continue;
+            };
+            if assumed < lo - class_margin || assumed > hi + class_margin {
+                let dz = ca
+                    .smooth
+                    .as_ref()
+                    .ok()
+                    .zip(ca.rough_worst)
+                    .map(|(sm, r)| format!("; with it the line reads {:.1} Ω where the smooth-copper bulk-Dk model gives {:.1} Ω", r.z, sm.z))
+                    .unwrap_or_default();
+                out.push(
+                    Finding::new(
+                        META.name,
+                        cx.at(&format!("{}/assumed-dk", nc.pointer)),
+                        format!(
+                            "net class `{}` was sized for Dk {assumed:.2}, but its line's apparent Dk at {} is {} (bulk {:.2} plus copper roughness){dz}",
+                            nc.name,
+                            fmt_frequency(ca.frequency),
+                            range(lo, hi),
+                            ca.bulk_dk().unwrap_or(f64::NAN)
+                        ),
+                    )
+                    .label("assumed Dk")
+                    .with_help(format!(
+                        "resize the line for Dk {}{}",
+                        range(lo, hi),
+                        ca.width_for_target.map(|w| format!(" (base width {} meets the target with the declared roughness)", fmt_length(w))).unwrap_or_default()
+                    ))
+                    .key(format!("{assumed:.2}/{lo:.2}/{hi:.2}")),
+                );
+            }
+        }
+        out
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn rough_finding(
+    cx: &RuleContext<'_>,
+    k: usize,
+    c: &DielectricContact,
+    assigned: f64,
+    design: bool,
+    primary: crate::source::Location,
+    users: &[usize],
+    margin: f64,
+) -> Finding {
+    let s = cx.stackup;
+    let a = cx.analysis;
+    let d = s.dielectric(k).expect("dielectric layer");
+    let layer = &s.layers[k];
+    let faces: Vec<String> = c
+        .faces
+        .iter()
+        .map(|(j, _, r)| {
+            let what = match r {
+                FaceRoughness::Known(sf) => format!(
+                    "{} copper",
+                    sf.rz()
+                        .map_or("?".into(), |rz| format!("Rz {}", fmt_length(rz)))
+                ),
+                FaceRoughness::Unknown => "bond-treated copper of unknown roughness".to_string(),
+                FaceRoughness::NotDeclared => "copper with no roughness data".to_string(),
+            };
+            format!("`{}` ({what})", s.layers[*j].name)
+        })
+        .collect();
+    let unknown = c.faces.iter().any(|(_, _, r)| *r == FaceRoughness::Unknown);
+    // The impedance error on the line most affected.
+    let worst_line = users
+        .iter()
+        .filter_map(|&i| {
+            let ca = &a.classes[i];
+            let sm = ca.smooth.as_ref().ok()?;
+            let r = ca.rough_worst?;
+            Some((i, sm.z, r.z))
+        })
+        .max_by(|x, y| (x.1 - x.2).abs().total_cmp(&(y.1 - y.2).abs()));
+    let z_text = worst_line
+        .map(|(i, zs, zr)| {
+            format!(
+                "; net class `{}` reads {zr:.1} Ω instead of the {zs:.1} Ω its bulk Dk gives ({:+.1} Ω)",
+                s.net_classes[i].name,
+                zr - zs
+            )
+        })
+        .unwrap_or_default();
+    let given = if design { "design Dk" } else { "bulk Dk" };
+    let mut f = Finding::new(
+        META.name,
+        primary,
+        format!(
+            "{} `{}` ({}) touches {} but is modelled with its {given} {assigned:.2}; its apparent Dk at {} is {}{z_text}",
+            d.kind.as_str(),
+            layer.name,
+            fmt_length(d.thickness),
+            faces.join(" and "),
+            fmt_frequency(c.frequency),
+            range(c.apparent_best, c.apparent_worst),
+        ),
+    )
+    .label(format!("{given} {assigned:.2}"))
+    .with_help(if unknown {
+        format!(
+            "model this ply with Dk {} and ask the fabricator for the Rz/Rq of its bond-enhancement treatment to close the range (the unknown face is carried as best/worst case); tolerance margin {margin:.2}",
+            range(c.apparent_best, c.apparent_worst)
+        )
+    } else {
+        format!("model this ply with `design-dk: {:.2}` (its apparent Dk at this frequency), or specify smoother foil", c.apparent_worst)
+    })
+    .key(format!("{:.2}/{:.2}", c.apparent_best, c.apparent_worst));
+    for (_, ptr, _) in &c.faces {
+        if let Some(p) = ptr {
+            f = f.secondary(cx.at(p), "copper face touching this ply");
+        }
+    }
+    f
+}

@@ -1,0 +1,196 @@
+//! `propagation-skew`: mode-velocity skew of pairs in inhomogeneous
+//! striplines, and arrival-time spread of matched groups routed on layers of
+//! different effective Dk.
+
+use crate::finding::{Finding, Severity};
+use crate::input::units::{fmt_length, Dimension};
+use crate::rules::{Rule, RuleContext, RuleMeta};
+
+pub struct PropagationSkew;
+
+static META: RuleMeta = RuleMeta {
+    name: "propagation-skew",
+    summary: "mode skew of a stripline pair in unequal dielectrics, or a matched group whose delays spread beyond its skew budget",
+    default_severity: Severity::Warning,
+    doc: include_str!("../../rules/propagation-skew.md"),
+    options: &["max-mode-skew", "coupled-length"],
+};
+
+impl Rule for PropagationSkew {
+    fn meta(&self) -> &'static RuleMeta {
+        &META
+    }
+
+    fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
+        let s = cx.stackup;
+        let a = cx.analysis;
+        // Budget per millimetre of coupled length (common practice, no source).
+        let max_skew = cx.option_quantity("max-mode-skew", Dimension::Time, 0.01e-12);
+        let coupled = cx.option_quantity("coupled-length", Dimension::Length, 0.1);
+        let mut out = Vec::new();
+        // (a) Even/odd mode velocities of stripline pairs.
+        for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+            if !nc.structure.is_stripline() || !nc.structure.is_differential() {
+                continue;
+            }
+            let Some(n) = ca.rough_worst.or(ca.smooth.as_ref().ok().copied()) else {
+                continue;
+            };
+            let (Some(ee), Some(eo)) = (n.eps_eff_even, n.eps_eff_odd) else {
+                continue;
+            };
+            let c0 = stackup_physics::consts::C0;
+            let skew_per_m = (ee.sqrt() - eo.sqrt()) / c0; // s/m, even minus odd
+            let per_mm = skew_per_m * 1e-3;
+            if per_mm.abs() <= max_skew {
+                continue;
+            }
+            // Far-end crosstalk of the even/odd superposition for a step of
+            // rise time t_r >> skew: about -(1/2)(t_e - t_o)/t_r (Hall, Hall &
+            // McCall 2000, from memory), with t_r from the knee frequency
+            // f = 0.35/t_r (common practice).
+            let t_r = 0.35 / ca.frequency.max(1.0);
+            let skew_len = skew_per_m * coupled;
+            let fext = -0.5 * skew_len / t_r;
+            let dielectrics: Vec<String> = ca
+                .geometry
+                .as_ref()
+                .map(|g| {
+                    g.slabs
+                        .iter()
+                        .filter_map(|sl| {
+                            s.dielectric(sl.layer).map(|d| {
+                                format!(
+                                    "{} `{}` Dk {:.2}",
+                                    d.kind.as_str(),
+                                    s.layers[sl.layer].name,
+                                    sl.eps
+                                )
+                            })
+                        })
+                        .collect()
+                })
+                .unwrap_or_default();
+            out.push(
+                Finding::new(
+                    META.name,
+                    cx.at(&format!("{}/layer", nc.pointer)),
+                    format!(
+                        "pair `{}` is a stripline in unequal dielectrics ({}): even-mode eps_eff {ee:.3} vs odd-mode {eo:.3}, a mode skew of {:.3} ps/mm ({:.2} ps over {}); far-end crosstalk about {:.1} % of the step for {} coupled at a {:.1} ps rise time",
+                        nc.name,
+                        dielectrics.join(", "),
+                        per_mm * 1e12,
+                        skew_len * 1e12,
+                        fmt_length(coupled),
+                        fext * 100.0,
+                        fmt_length(coupled),
+                        t_r * 1e12
+                    ),
+                )
+                .label("inhomogeneous stripline")
+                .with_help("use prepreg and core of matching Dk on both sides of the pair (or a spread-glass, resin-matched build), centre the trace in the lower-Dk ply less, or keep coupled parallel runs short")
+                .key(format!("{:.3}", per_mm * 1e12)),
+            );
+        }
+        // (b) Matched groups: delay per net from its segments.
+        for g in &s.matched_groups {
+            let mut delays: Vec<(usize, f64)> = Vec::new();
+            let mut missing = Vec::new();
+            for (ni, net) in g.nets.iter().enumerate() {
+                let mut t = 0.0;
+                for seg in &net.segments {
+                    let class = seg.net_class.or_else(|| {
+                        s.net_classes
+                            .iter()
+                            .position(|c| c.layer_index == seg.layer_index)
+                    });
+                    let per_m = class.and_then(|ci| {
+                        let ca = &a.classes[ci];
+                        ca.rough_worst
+                            .or(ca.smooth.as_ref().ok().copied())
+                            .map(|n| n.delay)
+                    });
+                    match per_m {
+                        Some(d) => t += d * seg.length,
+                        None => missing.push(seg.pointer.clone()),
+                    }
+                }
+                delays.push((ni, t));
+            }
+            if !missing.is_empty() {
+                for p in missing {
+                    out.push(
+                        Finding::new(META.name, cx.at(&format!("{p}/layer")), format!(
+                            "matched group `{}`: no solved net class on this segment's layer, so its delay is unknown",
+                            g.name
+                        ))
+                        .with_severity(Severity::Note)
+                        .label("no net class on this layer")
+                        .with_help("add `net-class:` to the segment, or define a net class on that layer"),
+                    );
+                }
+                continue;
+            }
+            let Some(&(slow, t_slow)) = delays.iter().max_by(|x, y| x.1.total_cmp(&y.1)) else {
+                continue;
+            };
+            let Some(&(fast, t_fast)) = delays.iter().min_by(|x, y| x.1.total_cmp(&y.1)) else {
+                continue;
+            };
+            let spread = t_slow - t_fast;
+            if spread <= g.skew_budget {
+                continue;
+            }
+            let slow_net = &g.nets[slow];
+            let fast_net = &g.nets[fast];
+            // Length change on the slow net's longest segment's layer.
+            let seg = slow_net
+                .segments
+                .iter()
+                .max_by(|x, y| x.length.total_cmp(&y.length));
+            let fix = seg.and_then(|seg| {
+                let ci = seg.net_class.or_else(|| {
+                    s.net_classes
+                        .iter()
+                        .position(|c| c.layer_index == seg.layer_index)
+                })?;
+                let d = a.classes[ci]
+                    .rough_worst
+                    .or(a.classes[ci].smooth.as_ref().ok().copied())?
+                    .delay;
+                Some(format!(
+                    "shorten `{}` on `{}` by {} (or lengthen `{}` by the same delay)",
+                    slow_net.name,
+                    s.layers[seg.layer_index].name,
+                    fmt_length(spread / d),
+                    fast_net.name
+                ))
+            });
+            let len = |n: &crate::model::Net| n.segments.iter().map(|x| x.length).sum::<f64>();
+            out.push(
+                Finding::new(
+                    META.name,
+                    cx.at(&format!("{}/skew-budget", g.pointer)),
+                    format!(
+                        "matched group `{}` spreads {:.1} ps against a {:.1} ps budget: `{}` arrives after {:.1} ps over {} routed, `{}` after {:.1} ps over {} (length-equal is not time-equal across layers)",
+                        g.name,
+                        spread * 1e12,
+                        g.skew_budget * 1e12,
+                        slow_net.name,
+                        t_slow * 1e12,
+                        fmt_length(len(slow_net)),
+                        fast_net.name,
+                        t_fast * 1e12,
+                        fmt_length(len(fast_net)),
+                    ),
+                )
+                .label("skew budget")
+                .secondary(cx.at(&format!("{}/name", slow_net.pointer)), "slowest net")
+                .secondary(cx.at(&format!("{}/name", fast_net.pointer)), "fastest net")
+                .with_help(fix.unwrap_or_else(|| "equalise the delays, not the lengths".into()))
+                .key(format!("{:.1}", spread * 1e12)),
+            );
+        }
+        out
+    }
+}
