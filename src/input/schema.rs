@@ -504,6 +504,24 @@ fn allowed_keys(schema_path: &str) -> Option<String> {
 mod tests {
     use super::*;
     #[test]
+    fn edit_distance_and_suggestions() {
+        // kitten -> sitting needs three edits: the usual textbook example
+        // of Levenshtein distance (from memory).
+        assert_eq!(edit_distance("kitten", "sitting"), 3);
+        assert_eq!(edit_distance("", "abc"), 3);
+        assert_eq!(
+            suggest("thicknes", &["kind", "thickness", "material"]),
+            Some("thickness")
+        );
+        assert_eq!(
+            suggest("platted", &["role", "plated", "fill"]),
+            Some("plated")
+        );
+        // Too far from anything: no guess.
+        assert_eq!(suggest("colour", &["role", "plated", "fill"]), None);
+    }
+
+    #[test]
     fn bundled_schemas_compile() {
         let _ = validator(FileKind::Stackup);
         let _ = validator(FileKind::Library);
