@@ -220,5 +220,118 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis) -> String {
         }
     }
     out.push_str(&format!("  model: {}\n", crate::analysis::FIELD_SOLVER));
+    out.push_str(&dielectric_table(s, a));
+    out
+}
+
+/// Per dielectric: bulk Dk and the apparent Dk its copper contact gives, at
+/// the highest analysis frequency of the lines whose section includes it.
+fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
+    use crate::analysis::section::FaceRoughness;
+    let f_all = a
+        .classes
+        .iter()
+        .map(|c| c.frequency)
+        .fold(0.0_f64, f64::max);
+    let mut rows: Vec<[String; 7]> = Vec::new();
+    for (k, layer) in s.layers.iter().enumerate() {
+        let Some(d) = s.dielectric(k) else { continue };
+        if d.kind == crate::model::DielectricKind::SolderMask {
+            continue;
+        }
+        let f = a
+            .classes
+            .iter()
+            .filter(|c| {
+                c.geometry
+                    .as_ref()
+                    .is_ok_and(|g| g.slabs.iter().any(|sl| sl.layer == k))
+            })
+            .map(|c| c.frequency)
+            .fold(0.0_f64, f64::max);
+        let f = if f > 0.0 {
+            f
+        } else if f_all > 0.0 {
+            f_all
+        } else {
+            1e9
+        };
+        let Some(c) = crate::analysis::dielectric_contact(s, a, k, f) else {
+            continue;
+        };
+        let faces: Vec<String> = c
+            .faces
+            .iter()
+            .map(|(j, _, r)| {
+                let what = match r {
+                    FaceRoughness::Known(sf) => sf
+                        .rq()
+                        .map_or("?".into(), |rq| format!("Rq {:.2} um", rq * 1e6)),
+                    FaceRoughness::Unknown => "unknown".into(),
+                    FaceRoughness::NotDeclared => "no data".into(),
+                };
+                format!("{} {what}", s.layers[*j].name)
+            })
+            .collect();
+        let app = if (c.apparent_worst - c.apparent_best).abs() < 0.005 {
+            format!("{:.2}", c.apparent_worst)
+        } else {
+            format!("{:.2}..{:.2}", c.apparent_best, c.apparent_worst)
+        };
+        rows.push([
+            layer.name.clone(),
+            d.kind.as_str().to_string(),
+            format!("{:.1}", d.thickness * 1e6),
+            format!("{:.3}", f / 1e9)
+                .trim_end_matches('0')
+                .trim_end_matches('.')
+                .to_string(),
+            format!("{:.2}", c.bulk.dk),
+            app,
+            if faces.is_empty() {
+                "none (bonded to dielectric)".into()
+            } else {
+                faces.join(", ")
+            },
+        ]);
+    }
+    if rows.is_empty() {
+        return String::new();
+    }
+    let header = [
+        "dielectric",
+        "kind",
+        "h um",
+        "f GHz",
+        "bulk Dk",
+        "apparent Dk",
+        "copper faces",
+    ];
+    let mut widths = header.map(str::len);
+    for r in &rows {
+        for (k, c) in r.iter().enumerate() {
+            widths[k] = widths[k].max(c.chars().count());
+        }
+    }
+    let line = |cells: &[&str]| -> String {
+        let mut l = String::from(" ");
+        for (k, c) in cells.iter().enumerate() {
+            l.push(' ');
+            l.push_str(c);
+            l.push_str(&" ".repeat(widths[k] - c.chars().count()));
+            l.push(' ');
+        }
+        l.trim_end().to_string() + "\n"
+    };
+    let mut out = String::from("\n");
+    out.push_str(&line(&header));
+    let dashes: Vec<String> = widths.iter().map(|&w| "-".repeat(w)).collect();
+    out.push_str(&line(
+        &dashes.iter().map(String::as_str).collect::<Vec<_>>(),
+    ));
+    for r in &rows {
+        out.push_str(&line(&r.iter().map(String::as_str).collect::<Vec<_>>()));
+    }
+    out.push_str("  apparent Dk: effective-roughness-layer model, parallel-plate form; a range where a face's roughness is unknown\n");
     out
 }

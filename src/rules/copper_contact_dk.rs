@@ -98,9 +98,13 @@ impl Rule for CopperContactDkMismatch {
                 None => cx.at(&d.material_pointer),
             };
             // Only plies that carry a controlled line's field matter here.
-            if !users.is_empty()
-                && !rough_faces.is_empty()
-                && !(apparent_data && d.design_dk.is_none())
+            // Transmission-line data already include their copper's roughness.
+            let already_apparent = apparent_data && d.design_dk.is_none();
+            let carries_lines = !users.is_empty();
+            let touches_rough = !rough_faces.is_empty();
+            if carries_lines
+                && touches_rough
+                && !already_apparent
                 && c.apparent_worst - assigned > margin
             {
                 out.push(rough_finding(
