@@ -128,6 +128,23 @@ fn read_file(
             return None;
         }
     }
+    ingest(loaded, file, limits, kind)
+}
+
+/// The built-in library of generic material classes (typical values, not
+/// vendor data), referenced as `libraries: [builtin:generic]`.
+pub const BUILTIN_GENERIC: &str = include_str!("../materials/generic.materials.yaml");
+
+/// Name by which stackups reference the built-in library.
+pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
+
+/// Parse and schema-check a file whose text is already read.
+fn ingest(
+    loaded: &mut Loaded,
+    mut file: SourceFile,
+    limits: &InputLimits,
+    kind: FileKind,
+) -> Option<FileId> {
     let parsed = yaml::parse(&file.text, limits.yaml);
     let id = match parsed {
         Ok(tree) => {
@@ -185,6 +202,30 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
             })
             .unwrap_or_default();
         for (i, rel) in lib_entries {
+            if rel == BUILTIN_GENERIC_NAME {
+                let key = PathBuf::from(BUILTIN_GENERIC_NAME);
+                if !libraries.contains_key(&key) {
+                    let file = SourceFile {
+                        path: key.clone(),
+                        display: BUILTIN_GENERIC_NAME.to_string(),
+                        text: BUILTIN_GENERIC.to_string(),
+                        tree: None,
+                    };
+                    let data =
+                        ingest(&mut loaded, file, limits, FileKind::Library).and_then(|lid| {
+                            let (data, errors) = model::load_library(&loaded.db, lid);
+                            let ok = errors.is_empty();
+                            loaded.problems.extend(errors);
+                            ok.then_some(data)
+                        });
+                    libraries.insert(key.clone(), data);
+                }
+                match libraries.get(&key).cloned().flatten() {
+                    Some(d) => libs.push(d),
+                    None => libs_ok = false,
+                }
+                continue;
+            }
             let lib_path = path.parent().unwrap_or(Path::new(".")).join(&rel);
             let key = std::fs::canonicalize(&lib_path).unwrap_or(lib_path.clone());
             if !lib_path.is_file() {

@@ -221,6 +221,7 @@ fn fmt_time(v: f64) -> String {
 pub struct LibraryData {
     pub materials: BTreeMap<String, Material>,
     pub foils: BTreeMap<String, Foil>,
+    pub resin_systems: BTreeMap<String, ResinSystem>,
 }
 
 /// Read the `materials:` and `foils:` of a schema-valid library or stackup file.
@@ -229,6 +230,17 @@ fn read_materials_and_foils(r: &mut Reader<'_>) -> LibraryData {
     if let Some(entries) = r.node("/materials").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/materials/{}", escape_token(&e.key));
+            if r.node(&format!("{ptr}/resin-dk")).is_some() {
+                match read_resin_system(r, &ptr, &e.key) {
+                    Some(rs) => {
+                        out.resin_systems.insert(e.key.clone(), rs);
+                    }
+                    None => {
+                        r.unusable.insert(e.key.clone());
+                    }
+                }
+                continue;
+            }
             match read_material(r, &ptr, &e.key) {
                 Some(m) => {
                     out.materials.insert(e.key.clone(), m);
@@ -417,7 +429,175 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
         valid_to,
         method,
         dk_tolerance,
+        estimate: None,
     })
+}
+
+fn read_resin_system(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<ResinSystem> {
+    if r.node(&format!("{ptr}/dk")).is_some() || r.node(&format!("{ptr}/points")).is_some() {
+        r.error(
+            ptr,
+            format!("material `{name}` gives both a measured Dk and `resin-dk`; a measured Dk makes the resin estimate pointless"),
+            "two sources of Dk",
+            Some("keep `dk` (measured) or `resin-dk` (estimate from resin content), not both".into()),
+        );
+        return None;
+    }
+    let num =
+        |r: &mut Reader<'_>, key: &str, default: Option<f64>, lo: f64, hi: f64| -> Option<f64> {
+            let p = format!("{ptr}/{key}");
+            let v = if r.node(&p).is_some() {
+                r.number(&p, key)?
+            } else {
+                default?
+            };
+            if !(lo..=hi).contains(&v) {
+                r.error(
+                    &p,
+                    format!("`{key}` of material `{name}` is {v}, outside {lo} to {hi}"),
+                    "not physical",
+                    None,
+                );
+                return None;
+            }
+            Some(v)
+        };
+    let resin_dk = num(r, "resin-dk", None, 1.0, 20.0);
+    let resin_df = num(r, "resin-df", Some(0.0), 0.0, 0.999);
+    // E-glass: Dk about 6.3, Df about 0.0015 (from memory; see stackup_physics::fab).
+    let glass_dk = num(
+        r,
+        "glass-dk",
+        Some(stackup_physics::fab::E_GLASS_DK),
+        1.0,
+        20.0,
+    );
+    let glass_df = num(r, "glass-df", Some(0.0015), 0.0, 0.999);
+    let fp = format!("{ptr}/frequency");
+    if r.node(&fp).is_none() {
+        r.error(
+            ptr,
+            format!("resin system `{name}` needs the `frequency` its resin and glass Dk apply at"),
+            "frequency missing",
+            Some("add e.g. `frequency: 1 GHz`".into()),
+        );
+        return None;
+    }
+    let frequency = r.bounded(&fp, Dimension::Frequency, "frequency", 0.0, 1e13, fmt_freq)?;
+    let range = |r: &mut Reader<'_>, key: &str| {
+        let p = format!("{ptr}/{key}");
+        r.node(&p)?;
+        r.bounded(&p, Dimension::Frequency, key, 0.0, 1e13, fmt_freq)
+    };
+    let valid_from = range(r, "valid-from");
+    let valid_to = range(r, "valid-to");
+    Some(ResinSystem {
+        name: name.to_string(),
+        file: r.file,
+        pointer: ptr.to_string(),
+        class: r.string(&format!("{ptr}/class")),
+        resin_dk: resin_dk?,
+        resin_df: resin_df?,
+        glass_dk: glass_dk?,
+        glass_df: glass_df?,
+        frequency,
+        valid_from,
+        valid_to,
+    })
+}
+
+/// Resin content of the ply at `ptr` (a dielectric node): given, or the
+/// typical content of its glass style (`stackup_physics::fab::GLASS_STYLES`,
+/// common practice).
+fn ply_resin_content(r: &Reader<'_>, ptr: &str) -> Option<(f64, &'static str)> {
+    let given = match r.node(&format!("{ptr}/resin-content")).map(|n| &n.value) {
+        Some(Value::Number(v)) => Some(*v),
+        Some(Value::String(t)) => units::parse_quantity(t, Dimension::Fraction).ok(),
+        _ => None,
+    };
+    if let Some(v) = given.filter(|v| (0.0..=1.0).contains(v)) {
+        return Some((v, "given resin content"));
+    }
+    let style = r.string(&format!("{ptr}/glass-style"))?;
+    stackup_physics::fab::glass_style(&style)
+        .map(|g| (g.resin_content, "typical resin content of its glass style"))
+}
+
+/// Key of the estimated material of a resin-system ply.
+fn resin_key(system: &str, content: f64) -> String {
+    format!("{system} at {:.0} % resin", content * 100.0)
+}
+
+/// For every ply made of a resin system, add an estimated material:
+/// Dk by the Lichtenecker rule (`stackup_physics::fab::glass_ply_dk`), Df by
+/// the same rule applied to the loss angle (ln ε* = Σ vᵢ ln εᵢ*, so the loss
+/// angles mix linearly by volume).
+fn estimate_resin_plies(
+    r: &mut Reader<'_>,
+    systems: &BTreeMap<String, ResinSystem>,
+    materials: &mut BTreeMap<String, Material>,
+) {
+    use stackup_physics::fab::{
+        glass_ply_dk, resin_volume_fraction, EPOXY_RESIN_DENSITY, E_GLASS_DENSITY,
+    };
+    let n = r
+        .node("/layers")
+        .and_then(Node::as_seq)
+        .map_or(0, <[Node]>::len);
+    for i in 0..n {
+        let ptr = format!("/layers/{i}/dielectric");
+        let Some(name) = r.string(&format!("{ptr}/material")) else {
+            continue;
+        };
+        if materials.contains_key(&name) {
+            continue;
+        }
+        let Some(sys) = systems.get(&name) else {
+            continue;
+        };
+        let Some((w, how)) = ply_resin_content(r, &ptr) else {
+            r.error(
+                &format!("{ptr}/material"),
+                format!("ply uses resin system `{name}`, whose Dk is estimated from resin content, but gives no `resin-content` and no known `glass-style`"),
+                "resin content needed",
+                Some("add e.g. `resin-content: 68 %` from the prepreg data, or `glass-style: 1080`".into()),
+            );
+            r.unusable.insert(name.clone());
+            continue;
+        };
+        let v = resin_volume_fraction(w, EPOXY_RESIN_DENSITY, E_GLASS_DENSITY);
+        let dk = glass_ply_dk(
+            w,
+            sys.resin_dk,
+            sys.glass_dk,
+            EPOXY_RESIN_DENSITY,
+            E_GLASS_DENSITY,
+        );
+        let (Ok(v), Ok(dk)) = (v, dk) else { continue };
+        let angle = v * sys.resin_df.atan() + (1.0 - v) * sys.glass_df.atan();
+        let key = resin_key(&name, w);
+        materials.entry(key.clone()).or_insert_with(|| Material {
+            name: key.clone(),
+            file: sys.file,
+            pointer: sys.pointer.clone(),
+            class: sys.class.clone(),
+            points: vec![DkPoint {
+                frequency: sys.frequency,
+                dk,
+                df: angle.tan(),
+            }],
+            valid_from: sys.valid_from,
+            valid_to: sys.valid_to,
+            method: MeasurementMethod::Unknown,
+            dk_tolerance: None,
+            estimate: Some(format!(
+                "estimate: Lichtenecker mix of resin Dk {:.2} and glass Dk {:.2} at {:.0} % resin by weight ({how})",
+                sys.resin_dk,
+                sys.glass_dk,
+                w * 100.0
+            )),
+        });
+    }
 }
 
 /// Read rz/rq at `ptr`; when `required`, at least one must be given.
@@ -481,12 +661,21 @@ pub fn build_stackup(
     let own = read_materials_and_foils(&mut r);
     let mut materials = BTreeMap::new();
     let mut foils = BTreeMap::new();
+    let mut systems = BTreeMap::new();
     for lib in libraries {
         materials.extend(lib.materials.clone());
         foils.extend(lib.foils.clone());
+        systems.extend(lib.resin_systems.clone());
+    }
+    // The file's own entries win over library entries of the same name.
+    for name in own.materials.keys().chain(own.resin_systems.keys()) {
+        materials.remove(name);
+        systems.remove(name);
     }
     materials.extend(own.materials);
     foils.extend(own.foils);
+    systems.extend(own.resin_systems);
+    estimate_resin_plies(&mut r, &systems, &mut materials);
 
     let mut layers = read_layers(&mut r, &materials, &foils);
     press_prepregs(&mut r, &mut layers);
@@ -684,7 +873,15 @@ fn read_dielectric(
         _ => DielectricKind::Prepreg,
     };
     let material_pointer = format!("{ptr}/material");
-    let material = r.string(&material_pointer).unwrap_or_default();
+    let mut material = r.string(&material_pointer).unwrap_or_default();
+    if !materials.contains_key(&material) {
+        if let Some((w, _)) = ply_resin_content(r, ptr) {
+            let key = resin_key(&material, w);
+            if materials.contains_key(&key) {
+                material = key;
+            }
+        }
+    }
     let mut ok = true;
     if !materials.contains_key(&material) && r.unusable.contains(&material) {
         ok = false;

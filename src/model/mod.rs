@@ -182,6 +182,26 @@ pub struct Material {
     pub valid_to: Option<f64>,
     pub method: MeasurementMethod,
     pub dk_tolerance: Option<f64>,
+    /// Set when the Dk is an estimate from resin content (see
+    /// [`ResinSystem`]), with a sentence saying how it was made.
+    pub estimate: Option<String>,
+}
+
+/// A resin system: plies made of it get a Dk estimated from their resin
+/// content by the Lichtenecker mixing rule (an estimate, labelled so).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ResinSystem {
+    pub name: String,
+    pub file: FileId,
+    pub pointer: String,
+    pub class: Option<String>,
+    pub resin_dk: f64,
+    pub resin_df: f64,
+    pub glass_dk: f64,
+    pub glass_df: f64,
+    pub frequency: f64,
+    pub valid_from: Option<f64>,
+    pub valid_to: Option<f64>,
 }
 
 impl Material {

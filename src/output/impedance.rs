@@ -286,7 +286,14 @@ fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
                 .trim_end_matches('0')
                 .trim_end_matches('.')
                 .to_string(),
-            format!("{:.2}", c.bulk.dk),
+            match s
+                .materials
+                .get(&d.material)
+                .and_then(|m| m.estimate.as_ref())
+            {
+                Some(_) => format!("{:.2} (estimate)", c.bulk.dk),
+                None => format!("{:.2}", c.bulk.dk),
+            },
             app,
             if faces.is_empty() {
                 "none (bonded to dielectric)".into()

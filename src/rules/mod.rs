@@ -353,7 +353,9 @@ fn apply_suppressions(stackup: &Stackup, db: &SourceDb, findings: &mut Vec<Findi
                 }
             }
         }
-        if !used && s.rule != INVALID_INPUT {
+        // An unknown rule name is already an input error; don't repeat it.
+        let known = find_meta(&s.rule).is_some();
+        if !used && known && s.rule != INVALID_INPUT {
             let mut f = Finding::new(
                 UNUSED_SUPPRESSION,
                 db.locate(stackup.file, &s.pointer),
