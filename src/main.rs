@@ -109,13 +109,39 @@ enum Command {
         /// Output format
         #[arg(long, value_enum, default_value = "human")]
         format: Format,
+        /// Also give the total loss over this routed length, e.g. "150 mm"
+        #[arg(long, value_name = "LENGTH")]
+        length: Option<String>,
     },
 }
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match cli.command {
-        Command::Impedance { paths, format } => impedance(paths, format),
+        Command::Impedance {
+            paths,
+            format,
+            length,
+        } => {
+            let length = match length.as_deref().map(|l| {
+                stackup_lint::input::units::parse_quantity(
+                    l,
+                    stackup_lint::input::units::Dimension::Length,
+                )
+            }) {
+                None => None,
+                Some(Ok(v)) if v > 0.0 => Some(v),
+                Some(Ok(_)) => {
+                    eprintln!("error: --length must be positive");
+                    return ExitCode::from(2);
+                }
+                Some(Err(e)) => {
+                    eprintln!("error: --length: {e}");
+                    return ExitCode::from(2);
+                }
+            };
+            impedance(paths, format, length)
+        }
         Command::Rules => {
             let mut out = String::new();
             for m in rules::all_meta() {
@@ -247,7 +273,7 @@ fn main() -> ExitCode {
     }
 }
 
-fn impedance(paths: Vec<PathBuf>, format: Format) -> ExitCode {
+fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
@@ -291,11 +317,11 @@ fn impedance(paths: Vec<PathBuf>, format: Format) -> ExitCode {
         .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
         .collect();
     match format {
-        Format::Json => print(&output::impedance::json(&items)),
+        Format::Json => print(&output::impedance::json(&items, length)),
         Format::Human => {
             let text: Vec<String> = items
                 .iter()
-                .map(|(n, s, a)| output::impedance::table(n, s, a))
+                .map(|(n, s, a)| output::impedance::table(n, s, a, length))
                 .collect();
             print(&text.join("\n"));
         }

@@ -21,8 +21,12 @@ struct Row<'a> {
     roughness_unknown: bool,
     width_for_target_um: Option<f64>,
     loss_db_per_mm: Option<f64>,
+    loss_db_per_inch: Option<f64>,
     dielectric_loss_db_per_mm: Option<f64>,
     conductor_loss_db_per_mm: Option<f64>,
+    conductor_loss_smooth_db_per_mm: Option<f64>,
+    /// Total loss over `--length`, dB (vias and connectors not included).
+    loss_db_over_length: Option<f64>,
     model: &'a str,
     error: Option<&'a str>,
     notes: &'a [String],
@@ -54,7 +58,7 @@ fn round(v: f64, digits: i32) -> f64 {
     (v * p).round() / p
 }
 
-fn rows<'a>(s: &'a Stackup, a: &'a Analysis) -> Vec<Row<'a>> {
+fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>> {
     s.net_classes
         .iter()
         .zip(&a.classes)
@@ -72,8 +76,12 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis) -> Vec<Row<'a>> {
             roughness_unknown: ca.roughness_unknown,
             width_for_target_um: ca.width_for_target.map(|w| round(w * 1e6, 1)),
             loss_db_per_mm: ca.loss.map(|l| round(l.total_rough() / 1e3, 5)),
+            loss_db_per_inch: ca.loss.map(|l| round(l.total_rough() * 0.0254, 4)),
             dielectric_loss_db_per_mm: ca.loss.map(|l| round(l.dielectric / 1e3, 5)),
             conductor_loss_db_per_mm: ca.loss.map(|l| round(l.conductor_rough / 1e3, 5)),
+            conductor_loss_smooth_db_per_mm: ca.loss.map(|l| round(l.conductor_smooth / 1e3, 5)),
+            loss_db_over_length: length
+                .and_then(|len| ca.loss.map(|l| round(l.total_rough() * len, 3))),
             model: ca.model,
             error: ca.smooth.as_ref().err().map(String::as_str),
             notes: &ca.notes,
@@ -82,7 +90,7 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis) -> Vec<Row<'a>> {
 }
 
 /// JSON: `{"file": …, "net_classes": [ … ]}` per stackup.
-pub fn json(items: &[(&str, &Stackup, &Analysis)]) -> String {
+pub fn json(items: &[(&str, &Stackup, &Analysis)], length: Option<f64>) -> String {
     #[derive(Serialize)]
     struct File<'a> {
         file: &'a str,
@@ -92,7 +100,7 @@ pub fn json(items: &[(&str, &Stackup, &Analysis)]) -> String {
         .iter()
         .map(|(name, s, a)| File {
             file: name,
-            net_classes: rows(s, a),
+            net_classes: rows(s, a, length),
         })
         .collect();
     let mut out = serde_json::to_string_pretty(&files).unwrap_or_default();
@@ -101,7 +109,7 @@ pub fn json(items: &[(&str, &Stackup, &Analysis)]) -> String {
 }
 
 /// Plain text table.
-pub fn table(name: &str, s: &Stackup, a: &Analysis) -> String {
+pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> String {
     let mut out = format!(
         "{name}{}\n",
         s.board
@@ -206,6 +214,23 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis) -> String {
     ));
     for l in &lines {
         out.push_str(&fmt_row(l.iter().map(String::as_str).collect()));
+    }
+    if let Some(len) = length {
+        for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+            if let Some(l) = ca.loss {
+                out.push_str(&format!(
+                    "  {}: {:.2} dB over {} at {} ({:.2} dB conductor with rough copper, {:.2} dB with smooth; {:.2} dB dielectric; {:.3} dB/inch)\n",
+                    nc.name,
+                    l.total_rough() * len,
+                    crate::input::units::fmt_length(len),
+                    crate::input::units::fmt_frequency(ca.frequency),
+                    l.conductor_rough * len,
+                    l.conductor_smooth * len,
+                    l.dielectric * len,
+                    l.total_rough() * 0.0254
+                ));
+            }
+        }
     }
     out.push_str("\n  Z rough, eps_eff, ps/mm and dB/mm include the declared copper roughness (worst case where a face is unknown);\n");
     out.push_str(
