@@ -104,7 +104,7 @@ fn copper_contact_rule_reports_the_apparent_dk_and_its_fix() {
         f[0].message
     );
     // The fix it proposes passes.
-    let fixed = text.replace("thickness: 127 um}", "thickness: 127 um, design-dk: 3.25}");
+    let fixed = text.replace("thickness: 127 um}", "thickness: 127 um, modelled-dk: 3.25}");
     assert!(findings(&fixed, "copper-contact-dk-mismatch").is_empty());
 }
 
@@ -121,7 +121,7 @@ layers:
   - name: core-a
     dielectric: {kind: core, material: pp, thickness: 0.2 mm}
   - name: bond
-    dielectric: {kind: prepreg, material: pp, thickness: 0.1 mm, design-dk: 3.5}
+    dielectric: {kind: prepreg, material: pp, thickness: 0.1 mm, modelled-dk: 3.5}
   - name: core-b
     dielectric: {kind: core, material: pp, thickness: 0.2 mm}
   - name: L2
@@ -320,11 +320,11 @@ layers:
   - name: L2
     copper: {{role: plane, thickness: 17 um, down: {{side: treated, foil: std-ed}}}}
   - name: c1
-    dielectric: {{kind: core, material: m, thickness: 0.1 mm, design-dk: 4.1}}
+    dielectric: {{kind: core, material: m, thickness: 0.1 mm, modelled-dk: 4.1}}
   - name: L3
     copper: {{role: signal, thickness: 17 um, up: {{side: treated, foil: std-ed}}, down: {{side: treated, foil: std-ed}}}}
   - name: c2
-    dielectric: {{kind: core, material: m, thickness: 0.1 mm, design-dk: 4.1}}
+    dielectric: {{kind: core, material: m, thickness: 0.1 mm, modelled-dk: 4.1}}
   - name: L4
     copper: {{role: plane, thickness: 17 um, up: {{side: treated, foil: std-ed}}}}
 net-classes:

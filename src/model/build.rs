@@ -932,12 +932,12 @@ fn read_dielectric(
     } else {
         None
     };
-    let design_dk = r.number(&format!("{ptr}/design-dk"), "design Dk");
-    if let Some(dk) = design_dk {
+    let modelled_dk = r.number(&format!("{ptr}/modelled-dk"), "modelled Dk");
+    if let Some(dk) = modelled_dk {
         if dk < 1.0 {
             r.error(
-                &format!("{ptr}/design-dk"),
-                format!("design Dk {dk} is below 1, the Dk of vacuum"),
+                &format!("{ptr}/modelled-dk"),
+                format!("modelled Dk {dk} is below 1, the Dk of vacuum"),
                 "not physical",
                 None,
             );
@@ -957,7 +957,7 @@ fn read_dielectric(
         nominal_thickness: nominal,
         glass_style: r.string(&format!("{ptr}/glass-style")),
         resin_content: resin,
-        design_dk,
+        modelled_dk,
     })
 }
 

@@ -152,7 +152,7 @@ pub struct DielectricLayer {
     pub glass_style: Option<String>,
     pub resin_content: Option<f64>,
     /// The Dk the design model gives this layer, when stated.
-    pub design_dk: Option<f64>,
+    pub modelled_dk: Option<f64>,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

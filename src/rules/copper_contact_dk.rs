@@ -1,4 +1,4 @@
-//! `copper-contact-dk-mismatch`: a dielectric's design Dk ignores what its
+//! `copper-contact-dk-mismatch`: a dielectric's modelled Dk ignores what its
 //! faces touch — rough copper raises the Dk a line really sees; a ply bonded
 //! between laminates keeps its bulk Dk.
 
@@ -83,7 +83,7 @@ impl Rule for CopperContactDkMismatch {
             };
             let material = &s.materials[&d.material];
             let apparent_data = material.method == MeasurementMethod::TransmissionLine;
-            let assigned = d.design_dk.unwrap_or(c.bulk.dk);
+            let assigned = d.modelled_dk.unwrap_or(c.bulk.dk);
             let rough_faces: Vec<&(usize, Option<String>, FaceRoughness)> = c
                 .faces
                 .iter()
@@ -93,13 +93,13 @@ impl Rule for CopperContactDkMismatch {
                     FaceRoughness::NotDeclared => false,
                 })
                 .collect();
-            let primary = match d.design_dk {
-                Some(_) => cx.at(&format!("{}/dielectric/design-dk", layer.pointer)),
+            let primary = match d.modelled_dk {
+                Some(_) => cx.at(&format!("{}/dielectric/modelled-dk", layer.pointer)),
                 None => cx.at(&d.material_pointer),
             };
             // Only plies that carry a controlled line's field matter here.
             // Transmission-line data already include their copper's roughness.
-            let already_apparent = apparent_data && d.design_dk.is_none();
+            let already_apparent = apparent_data && d.modelled_dk.is_none();
             let carries_lines = !users.is_empty();
             let touches_rough = !rough_faces.is_empty();
             if carries_lines
@@ -112,19 +112,19 @@ impl Rule for CopperContactDkMismatch {
                     k,
                     &c,
                     assigned,
-                    d.design_dk.is_some(),
+                    d.modelled_dk.is_some(),
                     primary,
                     &users,
                     margin,
                 ));
             } else if c.faces.is_empty()
-                && (apparent_data || d.design_dk.is_some_and(|dk| dk - c.bulk.dk > margin))
+                && (apparent_data || d.modelled_dk.is_some_and(|dk| dk - c.bulk.dk > margin))
             {
-                let what = if apparent_data && d.design_dk.is_none() {
+                let what = if apparent_data && d.modelled_dk.is_none() {
                     format!("material `{}` gives an apparent Dk {:.2} measured on transmission lines (it includes their copper roughness)", d.material, c.bulk.dk)
                 } else {
                     format!(
-                        "it is given design Dk {assigned:.2}, above its bulk Dk {:.2}",
+                        "it is given modelled Dk {assigned:.2}, above its bulk Dk {:.2}",
                         c.bulk.dk
                     )
                 };
@@ -237,7 +237,7 @@ fn rough_finding(
             )
         })
         .unwrap_or_default();
-    let given = if design { "design Dk" } else { "bulk Dk" };
+    let given = if design { "modelled Dk" } else { "bulk Dk" };
     let mut f = Finding::new(
         META.name,
         primary,
@@ -258,7 +258,7 @@ fn rough_finding(
             range(c.apparent_best, c.apparent_worst)
         )
     } else {
-        format!("model this ply with `design-dk: {:.2}` (its apparent Dk at this frequency), or specify smoother foil", c.apparent_worst)
+        format!("model this ply with `modelled-dk: {:.2}` (its apparent Dk at this frequency), or specify smoother foil", c.apparent_worst)
     })
     .key(format!("{:.2}/{:.2}", c.apparent_best, c.apparent_worst));
     for (_, ptr, _) in &c.faces {
