@@ -202,33 +202,13 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
             })
             .unwrap_or_default();
         for (i, rel) in lib_entries {
-            if rel == BUILTIN_GENERIC_NAME {
-                let key = PathBuf::from(BUILTIN_GENERIC_NAME);
-                if !libraries.contains_key(&key) {
-                    let file = SourceFile {
-                        path: key.clone(),
-                        display: BUILTIN_GENERIC_NAME.to_string(),
-                        text: BUILTIN_GENERIC.to_string(),
-                        tree: None,
-                    };
-                    let data =
-                        ingest(&mut loaded, file, limits, FileKind::Library).and_then(|lid| {
-                            let (data, errors) = model::load_library(&loaded.db, lid);
-                            let ok = errors.is_empty();
-                            loaded.problems.extend(errors);
-                            ok.then_some(data)
-                        });
-                    libraries.insert(key.clone(), data);
-                }
-                match libraries.get(&key).cloned().flatten() {
-                    Some(d) => libs.push(d),
-                    None => libs_ok = false,
-                }
-                continue;
-            }
-            let lib_path = path.parent().unwrap_or(Path::new(".")).join(&rel);
-            let key = std::fs::canonicalize(&lib_path).unwrap_or(lib_path.clone());
-            if !lib_path.is_file() {
+            let builtin = rel == BUILTIN_GENERIC_NAME;
+            let lib_path = if builtin {
+                PathBuf::from(BUILTIN_GENERIC_NAME)
+            } else {
+                path.parent().unwrap_or(Path::new(".")).join(&rel)
+            };
+            if !builtin && !lib_path.is_file() {
                 loaded.problems.push(
                     Finding::new(
                         INVALID_INPUT,
@@ -239,19 +219,32 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
                         ),
                     )
                     .label("no such file")
-                    .with_help("library paths are relative to the stackup file"),
+                    .with_help(format!(
+                        "library paths are relative to the stackup file; `{BUILTIN_GENERIC_NAME}` is the built-in generic library"
+                    )),
                 );
                 libs_ok = false;
                 continue;
             }
+            let key = std::fs::canonicalize(&lib_path).unwrap_or(lib_path.clone());
             if !libraries.contains_key(&key) {
-                let data = read_file(&mut loaded, &lib_path, base, limits, FileKind::Library)
-                    .and_then(|lid| {
-                        let (data, errors) = model::load_library(&loaded.db, lid);
-                        let ok = errors.is_empty();
-                        loaded.problems.extend(errors);
-                        ok.then_some(data)
-                    });
+                let lid = if builtin {
+                    let file = SourceFile {
+                        path: lib_path.clone(),
+                        display: BUILTIN_GENERIC_NAME.to_string(),
+                        text: BUILTIN_GENERIC.to_string(),
+                        tree: None,
+                    };
+                    ingest(&mut loaded, file, limits, FileKind::Library)
+                } else {
+                    read_file(&mut loaded, &lib_path, base, limits, FileKind::Library)
+                };
+                let data = lid.and_then(|lid| {
+                    let (data, errors) = model::load_library(&loaded.db, lid);
+                    let ok = errors.is_empty();
+                    loaded.problems.extend(errors);
+                    ok.then_some(data)
+                });
                 libraries.insert(key.clone(), data);
             }
             match libraries.get(&key).cloned().flatten() {
@@ -273,40 +266,17 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
 /// Load one stackup from text (tests and fuzzing); `name` is its display path.
 pub fn load_text(name: &str, text: &str, limits: &InputLimits) -> Loaded {
     let mut loaded = Loaded::default();
-    let mut file = SourceFile {
+    let file = SourceFile {
         path: PathBuf::from(name),
         display: name.to_string(),
         text: text.to_string(),
         tree: None,
     };
-    match yaml::parse(text, limits.yaml) {
-        Ok(tree) => file.tree = Some(tree),
-        Err(e) => {
-            let id = loaded.db.add(file);
-            loaded.problems.push(
-                Finding::new(
-                    INVALID_INPUT,
-                    Location {
-                        file: id,
-                        pointer: String::new(),
-                        span: e.span,
-                    },
-                    e.message,
-                )
-                .label("YAML error here"),
-            );
-            return loaded;
+    if let Some(id) = ingest(&mut loaded, file, limits, FileKind::Stackup) {
+        match model::build_stackup(&loaded.db, id, &[]) {
+            Ok(s) => loaded.stackups.push(s),
+            Err(errors) => loaded.problems.extend(errors),
         }
-    }
-    let id = loaded.db.add(file);
-    let errors = schema::validate(&loaded.db, id, FileKind::Stackup);
-    if !errors.is_empty() {
-        loaded.problems.extend(errors);
-        return loaded;
-    }
-    match model::build_stackup(&loaded.db, id, &[]) {
-        Ok(s) => loaded.stackups.push(s),
-        Err(errors) => loaded.problems.extend(errors),
     }
     loaded
 }
