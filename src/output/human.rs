@@ -2,6 +2,7 @@
 //! the same layout without colour when not a TTY or when NO_COLOR is set.
 
 use std::fmt;
+use std::sync::Arc;
 
 use miette::{
     Diagnostic, GraphicalReportHandler, GraphicalTheme, LabeledSpan, NamedSource, SourceCode,
@@ -12,7 +13,7 @@ use crate::source::{line_col, SourceDb};
 
 struct Rendered<'a> {
     finding: &'a Finding,
-    source: NamedSource<String>,
+    source: NamedSource<Arc<str>>,
     labels: Vec<LabeledSpan>,
     help: Option<String>,
     related: Vec<Related>,
@@ -22,7 +23,7 @@ struct Rendered<'a> {
 #[derive(Debug)]
 struct Related {
     message: String,
-    source: NamedSource<String>,
+    source: NamedSource<Arc<str>>,
     label: LabeledSpan,
 }
 
@@ -109,8 +110,15 @@ pub struct HumanOptions {
     pub width: usize,
 }
 
-/// Render all findings (suppressed ones are left out) as terminal text.
+/// Render all findings (suppressed and baselined ones are left out) as
+/// terminal text.
 pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String {
+    // One shared copy of each file's text, however many findings point into it.
+    let texts: Vec<Arc<str>> = db
+        .files
+        .iter()
+        .map(|f| Arc::from(f.text.as_str()))
+        .collect();
     let theme = if opts.color {
         GraphicalTheme::unicode()
     } else {
@@ -121,7 +129,10 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
         .with_links(false)
         .with_context_lines(1);
     let mut out = String::new();
-    for f in findings.iter().filter(|f| f.suppressed.is_none()) {
+    for f in findings
+        .iter()
+        .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
+    {
         let file = db.get(f.primary.file);
         let mut labels = vec![LabeledSpan::new_primary_with_span(
             Some(f.primary_label.clone()).filter(|l| !l.is_empty()),
@@ -140,14 +151,14 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
             } else {
                 related.push(Related {
                     message: l.message.clone(),
-                    source: NamedSource::new(other.display.clone(), other.text.clone()),
+                    source: NamedSource::new(other.display.clone(), texts[l.location.file].clone()),
                     label: LabeledSpan::new_primary_with_span(None, l.location.span.clone()),
                 });
             }
         }
         let rendered = Rendered {
             finding: f,
-            source: NamedSource::new(file.display.clone(), file.text.clone()),
+            source: NamedSource::new(file.display.clone(), texts[f.primary.file].clone()),
             labels,
             help: f.help.clone(),
             related,
