@@ -104,7 +104,10 @@ fn copper_contact_rule_reports_the_apparent_dk_and_its_fix() {
         f[0].message
     );
     // The fix it proposes passes.
-    let fixed = text.replace("thickness: 127 um}", "thickness: 127 um, modelled-dk: 3.25}");
+    let fixed = text.replace(
+        "thickness: 127 um}",
+        "thickness: 127 um, modelled-dk: 3.25}",
+    );
     assert!(findings(&fixed, "copper-contact-dk-mismatch").is_empty());
 }
 
@@ -346,4 +349,26 @@ net-classes:
         .unwrap();
     let fixed = findings(&text(&format!("{w_um} um")), "roughness-impedance-drift");
     assert!(fixed.is_empty(), "{help}: {fixed:#?}");
+}
+
+#[test]
+fn extreme_geometry_is_refused_not_meshed() {
+    // A 1 um trace beside a 19 mm coplanar gap would need billions of mesh
+    // cells: the analysis refuses it with a reason, and the rule says so.
+    let text = "stackup-lint: 1
+materials:
+  m: {dk: 3.5, df: 0.002, frequency: 10 GHz}
+layers:
+  - name: L1
+    copper: {role: signal, thickness: 18 um}
+  - name: c
+    dielectric: {kind: core, material: m, thickness: 0.1 mm}
+  - name: L2
+    copper: {role: plane, thickness: 18 um}
+net-classes:
+  - {name: y, structure: coplanar-grounded, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}}
+";
+    let f = findings(text, "roughness-impedance-drift");
+    assert_eq!(f.len(), 1, "{f:#?}");
+    assert!(f[0].message.contains("could not be computed") && f[0].message.contains("smallest feature"), "{}", f[0].message);
 }
