@@ -270,40 +270,14 @@ pub fn analyze(s: &Stackup) -> Analysis {
         let p = match p {
             Ok(p) => p,
             Err(e) => {
-                classes.push(ClassAnalysis {
-                    frequency: f,
-                    geometry: Err(e.clone()),
-                    smooth: Err(e),
-                    rough_best: None,
-                    rough_worst: None,
-                    roughness_unknown: false,
-                    roughness_undeclared: true,
-                    width_for_target: None,
-                    loss: None,
-                    dk: BTreeMap::new(),
-                    model: FIELD_SOLVER,
-                    notes,
-                });
+                classes.push(ClassAnalysis::unsolved(f, Err(e.clone()), e, notes));
                 continue;
             }
         };
         let g = p.geometry;
         notes.extend(g.notes.iter().cloned());
         if let Some(why) = p.blocked {
-            classes.push(ClassAnalysis {
-                frequency: f,
-                geometry: Ok(g),
-                smooth: Err(why),
-                rough_best: None,
-                rough_worst: None,
-                roughness_unknown: false,
-                roughness_undeclared: true,
-                width_for_target: None,
-                loss: None,
-                dk: BTreeMap::new(),
-                model: FIELD_SOLVER,
-                notes,
-            });
+            classes.push(ClassAnalysis::unsolved(f, Ok(g), why, notes));
             continue;
         }
         let smooth = numbers(&p.smooth);
@@ -522,6 +496,29 @@ fn line_loss(
 }
 
 impl ClassAnalysis {
+    /// A class with no numbers: its section could not be built or solved.
+    fn unsolved(
+        frequency: f64,
+        geometry: Result<LineGeometry, String>,
+        why: String,
+        notes: Vec<String>,
+    ) -> Self {
+        ClassAnalysis {
+            frequency,
+            geometry,
+            smooth: Err(why),
+            rough_best: None,
+            rough_worst: None,
+            roughness_unknown: false,
+            roughness_undeclared: true,
+            width_for_target: None,
+            loss: None,
+            dk: BTreeMap::new(),
+            model: FIELD_SOLVER,
+            notes,
+        }
+    }
+
     /// Thickness-weighted bulk Dk of the dielectrics that carry the line's
     /// field: all slabs between two planes; the slabs under the trace for
     /// an open (microstrip-like) section.
