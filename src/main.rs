@@ -11,7 +11,7 @@ use stackup_lint::engine::{self, CheckOptions};
 use stackup_lint::finding::Severity;
 use stackup_lint::input::yaml::YamlLimits;
 use stackup_lint::load::InputLimits;
-use stackup_lint::output::{self, human, json, sarif, Summary};
+use stackup_lint::output::{self, github, gitlab, human, json, sarif, Summary};
 use stackup_lint::rules;
 use stackup_lint::walk::WalkOptions;
 
@@ -45,6 +45,10 @@ enum Format {
     Human,
     /// The stable JSON report (see README).
     Json,
+    /// GitHub Actions annotations (workflow commands); `check` only.
+    Github,
+    /// GitLab code quality report (JSON); `check` only.
+    Gitlab,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -229,6 +233,8 @@ fn main() -> ExitCode {
             let summary = Summary::of(&outcome.findings, outcome.files);
             match format {
                 Format::Json => print(&json::render(&outcome.findings, &outcome.db, outcome.files)),
+                Format::Github => print(&github::render(&outcome.findings, &outcome.db)),
+                Format::Gitlab => print(&gitlab::render(&outcome.findings, &outcome.db)),
                 Format::Human => {
                     let use_color = match color {
                         Color::Always => true,
@@ -318,6 +324,10 @@ fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCo
         .collect();
     match format {
         Format::Json => print(&output::impedance::json(&items, length)),
+        Format::Github | Format::Gitlab => {
+            eprintln!("error: --format github and gitlab apply to `check` only");
+            return ExitCode::from(2);
+        }
         Format::Human => {
             let text: Vec<String> = items
                 .iter()

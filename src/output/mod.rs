@@ -1,5 +1,7 @@
 //! Emitters: they consume the finished list of findings and rule metadata.
 
+pub mod github;
+pub mod gitlab;
 pub mod human;
 pub mod impedance;
 pub mod json;
