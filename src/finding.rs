@@ -66,6 +66,10 @@ pub struct Finding {
     pub key_numbers: Vec<String>,
     /// Set when a suppression matched: its reason.
     pub suppressed: Option<String>,
+    /// Baseline state: `None` when no baseline was applied, `Some(true)`
+    /// when this finding's fingerprint is in the baseline (not counted for
+    /// the exit code), `Some(false)` when it is new.
+    pub baselined: Option<bool>,
     /// The rule chose this finding's severity itself (e.g. a warning-level
     /// variant of an error rule); a severity configured by the project
     /// still overrides it.
@@ -84,6 +88,7 @@ impl Finding {
             help: None,
             key_numbers: Vec::new(),
             suppressed: None,
+            baselined: None,
             severity_chosen: false,
         }
     }
@@ -133,6 +138,22 @@ impl Finding {
     }
 }
 
+/// A key number for [`Finding::key`]: `value` rounded to the nearest
+/// multiple of `step`, printed with just the decimals the step needs.
+/// Choose `step` so solver noise stays inside one step and a material
+/// change crosses several (e.g. 1 ohm, 0.01 Dk, 1 ps). Negative zero
+/// prints as `0`; NaN and infinities print as themselves.
+pub fn key_step(value: f64, step: f64) -> String {
+    if !(value.is_finite() && step.is_finite() && step > 0.0) {
+        return format!("{value}");
+    }
+    let n = (value / step).round();
+    let decimals = (-step.log10()).ceil().max(0.0) as usize;
+    let v = n * step;
+    let v = if v == 0.0 { 0.0 } else { v };
+    format!("{v:.decimals$}")
+}
+
 /// FNV-1a 64-bit hash (Fowler, Noll, Vo): deterministic across platforms
 /// and releases, unlike `std`'s `DefaultHasher`.
 pub fn fnv1a64(bytes: &[u8]) -> u64 {
@@ -156,5 +177,18 @@ mod tests {
         assert_eq!(fnv1a64(b""), 0xcbf29ce484222325);
         assert_eq!(fnv1a64(b"a"), 0xaf63dc4c8601ec8c);
         assert_eq!(fnv1a64(b"foobar"), 0x85944171f73967e8);
+    }
+
+    #[test]
+    fn key_step_rounds_to_the_step() {
+        // Arithmetic of rounding to a grid (no external source needed).
+        assert_eq!(key_step(50.4, 1.0), "50");
+        assert_eq!(key_step(50.6, 1.0), "51");
+        assert_eq!(key_step(3.4449, 0.01), "3.44");
+        assert_eq!(key_step(3.46, 0.05), "3.45");
+        assert_eq!(key_step(3.48, 0.05), "3.50");
+        assert_eq!(key_step(-0.2, 1.0), "0");
+        assert_eq!(key_step(1234.0, 10.0), "1230");
+        assert_eq!(key_step(f64::NAN, 1.0), "NaN");
     }
 }

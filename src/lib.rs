@@ -5,6 +5,7 @@
 //! (terminal, JSON, SARIF). Physics lives in the `stackup-physics` crate.
 
 pub mod analysis;
+pub mod baseline;
 pub mod engine;
 pub mod finding;
 pub mod input;

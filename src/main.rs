@@ -7,6 +7,7 @@ use std::process::ExitCode;
 
 use clap::{Parser, Subcommand, ValueEnum};
 
+use stackup_lint::baseline::Baseline;
 use stackup_lint::engine::{self, CheckOptions};
 use stackup_lint::finding::Severity;
 use stackup_lint::input::yaml::YamlLimits;
@@ -97,6 +98,15 @@ enum Command {
         /// Base address of the rule pages linked from SARIF
         #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
         rule_docs_url: String,
+        /// Findings recorded in this baseline file (`baseline write`) are
+        /// shown as baselined and do not fail the run
+        #[arg(long, value_name = "FILE")]
+        baseline: Option<PathBuf>,
+    },
+    /// Record today's findings so that `check --baseline` fails only on new ones
+    Baseline {
+        #[command(subcommand)]
+        action: BaselineAction,
     },
     /// Print a rule's page: what it checks, the physics, how to fix it
     Explain {
@@ -119,9 +129,24 @@ enum Command {
     },
 }
 
+#[derive(Subcommand)]
+enum BaselineAction {
+    /// Check the stackups and write their findings to a baseline file
+    Write {
+        /// Files or directories to check [default: .]
+        paths: Vec<PathBuf>,
+        /// The baseline file to write
+        #[arg(short, long, value_name = "FILE")]
+        output: PathBuf,
+    },
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     match cli.command {
+        Command::Baseline {
+            action: BaselineAction::Write { paths, output },
+        } => baseline_write(paths, &output),
         Command::Impedance {
             paths,
             format,
@@ -186,7 +211,16 @@ fn main() -> ExitCode {
             max_yaml_depth,
             max_yaml_nodes,
             rule_docs_url,
+            baseline,
         } => {
+            let baseline = match baseline.as_deref().map(Baseline::read) {
+                None => None,
+                Some(Ok(b)) => Some(b),
+                Some(Err(e)) => {
+                    eprintln!("error: {e}");
+                    return ExitCode::from(2);
+                }
+            };
             let paths = if paths.is_empty() {
                 vec![PathBuf::from(".")]
             } else {
@@ -208,13 +242,16 @@ fn main() -> ExitCode {
                 },
             };
             let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
-            let outcome = match engine::check_paths(&paths, &base, &opts) {
+            let mut outcome = match engine::check_paths(&paths, &base, &opts) {
                 Ok(o) => o,
                 Err(e) => {
                     eprintln!("error: {e}");
                     return ExitCode::from(2);
                 }
             };
+            if let Some(b) = &baseline {
+                b.apply(&mut outcome);
+            }
             if let Some(path) = &sarif_path {
                 let log = sarif::render(
                     &outcome.findings,
@@ -266,10 +303,9 @@ fn main() -> ExitCode {
                 FailOn::Warning => Severity::Warning,
                 FailOn::Note => Severity::Note,
             };
-            let failing = outcome
-                .findings
-                .iter()
-                .any(|f| f.suppressed.is_none() && f.severity >= threshold);
+            let failing = outcome.findings.iter().any(|f| {
+                f.suppressed.is_none() && f.baselined != Some(true) && f.severity >= threshold
+            });
             if failing {
                 ExitCode::from(1)
             } else {
@@ -336,6 +372,54 @@ fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCo
             print(&text.join("\n"));
         }
     }
+    ExitCode::SUCCESS
+}
+
+/// `baseline write`: check with default options, record the findings.
+/// Input errors are never baselined: they are printed and nothing is written.
+fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path) -> ExitCode {
+    let paths = if paths.is_empty() {
+        vec![PathBuf::from(".")]
+    } else {
+        paths
+    };
+    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let outcome = match engine::check_paths(&paths, &base, &CheckOptions::default()) {
+        Ok(o) => o,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(2);
+        }
+    };
+    if outcome.has_input_errors() {
+        let errors: Vec<_> = outcome
+            .findings
+            .iter()
+            .filter(|f| f.rule == stackup_lint::finding::INVALID_INPUT)
+            .cloned()
+            .collect();
+        let opts = human::HumanOptions {
+            color: false,
+            width: 100,
+        };
+        print(&human::render(&errors, &outcome.db, opts));
+        eprintln!("error: input errors are never baselined; fix them first (nothing written)");
+        return ExitCode::from(2);
+    }
+    let b = Baseline::record(&outcome);
+    if let Err(e) = output::write_atomic(output, b.to_json().as_bytes()) {
+        eprintln!(
+            "error: cannot write the baseline to {}: {e}",
+            output.display()
+        );
+        return ExitCode::from(2);
+    }
+    eprintln!(
+        "wrote {} finding(s) from {} file(s) to {}",
+        b.findings.len(),
+        outcome.files,
+        output.display()
+    );
     ExitCode::SUCCESS
 }
 

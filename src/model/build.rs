@@ -1418,10 +1418,55 @@ fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
             pointer: p.clone(),
             rule: r.string(&format!("{p}/rule")).unwrap_or_default(),
             at,
+            scope: None,
             reason: r.string(&format!("{p}/reason")).unwrap_or_default(),
         });
     }
+    read_inline_suppressions(r, s, &mut out.suppressions);
     out
+}
+
+/// Inline `suppress:` lists on layers, net classes, matched groups and this
+/// file's materials and foils: each entry suppresses its rule's findings
+/// whose primary or secondary location lies under that element.
+fn read_inline_suppressions(r: &Reader<'_>, s: &Stackup, out: &mut Vec<Suppression>) {
+    let mut elements: Vec<(String, String)> = Vec::new();
+    elements.extend(s.layers.iter().map(|l| (l.name.clone(), l.pointer.clone())));
+    elements.extend(
+        s.net_classes
+            .iter()
+            .map(|c| (c.name.clone(), c.pointer.clone())),
+    );
+    elements.extend(
+        s.matched_groups
+            .iter()
+            .map(|g| (g.name.clone(), g.pointer.clone())),
+    );
+    for top in ["materials", "foils"] {
+        if let Some(entries) = r.node(&format!("/{top}")).and_then(Node::as_map) {
+            elements.extend(
+                entries
+                    .iter()
+                    .map(|e| (e.key.clone(), format!("/{top}/{}", escape_token(&e.key)))),
+            );
+        }
+    }
+    for (name, ptr) in elements {
+        let n = r
+            .node(&format!("{ptr}/suppress"))
+            .and_then(Node::as_seq)
+            .map_or(0, <[Node]>::len);
+        for i in 0..n {
+            let p = format!("{ptr}/suppress/{i}");
+            out.push(Suppression {
+                rule: r.string(&format!("{p}/rule")).unwrap_or_default(),
+                at: Some(name.clone()),
+                scope: Some(ptr.clone()),
+                reason: r.string(&format!("{p}/reason")).unwrap_or_default(),
+                pointer: p,
+            });
+        }
+    }
 }
 
 /// Copper fill assumed when a layer gives none: planes 0.9, mixed 0.6,

@@ -334,6 +334,9 @@ pub struct Suppression {
     pub rule: String,
     /// A layer, material, net class or group name; `None` = whole file.
     pub at: Option<String>,
+    /// For an inline suppression (a `suppress:` list on the element
+    /// itself): the element's JSON pointer. It, not `at`, sets the scope.
+    pub scope: Option<String>,
     pub reason: String,
 }
 

@@ -72,10 +72,13 @@ pub fn annotation(f: &Finding, db: &SourceDb) -> String {
     )
 }
 
-/// All unsuppressed findings as annotation lines.
+/// All unsuppressed findings as annotation lines (baselined ones left out).
 pub fn render(findings: &[Finding], db: &SourceDb) -> String {
     let mut out = String::new();
-    for f in findings.iter().filter(|f| f.suppressed.is_none()) {
+    for f in findings
+        .iter()
+        .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
+    {
         out.push_str(&annotation(f, db));
         out.push('\n');
     }

@@ -55,12 +55,12 @@ pub fn severity(f: &Finding) -> &'static str {
     }
 }
 
-/// Render the unsuppressed findings as a code quality report.
+/// Render the unsuppressed, not baselined findings as a code quality report.
 pub fn render(findings: &[Finding], db: &SourceDb) -> String {
     let mut seen: HashMap<String, usize> = HashMap::new();
     let issues: Vec<Issue> = findings
         .iter()
-        .filter(|f| f.suppressed.is_none())
+        .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
         .map(|f| {
             let file = db.get(f.primary.file);
             let (begin, _) = line_col(&file.text, f.primary.span.start);

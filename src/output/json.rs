@@ -5,9 +5,12 @@
 //!   "findings": [ { "rule", "severity", "message", "help", "file", "pointer",
 //!                   "line", "column", "end_line", "end_column",
 //!                   "labels": [ { "message", "file", "line", "column" } ],
-//!                   "fingerprint", "suppressed" } ],
-//!   "summary": { "errors", "warnings", "notes", "suppressed", "files" } }
+//!                   "fingerprint", "suppressed", "baselined"? } ],
+//!   "summary": { "errors", "warnings", "notes", "suppressed", "baselined",
+//!                "files" } }
 //! ```
+//! `baselined` is present only with `check --baseline`: `true` when the
+//! finding is in the baseline (not counted in errors/warnings/notes).
 //! Lines and columns are 1-based; columns count Unicode scalar values.
 
 use serde::Serialize;
@@ -29,6 +32,7 @@ struct JsonSummary {
     warnings: usize,
     notes: usize,
     suppressed: usize,
+    baselined: usize,
     files: usize,
 }
 
@@ -55,6 +59,9 @@ struct JsonFinding<'a> {
     labels: Vec<JsonLabel<'a>>,
     fingerprint: String,
     suppressed: Option<&'a str>,
+    /// Present only when `--baseline` was given.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    baselined: Option<bool>,
 }
 
 /// Render the findings as the JSON report.
@@ -95,6 +102,7 @@ pub fn render(findings: &[Finding], db: &SourceDb, files: usize) -> String {
                         .collect(),
                     fingerprint: f.fingerprint(&file.display),
                     suppressed: f.suppressed.as_deref(),
+                    baselined: f.baselined,
                 }
             })
             .collect(),
@@ -103,6 +111,7 @@ pub fn render(findings: &[Finding], db: &SourceDb, files: usize) -> String {
             warnings: s.warnings,
             notes: s.notes,
             suppressed: s.suppressed,
+            baselined: s.baselined,
             files: s.files,
         },
     };

@@ -16,6 +16,8 @@ pub struct Summary {
     pub warnings: usize,
     pub notes: usize,
     pub suppressed: usize,
+    /// Findings in the `--baseline` file: not counted above.
+    pub baselined: usize,
     pub files: usize,
 }
 
@@ -28,6 +30,10 @@ impl Summary {
         for f in findings {
             if f.suppressed.is_some() {
                 s.suppressed += 1;
+                continue;
+            }
+            if f.baselined == Some(true) {
+                s.baselined += 1;
                 continue;
             }
             match f.severity {
@@ -48,8 +54,15 @@ impl Summary {
             plural(self.notes, "note"),
             plural(self.files, "file")
         );
+        let mut extra = Vec::new();
         if self.suppressed > 0 {
-            line.push_str(&format!(" ({} suppressed)", self.suppressed));
+            extra.push(format!("{} suppressed", self.suppressed));
+        }
+        if self.baselined > 0 {
+            extra.push(format!("{} baselined", self.baselined));
+        }
+        if !extra.is_empty() {
+            line.push_str(&format!(" ({})", extra.join(", ")));
         }
         line
     }

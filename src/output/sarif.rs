@@ -149,6 +149,10 @@ pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url:
             if !related.is_empty() {
                 r.related_locations = Some(related);
             }
+            if let Some(b) = f.baselined {
+                let state = if b { "unchanged" } else { "new" };
+                r.baseline_state = Some(serde_json::Value::String(state.into()));
+            }
             if let Some(reason) = &f.suppressed {
                 r.suppressions = Some(vec![Suppression::builder()
                     .kind(serde_json::Value::String("inSource".into()))

@@ -1,7 +1,7 @@
 //! `board-thickness-off-target`: the summed layer thickness misses the
 //! stated board thickness target.
 
-use crate::finding::{Finding, Severity};
+use crate::finding::{key_step, Finding, Severity};
 use crate::input::units::fmt_length;
 use crate::model::LayerKind;
 use crate::rules::{Rule, RuleContext, RuleMeta};
@@ -70,6 +70,8 @@ impl Rule for BoardThicknessOffTarget {
             if diff > 0.0 { "reduce" } else { "increase" },
             fmt_length(diff.abs())
         ))
-        .key(format!("{:.0}", total * 1e6))]
+        // 10 um: pressed-thickness arithmetic moves by less; a
+        // ply change moves it by more.
+        .key(key_step(total * 1e6, 10.0))]
     }
 }

@@ -4,7 +4,7 @@
 
 use crate::analysis::section::FaceRoughness;
 use crate::analysis::{dielectric_contact, DielectricContact};
-use crate::finding::{Finding, Severity};
+use crate::finding::{key_step, Finding, Severity};
 use crate::input::units::{fmt_frequency, fmt_length};
 use crate::model::{DielectricKind, MeasurementMethod};
 use crate::rules::{Rule, RuleContext, RuleMeta};
@@ -178,7 +178,14 @@ impl Rule for CopperContactDkMismatch {
                         range(lo, hi),
                         ca.width_for_target.map(|w| format!(" (base width {} meets the target with the declared roughness)", fmt_length(w))).unwrap_or_default()
                     ))
-                    .key(format!("{assumed:.2}/{lo:.2}/{hi:.2}")),
+                    // Assumed Dk is input (0.01); the solved range moves with
+                    // the mesh, so 0.02.
+                    .key(format!(
+                        "{}/{}/{}",
+                        key_step(assumed, 0.01),
+                        key_step(lo, 0.02),
+                        key_step(hi, 0.02)
+                    )),
                 );
             }
         }
@@ -260,7 +267,12 @@ fn rough_finding(
     } else {
         format!("model this ply with `modelled-dk: {:.2}` (its apparent Dk at this frequency), or specify smoother foil", c.apparent_worst)
     })
-    .key(format!("{:.2}/{:.2}", c.apparent_best, c.apparent_worst));
+    // Solved apparent Dk: 0.02 steps (see the range above).
+    .key(format!(
+        "{}/{}",
+        key_step(c.apparent_best, 0.02),
+        key_step(c.apparent_worst, 0.02)
+    ));
     for (_, ptr, _) in &c.faces {
         if let Some(p) = ptr {
             f = f.secondary(cx.at(p), "copper face touching this ply");

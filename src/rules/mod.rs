@@ -184,7 +184,7 @@ pub static INVALID_INPUT_META: RuleMeta = RuleMeta {
 /// Metadata of the pseudo-rule reporting suppressions that matched nothing.
 pub static UNUSED_SUPPRESSION_META: RuleMeta = RuleMeta {
     name: UNUSED_SUPPRESSION,
-    summary: "a suppression in `settings.suppress` matches no finding",
+    summary: "a suppression (in `settings.suppress` or inline on an element) matches no finding",
     default_severity: Severity::Warning,
     doc: include_str!("../../rules/unused-suppression.md"),
     options: &[],
@@ -331,7 +331,10 @@ fn covers(prefix: &str, pointer: &str) -> bool {
 fn apply_suppressions(stackup: &Stackup, db: &SourceDb, findings: &mut Vec<Finding>) {
     let mut unused = Vec::new();
     for s in &stackup.settings.suppressions {
-        let scope = s.at.as_ref().map(|n| pointers_named(stackup, n));
+        let scope = match &s.scope {
+            Some(p) => Some(vec![p.clone()]),
+            None => s.at.as_ref().map(|n| pointers_named(stackup, n)),
+        };
         let mut used = false;
         for f in findings.iter_mut() {
             if f.rule != s.rule || f.rule == INVALID_INPUT || f.primary.file != stackup.file {

@@ -2,7 +2,7 @@
 //! striplines, and arrival-time spread of matched groups routed on layers of
 //! different effective Dk.
 
-use crate::finding::{Finding, Severity};
+use crate::finding::{key_step, Finding, Severity};
 use crate::input::units::{fmt_length, Dimension};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 
@@ -89,7 +89,8 @@ impl Rule for PropagationSkew {
                 )
                 .label("inhomogeneous stripline")
                 .with_help("use prepreg and core of matching Dk on both sides of the pair (or a spread-glass, resin-matched build), centre the trace in the lower-Dk ply less, or keep coupled parallel runs short")
-                .key(format!("{:.3}", per_mm * 1e12)),
+                // 0.01 ps/mm: 1 ps over 100 mm of coupled route.
+                .key(key_step(per_mm * 1e12, 0.01)),
             );
         }
         // (b) Matched groups: delay per net from its segments.
@@ -188,7 +189,8 @@ impl Rule for PropagationSkew {
                 .secondary(cx.at(&format!("{}/name", slow_net.pointer)), "slowest net")
                 .secondary(cx.at(&format!("{}/name", fast_net.pointer)), "fastest net")
                 .with_help(fix.unwrap_or_else(|| "equalise the delays, not the lengths".into()))
-                .key(format!("{:.1}", spread * 1e12)),
+                // Whole picoseconds.
+                .key(key_step(spread * 1e12, 1.0)),
             );
         }
         out

@@ -1,0 +1,231 @@
+//! Inline suppressions: a `suppress:` list on a layer, material, foil, net
+//! class or matched group hides that rule's findings at that element only,
+//! is reported when it matches nothing, reaches SARIF as an in-source
+//! suppression with its justification, and must give a reason.
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+use serde_json::Value;
+
+const BOARD: &str = "examples/line-card-10l/board.stackup.yaml";
+
+/// The demo board with `line` inserted after the first line equal to
+/// `after` (trimmed); returns the scratch dir and the 1-based line number
+/// of the inserted line.
+fn board_with(edits: &[(&str, &str)]) -> (tempfile::TempDir, Vec<usize>) {
+    let text = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join(BOARD)).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    for (after, line) in edits {
+        let i = lines
+            .iter()
+            .position(|l| l.trim() == *after)
+            .unwrap_or_else(|| panic!("no line `{after}`"));
+        lines.insert(i + 1, line.to_string());
+    }
+    let numbers = edits
+        .iter()
+        .map(|(_, line)| lines.iter().position(|l| l == line).unwrap() + 1)
+        .collect();
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("board.stackup.yaml"),
+        lines.join("\n") + "\n",
+    )
+    .unwrap();
+    (dir, numbers)
+}
+
+fn run(dir: &Path, args: &[&str]) -> Output {
+    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
+        .current_dir(dir)
+        .args(args)
+        .output()
+        .expect("binary runs");
+    assert!(!String::from_utf8_lossy(&o.stderr).contains("panicked"));
+    o
+}
+
+fn report(dir: &Path) -> (Option<i32>, Value) {
+    let o = run(dir, &["check", ".", "--format", "json"]);
+    (o.status.code(), serde_json::from_slice(&o.stdout).unwrap())
+}
+
+fn findings(j: &Value) -> &Vec<Value> {
+    j["findings"].as_array().unwrap()
+}
+
+fn find<'a>(j: &'a Value, rule: &str, pointer: &str) -> Option<&'a Value> {
+    findings(j)
+        .iter()
+        .find(|f| f["rule"] == rule && f["pointer"] == pointer)
+}
+
+const PP1_REASON: &str = "fab confirmed pp1/pp5 imbalance is within their warp limit";
+
+#[test]
+fn inline_suppressions_hide_findings_at_their_element_only() {
+    let (plain, _) = board_with(&[]);
+    let (_, before) = report(plain.path());
+    // The demo board has two mirror findings at the top of the board
+    // (pp1 and L2) and a frequency-validity warning on each material.
+    assert!(find(&before, "stackup-mirror-asymmetry", "/layers/2/name").is_some());
+    assert!(find(&before, "stackup-mirror-asymmetry", "/layers/3/name").is_some());
+    assert!(find(
+        &before,
+        "frequency-beyond-validity",
+        "/materials/low-loss-core/valid-to"
+    )
+    .is_some());
+    assert!(find(
+        &before,
+        "frequency-beyond-validity",
+        "/materials/low-loss-prepreg/valid-to"
+    )
+    .is_some());
+
+    let (dir, _) = board_with(&[
+        (
+            "- name: pp1",
+            &format!("    suppress: [{{rule: stackup-mirror-asymmetry, reason: \"{PP1_REASON}\"}}]"),
+        ),
+        (
+            "low-loss-core:",
+            "    suppress: [{rule: frequency-beyond-validity, reason: \"resonator data to 50 GHz on file\"}]",
+        ),
+    ]);
+    let (code, j) = report(dir.path());
+    assert_eq!(code, Some(1), "the board's errors remain");
+    let pp1 = find(&j, "stackup-mirror-asymmetry", "/layers/2/name").unwrap();
+    assert_eq!(pp1["suppressed"], PP1_REASON);
+    // Same rule, other layer: not covered.
+    let l2 = find(&j, "stackup-mirror-asymmetry", "/layers/3/name").unwrap();
+    assert!(l2["suppressed"].is_null());
+    let core = find(
+        &j,
+        "frequency-beyond-validity",
+        "/materials/low-loss-core/valid-to",
+    )
+    .unwrap();
+    assert_eq!(core["suppressed"], "resonator data to 50 GHz on file");
+    // Same rule, other material: not covered.
+    let prepreg = find(
+        &j,
+        "frequency-beyond-validity",
+        "/materials/low-loss-prepreg/valid-to",
+    )
+    .unwrap();
+    assert!(prepreg["suppressed"].is_null());
+    assert_eq!(
+        j["summary"]["suppressed"].as_u64().unwrap(),
+        before["summary"]["suppressed"].as_u64().unwrap() + 2
+    );
+    assert!(findings(&j)
+        .iter()
+        .all(|f| f["rule"] != "unused-suppression" || f["pointer"] == "/settings/suppress/0"));
+}
+
+#[test]
+fn a_secondary_location_inside_the_element_is_covered() {
+    // The pp1 mirror finding points at pp1 and, as its secondary location,
+    // at its mirror pp5 (/layers/18): a suppression on pp5 covers it.
+    let (dir, _) = board_with(&[(
+        "- name: pp5",
+        "    suppress: [{rule: stackup-mirror-asymmetry, reason: \"thin bottom ply agreed with the fab\"}]",
+    )]);
+    let (_, j) = report(dir.path());
+    let f = find(&j, "stackup-mirror-asymmetry", "/layers/2/name").unwrap();
+    assert_eq!(f["suppressed"], "thin bottom ply agreed with the fab");
+    assert!(find(&j, "unused-suppression", "/layers/18/suppress/0").is_none());
+}
+
+#[test]
+fn an_unused_inline_suppression_is_reported_at_its_entry() {
+    // L1 (a signal layer next to L2, a plane) has no broadside finding.
+    let (dir, lines) = board_with(&[
+        (
+            "- name: L1",
+            "    suppress: [{rule: broadside-signal-layers, reason: \"nothing to hide here\"}]",
+        ),
+        (
+            "- name: refclk-fanout",
+            "    suppress: [{rule: propagation-skew, reason: \"the receiver deskews\"}]",
+        ),
+    ]);
+    let (_, j) = report(dir.path());
+    let unused = find(&j, "unused-suppression", "/layers/1/suppress/0").expect("reported");
+    assert_eq!(unused["line"].as_u64().unwrap() as usize, lines[0]);
+    assert_eq!(unused["severity"], "warning");
+    assert!(unused["message"]
+        .as_str()
+        .unwrap()
+        .contains("`broadside-signal-layers` at `L1`"));
+    // The group one is used (the group's skew finding), so not reported.
+    assert!(find(&j, "unused-suppression", "/matched-groups/0/suppress/0").is_none());
+    let skew = find(&j, "propagation-skew", "/matched-groups/0/skew-budget").unwrap();
+    assert_eq!(skew["suppressed"], "the receiver deskews");
+}
+
+#[test]
+fn sarif_carries_inline_suppressions_in_source_with_their_justification() {
+    let (dir, _) = board_with(&[(
+        "- name: host-56g-pam4",
+        "    suppress: [{rule: roughness-impedance-drift, reason: \"width retuned on the fab's coupon\"}]",
+    )]);
+    let sarif = dir.path().join("out.sarif");
+    run(
+        dir.path(),
+        &["check", ".", "--sarif", sarif.to_str().unwrap()],
+    );
+    let log: Value = serde_json::from_str(&std::fs::read_to_string(&sarif).unwrap()).unwrap();
+    let results = log["runs"][0]["results"].as_array().unwrap();
+    let r = results
+        .iter()
+        .find(|r| r["ruleId"] == "roughness-impedance-drift")
+        .expect("the finding is still in the log");
+    let s = &r["suppressions"][0];
+    assert_eq!(s["kind"], "inSource");
+    assert_eq!(s["justification"], "width retuned on the fab's coupon");
+    // Unsuppressed results carry no suppressions.
+    assert!(results
+        .iter()
+        .filter(|r| r["ruleId"] == "missing-reference-plane")
+        .all(|r| r.get("suppressions").is_none()));
+}
+
+#[test]
+fn an_inline_suppression_needs_a_reason_and_a_real_rule() {
+    for (entry, pointer_tail) in [
+        ("    suppress: [{rule: stackup-mirror-asymmetry}]", ""),
+        (
+            "    suppress: [{rule: stackup-mirror-asymmetry, reason: \"\"}]",
+            "/reason",
+        ),
+        (
+            "    suppress: [{rule: stackup-mirror-asymetry, reason: \"typo in the rule name\"}]",
+            "/rule",
+        ),
+    ] {
+        let (dir, lines) = board_with(&[("- name: pp1", entry)]);
+        let (code, j) = report(dir.path());
+        assert_eq!(code, Some(2), "{entry}");
+        let errors: Vec<&Value> = findings(&j)
+            .iter()
+            .filter(|f| f["rule"] == "invalid-input")
+            .collect();
+        assert_eq!(errors.len(), 1, "{entry}: {errors:#?}");
+        let e = errors[0];
+        assert_eq!(
+            e["line"].as_u64().unwrap() as usize,
+            lines[0],
+            "{entry}: {e:#}"
+        );
+        assert!(
+            e["pointer"]
+                .as_str()
+                .unwrap()
+                .starts_with(&format!("/layers/2/suppress/0{pointer_tail}")),
+            "{entry}: {e:#}"
+        );
+    }
+}
