@@ -10,7 +10,8 @@
 //!
 //! The first run compiles stackup-lint in release mode inside pre-commit's
 //! cache: about 21 minutes on the shared 2-core development machine under
-//! load, so the test is `#[ignore]`d in the default run and `.ci/run` runs it
+//! load (a rerun with the kept target directory: about 100 s), so the test is
+//! `#[ignore]`d in the default run and `.ci/run` runs it
 //! explicitly (`cargo test --test pre_commit -- --ignored`).
 
 use std::path::{Path, PathBuf};
