@@ -145,6 +145,17 @@ fn the_demo_board_is_fully_baselined_by_its_own_baseline() {
     let results = log["runs"][0]["results"].as_array().unwrap();
     assert_eq!(results.len(), n);
     assert!(results.iter().all(|r| r["baselineState"] == "unchanged"));
+    // And the log stays valid SARIF 2.1.0 (OASIS schema, shared copy).
+    let schema_path = root().join("../shared/sarif-schema-2.1.0.json");
+    match std::fs::read_to_string(&schema_path) {
+        Ok(text) => {
+            let schema: Value = serde_json::from_str(&text).unwrap();
+            let validator = jsonschema::validator_for(&schema).expect("schema compiles");
+            let errors: Vec<String> = validator.iter_errors(&log).map(|e| e.to_string()).collect();
+            assert!(errors.is_empty(), "{errors:#?}");
+        }
+        Err(_) => eprintln!("SKIPPED: {} is not present", schema_path.display()),
+    }
 }
 
 #[test]
