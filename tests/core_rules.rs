@@ -370,5 +370,9 @@ net-classes:
 ";
     let f = findings(text, "roughness-impedance-drift");
     assert_eq!(f.len(), 1, "{f:#?}");
-    assert!(f[0].message.contains("could not be computed") && f[0].message.contains("smallest feature"), "{}", f[0].message);
+    assert!(
+        f[0].message.contains("could not be computed") && f[0].message.contains("smallest feature"),
+        "{}",
+        f[0].message
+    );
 }
