@@ -331,3 +331,23 @@ fn gitlab_fingerprints_unique_and_stable() {
     let (_, shifted) = gitlab(same.path(), BOARD);
     assert_eq!(fp(&shifted), fp(&orig), "fingerprints ignore moved lines");
 }
+
+#[test]
+fn baselined_findings_are_left_out() {
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let tmp = tempfile::tempdir().unwrap();
+    let base = tmp.path().join("baseline.json");
+    let base = base.to_str().unwrap();
+    let (code, _, err) = run(&["baseline", "write", BOARD, "-o", base]);
+    assert_eq!(code, Some(0), "{err}");
+    let (code, gh, _) = run(&["check", BOARD, "--format", "github", "--baseline", base]);
+    assert_eq!(code, Some(0));
+    assert_eq!(gh, "", "every finding is baselined");
+    let (code, gl, _) = run(&["check", BOARD, "--format", "gitlab", "--baseline", base]);
+    assert_eq!(code, Some(0));
+    let issues: Vec<Value> = serde_json::from_str(&gl).unwrap();
+    assert!(issues.is_empty());
+    // Without the baseline the same run reports them (the test can fail).
+    let (_, all) = gitlab(root, BOARD);
+    assert!(!all.is_empty());
+}

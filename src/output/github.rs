@@ -17,7 +17,9 @@
 //! `col`/`endColumn` are only valid when the annotation starts and ends on
 //! the same line, so they are left out for multi-line spans.
 //!
-//! Suppressed findings are not printed (they are not problems to act on).
+//! Suppressed findings and findings recorded in a `--baseline` file are not
+//! printed (they are not problems to act on; the terminal output hides them
+//! too).
 
 use crate::finding::{Finding, Severity};
 use crate::source::{line_col, SourceDb};

@@ -9,7 +9,8 @@
 //!
 //! Severity mapping (our choice): note → `info`, warning → `minor`,
 //! error → `major`, a file that cannot be read as a stackup
-//! (`invalid-input`) → `blocker`. Suppressed findings are left out.
+//! (`invalid-input`) → `blocker`. Suppressed findings and findings recorded
+//! in a `--baseline` file are left out.
 //!
 //! Fingerprints are the findings' stable fingerprints; should two findings
 //! share one (same rule, file, pointer and key numbers), the later ones get
