@@ -77,6 +77,14 @@ pub fn write_atomic(path: &std::path::Path, contents: &[u8]) -> std::io::Result<
         .filter(|p| !p.as_os_str().is_empty())
         .unwrap_or(std::path::Path::new("."));
     let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
+    // Temporary files are created private (0600); the result is an ordinary
+    // report that other users and CI upload steps may read.
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::PermissionsExt;
+        tmp.as_file()
+            .set_permissions(std::fs::Permissions::from_mode(0o644))?;
+    }
     tmp.write_all(contents)?;
     tmp.as_file().sync_all()?;
     tmp.persist(path).map_err(|e| e.error)?;
