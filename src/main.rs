@@ -95,6 +95,9 @@ enum Command {
         /// Most YAML nodes a file may expand to (aliases included)
         #[arg(long, default_value_t = 200_000, value_name = "NODES")]
         max_yaml_nodes: usize,
+        /// Threads for field solves (0 = one per core); output does not depend on it
+        #[arg(long, default_value_t = 0, value_name = "N")]
+        threads: usize,
         /// Base address of the rule pages linked from SARIF
         #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
         rule_docs_url: String,
@@ -212,7 +215,9 @@ fn main() -> ExitCode {
             max_yaml_nodes,
             rule_docs_url,
             baseline,
+            threads,
         } => {
+            stackup_lint::analysis::set_solver_threads(threads);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
                 Some(Ok(b)) => Some(b),

@@ -134,6 +134,16 @@ fn key(cs: &CrossSection) -> String {
     format!("{cs:?}")
 }
 
+/// Threads used for field solves; 0 = one per available core. Results do
+/// not depend on it (each section is solved alone, results keyed by
+/// geometry); `tests/determinism.rs` checks that.
+static SOLVER_THREADS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
+
+/// Set the number of threads for field solves (0 = automatic).
+pub fn set_solver_threads(n: usize) {
+    SOLVER_THREADS.store(n, std::sync::atomic::Ordering::Relaxed);
+}
+
 /// Solve distinct sections, in parallel, deterministically (results keyed by section).
 fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, String>> {
     let mut unique: Vec<(String, CrossSection)> = Vec::new();
@@ -144,9 +154,13 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
             unique.push((k, cs));
         }
     }
-    let threads = std::thread::available_parallelism()
-        .map_or(1, |n| n.get())
-        .min(unique.len().max(1));
+    let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
+    let threads = if wanted > 0 {
+        wanted
+    } else {
+        std::thread::available_parallelism().map_or(1, |n| n.get())
+    }
+    .min(unique.len().max(1));
     let opts = SolverOptions::default();
     let chunks: Vec<Vec<(String, CrossSection)>> = (0..threads)
         .map(|t| unique.iter().skip(t).step_by(threads).cloned().collect())
