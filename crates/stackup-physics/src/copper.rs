@@ -7,7 +7,7 @@
 use num_complex::Complex64;
 
 use crate::consts::MU0;
-use crate::validity::{require_non_negative, require_positive, InputError};
+use crate::validity::{finite, require_non_negative, require_positive, InputError};
 
 /// Conductivity of the International Annealed Copper Standard at 20 °C,
 /// 5.8e7 S/m (IEC 60028, "International standard of resistance for copper",
@@ -83,17 +83,6 @@ pub fn thickness_to_ounces(thickness: f64, density: f64) -> Result<f64, InputErr
     require_non_negative("copper thickness", thickness)?;
     require_positive("copper density", density)?;
     finite("copper weight", thickness * density / OUNCE_PER_SQUARE_FOOT)
-}
-
-/// Returns `v` when finite, else an error (inputs whose result overflows).
-fn finite(what: &str, v: f64) -> Result<f64, InputError> {
-    if v.is_finite() {
-        Ok(v)
-    } else {
-        Err(InputError::new(format!(
-            "{what} overflows for these inputs (got {v})"
-        )))
-    }
 }
 
 #[cfg(test)]

@@ -6,7 +6,7 @@
 //! numbers here vary by fabricator and material; the analysis should let the
 //! user override them.
 
-use crate::validity::{require_eps_r, require_non_negative, require_positive, InputError};
+use crate::validity::{finite, require_eps_r, require_non_negative, require_positive, InputError};
 
 fn require_fraction(name: &str, v: f64) -> Result<(), InputError> {
     if v.is_finite() && (0.0..=1.0).contains(&v) {
@@ -273,17 +273,6 @@ pub fn mean_width(w_bottom: f64, w_top: f64) -> Result<f64, InputError> {
     require_positive("bottom width", w_bottom)?;
     require_positive("top width", w_top)?;
     finite("mean width", 0.5 * (w_bottom + w_top))
-}
-
-/// Returns `v` when finite, else an error (inputs whose result overflows).
-fn finite(what: &str, v: f64) -> Result<f64, InputError> {
-    if v.is_finite() {
-        Ok(v)
-    } else {
-        Err(InputError::new(format!(
-            "{what} overflows for these inputs (got {v})"
-        )))
-    }
 }
 
 #[cfg(test)]

@@ -7,7 +7,7 @@
 use std::f64::consts::PI;
 
 use crate::consts::{C0, ETA0, NP_TO_DB};
-use crate::validity::{require_eps_r, require_non_negative, require_positive, InputError};
+use crate::validity::{finite, require_eps_r, require_non_negative, require_positive, InputError};
 
 /// Metres per inch (exact).
 pub const METRES_PER_INCH: f64 = 0.0254;
@@ -297,17 +297,6 @@ pub fn highest_frequency_of_interest(
         "frequency",
         nyquist_frequency(bitrate, modulation)? * harmonic_factor,
     )
-}
-
-/// Returns `v` when finite, else an error (inputs whose result overflows).
-fn finite(what: &str, v: f64) -> Result<f64, InputError> {
-    if v.is_finite() {
-        Ok(v)
-    } else {
-        Err(InputError::new(format!(
-            "{what} overflows for these inputs (got {v})"
-        )))
-    }
 }
 
 #[cfg(test)]

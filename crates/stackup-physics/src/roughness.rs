@@ -31,7 +31,7 @@ use num_complex::Complex64;
 
 use crate::consts::MU0;
 use crate::copper::{skin_depth, surface_resistance};
-use crate::validity::{require_eps_r, require_non_negative, require_positive, InputError};
+use crate::validity::{finite, require_eps_r, require_non_negative, require_positive, InputError};
 
 // ---------------------------------------------------------------------------
 // Loss factors (K multiplies the smooth-copper surface resistance Rs)
@@ -727,17 +727,6 @@ impl RoughLayerModel {
         // Series form h/eps_app = (h - t)/eps + t/eps_r, algebraically equal
         // to the expression above and free of cancellation.
         finite("apparent Dk", h / ((h - t) / eps_bulk + t / eps_r))
-    }
-}
-
-/// Returns `v` when finite, else an error (inputs whose result overflows).
-fn finite(what: &str, v: f64) -> Result<f64, InputError> {
-    if v.is_finite() {
-        Ok(v)
-    } else {
-        Err(InputError::new(format!(
-            "{what} overflows for these inputs (got {v})"
-        )))
     }
 }
 

@@ -127,6 +127,17 @@ pub fn require_eps_r(name: &str, value: f64) -> Result<(), InputError> {
     }
 }
 
+/// Returns `v` when finite, else an error (inputs whose result overflows).
+pub fn finite(what: &str, v: f64) -> Result<f64, InputError> {
+    if v.is_finite() {
+        Ok(v)
+    } else {
+        Err(InputError::new(format!(
+            "{what} overflows for these inputs (got {v})"
+        )))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
