@@ -2,8 +2,10 @@
 
 use std::path::{Path, PathBuf};
 
+use crate::analysis::Analysis;
 use crate::finding::{Finding, INVALID_INPUT};
 use crate::load::{self, InputLimits};
+use crate::model::Stackup;
 use crate::rules;
 use crate::source::{Location, SourceDb, SourceFile};
 use crate::walk::{self, WalkOptions};
@@ -47,10 +49,19 @@ pub fn sort_findings(findings: &mut [Finding], db: &SourceDb) {
 
 /// Lint already-loaded stackups.
 pub fn lint(loaded: load::Loaded) -> CheckOutcome {
+    lint_inner(loaded, false).0
+}
+
+/// Lint, and keep each stackup with its analysis when `keep` is set.
+fn lint_inner(loaded: load::Loaded, keep: bool) -> (CheckOutcome, Vec<(Stackup, Analysis)>) {
     let mut findings = loaded.problems;
-    for s in &loaded.stackups {
-        let analysis = crate::analysis::analyze(s);
-        findings.extend(rules::run(s, &analysis, &loaded.db));
+    let mut kept = Vec::new();
+    for s in loaded.stackups {
+        let analysis = crate::analysis::analyze(&s);
+        findings.extend(rules::run(&s, &analysis, &loaded.db));
+        if keep {
+            kept.push((s, analysis));
+        }
     }
     let files = loaded
         .db
@@ -64,7 +75,7 @@ pub fn lint(loaded: load::Loaded) -> CheckOutcome {
         files,
     };
     sort_findings(&mut out.findings, &out.db);
-    out
+    (out, kept)
 }
 
 /// Check the files and directories in `paths`. Display paths are relative
@@ -74,6 +85,31 @@ pub fn check_paths(
     base: &Path,
     opts: &CheckOptions,
 ) -> Result<CheckOutcome, String> {
+    let (loaded, files) = load_paths(paths, base, opts)?;
+    let mut outcome = lint(loaded);
+    outcome.files = files;
+    Ok(outcome)
+}
+
+/// As [`check_paths`], and also return every stackup with its analysis
+/// (for the report).
+pub fn check_paths_analysed(
+    paths: &[PathBuf],
+    base: &Path,
+    opts: &CheckOptions,
+) -> Result<(CheckOutcome, Vec<(Stackup, Analysis)>), String> {
+    let (loaded, files) = load_paths(paths, base, opts)?;
+    let (mut outcome, kept) = lint_inner(loaded, true);
+    outcome.files = files;
+    Ok((outcome, kept))
+}
+
+/// Walk and load; walk problems become input findings.
+fn load_paths(
+    paths: &[PathBuf],
+    base: &Path,
+    opts: &CheckOptions,
+) -> Result<(load::Loaded, usize), String> {
     let (files, problems) = walk::collect(paths, &opts.walk).map_err(|e| e.message)?;
     let mut loaded = load::load(&files, base, &opts.limits);
     loaded.stackups.sort_by_key(|s| s.file);
@@ -101,7 +137,5 @@ pub fn check_paths(
             .label("cannot read"),
         );
     }
-    let mut outcome = lint(loaded);
-    outcome.files = files.len();
-    Ok(outcome)
+    Ok((loaded, files.len()))
 }

@@ -31,6 +31,9 @@ modelling and test coupons, and follow the applicable IPC standards."
 struct Cli {
     #[command(subcommand)]
     command: Command,
+    /// Do not read or write the on-disk cache of field-solver results
+    #[arg(long, global = true)]
+    no_cache: bool,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -130,6 +133,22 @@ enum Command {
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
     },
+    /// Write the fabrication-note report of one stackup: a self-contained
+    /// HTML page, a Markdown file and the SVG drawings it links to
+    Report {
+        /// The stackup file
+        file: PathBuf,
+        /// Directory to write into (created if missing)
+        #[arg(short, long, value_name = "DIR")]
+        output: PathBuf,
+        /// Draw the cross-section with heights to scale (default:
+        /// exaggerated for reading; the HTML page has a switch)
+        #[arg(long)]
+        to_scale: bool,
+        /// Also give the total loss over this routed length, e.g. "150 mm"
+        #[arg(long, value_name = "LENGTH")]
+        length: Option<String>,
+    },
 }
 
 #[derive(Subcommand)]
@@ -146,6 +165,7 @@ enum BaselineAction {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    stackup_lint::analysis::cache::from_env(cli.no_cache);
     match cli.command {
         Command::Baseline {
             action: BaselineAction::Write { paths, output },
@@ -155,24 +175,27 @@ fn main() -> ExitCode {
             format,
             length,
         } => {
-            let length = match length.as_deref().map(|l| {
-                stackup_lint::input::units::parse_quantity(
-                    l,
-                    stackup_lint::input::units::Dimension::Length,
-                )
-            }) {
-                None => None,
-                Some(Ok(v)) if v > 0.0 => Some(v),
-                Some(Ok(_)) => {
-                    eprintln!("error: --length must be positive");
-                    return ExitCode::from(2);
-                }
-                Some(Err(e)) => {
-                    eprintln!("error: --length: {e}");
-                    return ExitCode::from(2);
-                }
+            let length = match parse_length(length.as_deref()) {
+                Ok(l) => l,
+                Err(code) => return code,
             };
             impedance(paths, format, length)
+        }
+        Command::Report {
+            file,
+            output,
+            to_scale,
+            length,
+        } => {
+            let length = match parse_length(length.as_deref()) {
+                Ok(l) => l,
+                Err(code) => return code,
+            };
+            report(
+                &file,
+                &output,
+                output::report::ReportOptions { to_scale, length },
+            )
         }
         Command::Rules => {
             let mut out = String::new();
@@ -397,17 +420,7 @@ fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path) -> ExitCode {
         }
     };
     if outcome.has_input_errors() {
-        let errors: Vec<_> = outcome
-            .findings
-            .iter()
-            .filter(|f| f.rule == stackup_lint::finding::INVALID_INPUT)
-            .cloned()
-            .collect();
-        let opts = human::HumanOptions {
-            color: false,
-            width: 100,
-        };
-        print(&human::render(&errors, &outcome.db, opts));
+        print_input_errors(&outcome);
         eprintln!("error: input errors are never baselined; fix them first (nothing written)");
         return ExitCode::from(2);
     }
@@ -424,6 +437,108 @@ fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path) -> ExitCode {
         b.findings.len(),
         outcome.files,
         output.display()
+    );
+    ExitCode::SUCCESS
+}
+
+/// Print a run's input errors (plain text) to standard output.
+fn print_input_errors(outcome: &engine::CheckOutcome) {
+    let errors: Vec<_> = outcome
+        .findings
+        .iter()
+        .filter(|f| f.rule == stackup_lint::finding::INVALID_INPUT)
+        .cloned()
+        .collect();
+    let opts = human::HumanOptions {
+        color: false,
+        width: 100,
+    };
+    print(&human::render(&errors, &outcome.db, opts));
+}
+
+/// `--length`: a positive length with its unit.
+fn parse_length(text: Option<&str>) -> Result<Option<f64>, ExitCode> {
+    use stackup_lint::input::units::{parse_quantity, Dimension};
+    match text.map(|l| parse_quantity(l, Dimension::Length)) {
+        None => Ok(None),
+        Some(Ok(v)) if v > 0.0 && v.is_finite() => Ok(Some(v)),
+        Some(Ok(_)) => {
+            eprintln!("error: --length must be positive");
+            Err(ExitCode::from(2))
+        }
+        Some(Err(e)) => {
+            eprintln!("error: --length: {e}");
+            Err(ExitCode::from(2))
+        }
+    }
+}
+
+/// `report`: check one stackup, then write its report files (each one
+/// atomically). Input errors are printed and nothing is written.
+fn report(
+    file: &std::path::Path,
+    dir: &std::path::Path,
+    opts: output::report::ReportOptions,
+) -> ExitCode {
+    if !file.is_file() {
+        eprintln!(
+            "error: {} is not a file; `report` takes one stackup file",
+            file.display()
+        );
+        return ExitCode::from(2);
+    }
+    let name = file.file_name().map(|n| n.to_string_lossy().into_owned());
+    if name.is_some_and(|n| n.ends_with(".materials.yaml") || n.ends_with(".materials.yml")) {
+        eprintln!(
+            "error: {} is a materials library; `report` takes one stackup file",
+            file.display()
+        );
+        return ExitCode::from(2);
+    }
+    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let (outcome, kept) = match engine::check_paths_analysed(
+        &[file.to_path_buf()],
+        &base,
+        &CheckOptions::default(),
+    ) {
+        Ok(x) => x,
+        Err(e) => {
+            eprintln!("error: {e}");
+            return ExitCode::from(2);
+        }
+    };
+    if outcome.has_input_errors() {
+        print_input_errors(&outcome);
+        eprintln!("error: the stackup has input errors; no report written");
+        return ExitCode::from(2);
+    }
+    let Some((s, a)) = kept.first() else {
+        eprintln!(
+            "error: {} holds no stackup (a materials library?); no report written",
+            file.display()
+        );
+        return ExitCode::from(2);
+    };
+    let display = outcome.db.get(s.file).display.clone();
+    let doc = output::report::document(&display, s, a, &outcome.findings, &outcome.db, &opts);
+    let files = output::report::render(&doc);
+    if let Err(e) = std::fs::create_dir_all(dir) {
+        eprintln!("error: cannot create {}: {e}", dir.display());
+        return ExitCode::from(2);
+    }
+    for f in &files {
+        let path = dir.join(&f.name);
+        if let Err(e) = output::write_atomic(&path, f.contents.as_bytes()) {
+            eprintln!("error: cannot write {}: {e}", path.display());
+            return ExitCode::from(2);
+        }
+    }
+    eprintln!(
+        "wrote {} and {} with {} drawing(s) to {}",
+        files[0].name,
+        files[1].name,
+        files.len() - 2,
+        dir.display()
     );
     ExitCode::SUCCESS
 }

@@ -10,6 +10,8 @@
 //! unknown roughness carried as best and worst case. Identical sections are
 //! solved once; distinct ones in parallel.
 
+pub mod cache;
+pub mod delay;
 pub mod materials;
 pub mod section;
 
@@ -144,16 +146,59 @@ pub fn set_solver_threads(n: usize) {
     SOLVER_THREADS.store(n, std::sync::atomic::Ordering::Relaxed);
 }
 
-/// Solve distinct sections, in parallel, deterministically (results keyed by section).
+/// Bytes this process stored in the disk cache and has not yet counted
+/// against its size bound (see `cache::DiskCache::account`).
+static CACHE_PENDING: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
+
+/// Solve one section, through the disk cache when one is in use.
+fn solve_cached(
+    cache: Option<&cache::DiskCache>,
+    k: &str,
+    cs: &CrossSection,
+    opts: &SolverOptions,
+) -> Result<SolvedLine, String> {
+    if let Some(c) = cache {
+        if let Some(v) = c.get(k) {
+            return v;
+        }
+    }
+    let v = solve(cs, opts).map_err(|e| e.message);
+    if let Some(c) = cache {
+        let n = c.put(k, &v);
+        CACHE_PENDING.fetch_add(n, std::sync::atomic::Ordering::Relaxed);
+    }
+    v
+}
+
+/// Count what this process stored against the cache's bound (evicting if
+/// it is passed).
+fn settle_cache(cache: Option<&cache::DiskCache>) -> usize {
+    let added = CACHE_PENDING.swap(0, std::sync::atomic::Ordering::Relaxed);
+    cache.map_or(0, |c| c.account(added))
+}
+
+/// Solve distinct sections, in parallel, deterministically (results keyed
+/// by section). Cached results are read first; only misses are solved.
 fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, String>> {
+    let cache = cache::active();
+    let cache = cache.as_deref();
+    let mut out = HashMap::new();
     let mut unique: Vec<(String, CrossSection)> = Vec::new();
     let mut seen = std::collections::HashSet::new();
+    let mut hits = 0;
     for cs in sections {
         let k = key(&cs);
         if seen.insert(k.clone()) {
-            unique.push((k, cs));
+            match cache.and_then(|c| c.get(&k)) {
+                Some(v) => {
+                    hits += 1;
+                    out.insert(k, v);
+                }
+                None => unique.push((k, cs)),
+            }
         }
     }
+    let misses = unique.len();
     let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
     let threads = if wanted > 0 {
         wanted
@@ -165,7 +210,6 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
     let chunks: Vec<Vec<(String, CrossSection)>> = (0..threads)
         .map(|t| unique.iter().skip(t).step_by(threads).cloned().collect())
         .collect();
-    let mut out = HashMap::new();
     std::thread::scope(|scope| {
         let handles: Vec<_> = chunks
             .iter()
@@ -174,7 +218,7 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
                 scope.spawn(move || {
                     chunk
                         .iter()
-                        .map(|(k, cs)| (k.clone(), solve(cs, opts).map_err(|e| e.message)))
+                        .map(|(k, cs)| (k.clone(), solve_cached(cache, k, cs, opts)))
                         .collect::<Vec<_>>()
                 })
             })
@@ -185,6 +229,12 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
             }
         }
     });
+    if let (Some(c), true) = (cache, cache::debug()) {
+        eprintln!(
+            "cache: {}: {hits} hits, {misses} solved and stored",
+            c.dir().display()
+        );
+    }
     out
 }
 
@@ -337,6 +387,11 @@ pub fn analyze(s: &Stackup) -> Analysis {
             notes,
         });
     }
+    let active = cache::active();
+    let evicted = settle_cache(active.as_deref());
+    if evicted > 0 && cache::debug() {
+        eprintln!("cache: {evicted} least recently used entries removed");
+    }
     Analysis { classes, materials }
 }
 
@@ -386,7 +441,8 @@ fn width_for_target(g: &LineGeometry, f: f64, target: f64, z_now: f64) -> Option
         g2.width_bottom = g.width_bottom * scale;
         g2.width_top = g.width_top * scale;
         let cs = section::cross_section(&g2, Some(&rough_layers(&g2, f, true)));
-        solve(&cs, &opts)
+        let active = cache::active();
+        solve_cached(active.as_deref(), &key(&cs), &cs, &opts)
             .ok()
             .as_ref()
             .and_then(LineNumbers::from_solved)

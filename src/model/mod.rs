@@ -162,6 +162,16 @@ pub enum MeasurementMethod {
     Unknown,
 }
 
+impl MeasurementMethod {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            MeasurementMethod::Resonator => "resonator",
+            MeasurementMethod::TransmissionLine => "transmission-line",
+            MeasurementMethod::Unknown => "unknown",
+        }
+    }
+}
+
 /// One measured (f, Dk, Df) point.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct DkPoint {

@@ -161,10 +161,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
             nc.structure.as_str().to_string(),
             nc.layer.clone(),
             ws,
-            format!("{:.3}", ca.frequency / 1e9)
-                .trim_end_matches('0')
-                .trim_end_matches('.')
-                .to_string(),
+            ghz(ca.frequency),
             nc.impedance.map_or("—".into(), |t| {
                 format!("{:.0}±{:.1}", t.target, t.tolerance)
             }),
@@ -249,17 +246,58 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
     out
 }
 
-/// Per dielectric: bulk Dk and the apparent Dk its copper contact gives, at
-/// the highest analysis frequency of the lines whose section includes it.
-fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
+/// One dielectric's Dk as the lines see it.
+#[derive(Debug, Clone)]
+pub struct DielectricRow {
+    /// Layer index in the stackup.
+    pub layer: usize,
+    /// Frequency the Dk is taken at, Hz: the highest analysis frequency of
+    /// the lines whose section includes this dielectric (else of any line,
+    /// else 1 GHz).
+    pub frequency: f64,
+    /// The material's Dk is a resin-content estimate.
+    pub estimate: bool,
+    /// Some line's field runs in this dielectric (else `frequency` is the
+    /// highest of any line, for reference only).
+    pub carries_lines: bool,
+    pub contact: crate::analysis::DielectricContact,
+    /// Each copper face touching it, described ("L2 Rq 0.40 um").
+    pub faces: Vec<String>,
+}
+
+impl DielectricRow {
+    /// Apparent Dk as text: one value, or "best..worst" where a face is unknown.
+    pub fn apparent_text(&self) -> String {
+        let c = &self.contact;
+        if (c.apparent_worst - c.apparent_best).abs() < 0.005 {
+            format!("{:.2}", c.apparent_worst)
+        } else {
+            format!("{:.2}..{:.2}", c.apparent_best, c.apparent_worst)
+        }
+    }
+
+    /// Copper faces as text.
+    pub fn faces_text(&self) -> String {
+        if self.faces.is_empty() {
+            "none (bonded to dielectric)".into()
+        } else {
+            self.faces.join(", ")
+        }
+    }
+}
+
+/// Per dielectric (solder mask left out): bulk Dk and the apparent Dk its
+/// copper contact gives, at the highest analysis frequency of the lines
+/// whose section includes it.
+pub fn dielectric_rows(s: &Stackup, a: &Analysis) -> Vec<DielectricRow> {
     use crate::analysis::section::FaceRoughness;
     let f_all = a
         .classes
         .iter()
         .map(|c| c.frequency)
         .fold(0.0_f64, f64::max);
-    let mut rows: Vec<[String; 7]> = Vec::new();
-    for (k, layer) in s.layers.iter().enumerate() {
+    let mut rows = Vec::new();
+    for k in 0..s.layers.len() {
         let Some(d) = s.dielectric(k) else { continue };
         if d.kind == crate::model::DielectricKind::SolderMask {
             continue;
@@ -274,6 +312,7 @@ fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
             })
             .map(|c| c.frequency)
             .fold(0.0_f64, f64::max);
+        let carries_lines = f > 0.0;
         let f = if f > 0.0 {
             f
         } else if f_all > 0.0 {
@@ -298,35 +337,51 @@ fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
                 format!("{} {what}", s.layers[*j].name)
             })
             .collect();
-        let app = if (c.apparent_worst - c.apparent_best).abs() < 0.005 {
-            format!("{:.2}", c.apparent_worst)
-        } else {
-            format!("{:.2}..{:.2}", c.apparent_best, c.apparent_worst)
-        };
-        rows.push([
-            layer.name.clone(),
-            d.kind.as_str().to_string(),
-            format!("{:.1}", d.thickness * 1e6),
-            format!("{:.3}", f / 1e9)
-                .trim_end_matches('0')
-                .trim_end_matches('.')
-                .to_string(),
-            match s
-                .materials
-                .get(&d.material)
-                .and_then(|m| m.estimate.as_ref())
-            {
-                Some(_) => format!("{:.2} (estimate)", c.bulk.dk),
-                None => format!("{:.2}", c.bulk.dk),
-            },
-            app,
-            if faces.is_empty() {
-                "none (bonded to dielectric)".into()
-            } else {
-                faces.join(", ")
-            },
-        ]);
+        let estimate = s
+            .materials
+            .get(&d.material)
+            .is_some_and(|m| m.estimate.is_some());
+        rows.push(DielectricRow {
+            layer: k,
+            frequency: f,
+            estimate,
+            carries_lines,
+            contact: c,
+            faces,
+        });
     }
+    rows
+}
+
+/// `f` in GHz with at most three decimals, trailing zeros dropped.
+pub fn ghz(f: f64) -> String {
+    format!("{:.3}", f / 1e9)
+        .trim_end_matches('0')
+        .trim_end_matches('.')
+        .to_string()
+}
+
+/// The dielectric table of the `impedance` command.
+fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
+    let rows: Vec<[String; 7]> = dielectric_rows(s, a)
+        .iter()
+        .filter_map(|r| {
+            let d = s.dielectric(r.layer)?;
+            Some([
+                s.layers[r.layer].name.clone(),
+                d.kind.as_str().to_string(),
+                format!("{:.1}", d.thickness * 1e6),
+                ghz(r.frequency),
+                if r.estimate {
+                    format!("{:.2} (estimate)", r.contact.bulk.dk)
+                } else {
+                    format!("{:.2}", r.contact.bulk.dk)
+                },
+                r.apparent_text(),
+                r.faces_text(),
+            ])
+        })
+        .collect();
     if rows.is_empty() {
         return String::new();
     }

@@ -5,6 +5,7 @@ pub mod gitlab;
 pub mod human;
 pub mod impedance;
 pub mod json;
+pub mod report;
 pub mod sarif;
 
 use crate::finding::{Finding, Severity};

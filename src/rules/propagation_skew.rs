@@ -2,6 +2,7 @@
 //! striplines, and arrival-time spread of matched groups routed on layers of
 //! different effective Dk.
 
+use crate::analysis::delay::{class_delay, net_delay, segment_class};
 use crate::finding::{key_step, Finding, Severity};
 use crate::input::units::{fmt_length, Dimension};
 use crate::rules::{Rule, RuleContext, RuleMeta};
@@ -98,25 +99,10 @@ impl Rule for PropagationSkew {
             let mut delays: Vec<(usize, f64)> = Vec::new();
             let mut missing = Vec::new();
             for (ni, net) in g.nets.iter().enumerate() {
-                let mut t = 0.0;
-                for seg in &net.segments {
-                    let class = seg.net_class.or_else(|| {
-                        s.net_classes
-                            .iter()
-                            .position(|c| c.layer_index == seg.layer_index)
-                    });
-                    let per_m = class.and_then(|ci| {
-                        let ca = &a.classes[ci];
-                        ca.rough_worst
-                            .or(ca.smooth.as_ref().ok().copied())
-                            .map(|n| n.delay)
-                    });
-                    match per_m {
-                        Some(d) => t += d * seg.length,
-                        None => missing.push(seg.pointer.clone()),
-                    }
+                match net_delay(s, a, net) {
+                    Ok(t) => delays.push((ni, t)),
+                    Err(m) => missing.extend(m),
                 }
-                delays.push((ni, t));
             }
             if !missing.is_empty() {
                 for p in missing {
@@ -150,15 +136,7 @@ impl Rule for PropagationSkew {
                 .iter()
                 .max_by(|x, y| x.length.total_cmp(&y.length));
             let fix = seg.and_then(|seg| {
-                let ci = seg.net_class.or_else(|| {
-                    s.net_classes
-                        .iter()
-                        .position(|c| c.layer_index == seg.layer_index)
-                })?;
-                let d = a.classes[ci]
-                    .rough_worst
-                    .or(a.classes[ci].smooth.as_ref().ok().copied())?
-                    .delay;
+                let d = class_delay(a, segment_class(s, seg)?)?;
                 Some(format!(
                     "shorten `{}` on `{}` by {} (or lengthen `{}` by the same delay)",
                     slow_net.name,

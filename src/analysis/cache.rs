@@ -1,0 +1,656 @@
+//! On-disk cache of field-solver results, shared by every run of the
+//! program on the machine (a pre-commit hook checks the same boards again
+//! and again; a warm run reads its solves instead of meshing them).
+//!
+//! - **Key**: SHA-256 of the engine identity (crate version, [`FORMAT`],
+//!   the solver options, and the size and modification time of the running
+//!   executable, so a rebuilt or upgraded program never reads another
+//!   build's numbers) and the cross-section's full `Debug` text (every f64
+//!   printed in its shortest round-trip form).
+//! - **Entry**: one file per key at `<dir>/<2 hex>/<62 hex>`. It holds the
+//!   full key text (compared on read: a hash collision or a misplaced file
+//!   is a miss, never a wrong result), the result with every f64 stored as
+//!   its bit pattern (so a warm run prints byte-identical output), and a
+//!   SHA-256 of everything before it (a truncated or damaged file is a
+//!   miss and is rewritten). Solver errors are cached too: they are as
+//!   deterministic as the numbers (the section is outside what the solver
+//!   meshes) and cost a mesh to find.
+//! - **Concurrency**: an entry is written to a temporary file in its shard
+//!   directory and renamed into place, so a reader sees a whole entry or
+//!   none. Two runs that solve the same section write the same bytes.
+//! - **Size**: bounded by [`DEFAULT_MAX_BYTES`] (`STACKUP_LINT_CACHE_SIZE`).
+//!   Each run that stores entries adds their size to a small usage file;
+//!   only when that estimate passes the bound is the directory scanned and
+//!   the least recently used entries (oldest modification time; a hit
+//!   refreshes it) removed down to 3/4 of the bound.
+//! - **Never fatal**: no usable directory, a read-only one, a full disk: the
+//!   run goes on without the cache (`STACKUP_LINT_CACHE_DEBUG=1` says why).
+
+use std::fmt::Write as _;
+use std::io::Write as _;
+use std::path::{Path, PathBuf};
+use std::sync::{Arc, RwLock};
+use std::time::{Duration, SystemTime};
+
+use sha2::{Digest, Sha256};
+use stackup_physics::fieldsolver::{Pair, SingleEnded, SolvedLine, SolverOptions};
+
+/// Bump when the field solver, its default options or the entry layout
+/// change in a way that changes results (the executable's identity is in
+/// the key as well, but an explicit version keeps installed builds honest).
+pub const FORMAT: u32 = 1;
+
+/// Default bound on the cache directory's size.
+pub const DEFAULT_MAX_BYTES: u64 = 64 * 1024 * 1024;
+
+const MAGIC: &str = "stackup-lint field-solver cache entry";
+const USAGE_FILE: &str = "usage";
+/// Temporary files older than this are left-overs of a killed run.
+const STALE_TEMP: Duration = Duration::from_secs(3600);
+/// A hit refreshes the entry's modification time when it is older than this.
+const TOUCH_AFTER: Duration = Duration::from_secs(600);
+
+/// A cache directory with its bound and the engine identity of this build.
+#[derive(Debug, Clone)]
+pub struct DiskCache {
+    dir: PathBuf,
+    max_bytes: u64,
+    engine: String,
+}
+
+/// What one lookup-and-store pass did (for `STACKUP_LINT_CACHE_DEBUG`).
+#[derive(Debug, Default, Clone, Copy, PartialEq, Eq)]
+pub struct Stats {
+    pub hits: usize,
+    pub misses: usize,
+    pub stored: usize,
+    pub evicted: usize,
+}
+
+/// The engine identity of this build: what a cached result depends on.
+pub fn engine_identity() -> String {
+    let exe = std::env::current_exe()
+        .and_then(std::fs::metadata)
+        .map(|m| {
+            let t = m
+                .modified()
+                .ok()
+                .and_then(|t| t.duration_since(SystemTime::UNIX_EPOCH).ok())
+                .map_or(0, |d| d.as_nanos());
+            format!("{}:{t}", m.len())
+        })
+        .unwrap_or_else(|_| "unknown".into());
+    format!(
+        "stackup-lint {} format {FORMAT} options {:?} exe {exe}",
+        env!("CARGO_PKG_VERSION"),
+        SolverOptions::default()
+    )
+}
+
+impl DiskCache {
+    /// A cache in `dir` (created when missing) bounded by `max_bytes`, for
+    /// results of the engine `engine`. Fails when the directory cannot be
+    /// created or written.
+    pub fn open(dir: &Path, max_bytes: u64, engine: String) -> std::io::Result<DiskCache> {
+        std::fs::create_dir_all(dir)?;
+        // Prove it is writable now rather than failing on every store.
+        let probe = tempfile::NamedTempFile::new_in(dir)?;
+        drop(probe);
+        Ok(DiskCache {
+            dir: dir.to_path_buf(),
+            max_bytes,
+            engine,
+        })
+    }
+
+    pub fn dir(&self) -> &Path {
+        &self.dir
+    }
+
+    fn key_text(&self, section_key: &str) -> String {
+        format!("{}\n{section_key}", self.engine)
+    }
+
+    fn path_of(&self, key_text: &str) -> PathBuf {
+        let hex = hex(&Sha256::digest(key_text.as_bytes()));
+        self.dir.join(&hex[..2]).join(&hex[2..])
+    }
+
+    /// The cached result for `section_key`, or `None` (missing, unreadable,
+    /// damaged, or written for another key).
+    pub fn get(&self, section_key: &str) -> Option<Result<SolvedLine, String>> {
+        let key_text = self.key_text(section_key);
+        let path = self.path_of(&key_text);
+        let bytes = std::fs::read(&path).ok()?;
+        let value = decode(&bytes, &key_text)?;
+        touch(&path);
+        Some(value)
+    }
+
+    /// Store a result; returns the bytes written (0 when it failed).
+    pub fn put(&self, section_key: &str, value: &Result<SolvedLine, String>) -> u64 {
+        let key_text = self.key_text(section_key);
+        let path = self.path_of(&key_text);
+        let bytes = encode(&key_text, value);
+        let write = || -> std::io::Result<()> {
+            let shard = path.parent().unwrap_or(&self.dir);
+            std::fs::create_dir_all(shard)?;
+            let mut tmp = tempfile::NamedTempFile::new_in(shard)?;
+            tmp.write_all(&bytes)?;
+            tmp.persist(&path).map_err(|e| e.error)?;
+            Ok(())
+        };
+        match write() {
+            Ok(()) => bytes.len() as u64,
+            Err(_) => 0,
+        }
+    }
+
+    /// Add `added` bytes to the usage estimate; when it passes the bound,
+    /// scan the directory and remove least recently used entries down to
+    /// 3/4 of the bound. Returns the number of entries removed.
+    pub fn account(&self, added: u64) -> usize {
+        if added == 0 {
+            return 0;
+        }
+        let usage = self.dir.join(USAGE_FILE);
+        let estimate = std::fs::read_to_string(&usage)
+            .ok()
+            .and_then(|t| t.trim().parse::<u64>().ok());
+        let (total, evicted) = match estimate {
+            Some(e) if e.saturating_add(added) <= self.max_bytes => (e + added, 0),
+            // Over the bound, or no estimate yet (first run, or the file was
+            // lost): count what is really there.
+            _ => self.evict(),
+        };
+        let _ = write_small(&self.dir, &usage, format!("{total}\n").as_bytes());
+        evicted
+    }
+
+    /// Scan the cache, remove the least recently used entries until it is
+    /// at most 3/4 of the bound (when it is above the bound), remove stale
+    /// temporary files. Returns the bytes left and the entries removed.
+    pub fn evict(&self) -> (u64, usize) {
+        let mut entries: Vec<(SystemTime, u64, PathBuf)> = Vec::new();
+        let now = SystemTime::now();
+        let Ok(shards) = std::fs::read_dir(&self.dir) else {
+            return (0, 0);
+        };
+        for shard in shards.flatten() {
+            let name = shard.file_name();
+            let name = name.to_string_lossy();
+            if name.len() != 2 || !name.bytes().all(|b| b.is_ascii_hexdigit()) {
+                continue;
+            }
+            let Ok(files) = std::fs::read_dir(shard.path()) else {
+                continue;
+            };
+            for f in files.flatten() {
+                let Ok(meta) = f.metadata() else { continue };
+                let modified = meta.modified().unwrap_or(SystemTime::UNIX_EPOCH);
+                let fname = f.file_name();
+                let fname = fname.to_string_lossy();
+                if fname.len() == 62 && fname.bytes().all(|b| b.is_ascii_hexdigit()) {
+                    entries.push((modified, meta.len(), f.path()));
+                } else if fname.starts_with(".tmp")
+                    && now.duration_since(modified).unwrap_or_default() > STALE_TEMP
+                {
+                    let _ = std::fs::remove_file(f.path());
+                }
+            }
+        }
+        let mut total: u64 = entries.iter().map(|e| e.1).sum();
+        if total <= self.max_bytes {
+            return (total, 0);
+        }
+        // Oldest first; the path breaks ties so the order is fixed.
+        entries.sort();
+        let goal = self.max_bytes / 4 * 3;
+        let mut removed = 0;
+        for (_, len, path) in entries {
+            if total <= goal {
+                break;
+            }
+            // Another run may have removed it already: it is gone either way.
+            let _ = std::fs::remove_file(&path);
+            total = total.saturating_sub(len);
+            removed += 1;
+        }
+        (total, removed)
+    }
+}
+
+fn write_small(dir: &Path, path: &Path, bytes: &[u8]) -> std::io::Result<()> {
+    let mut tmp = tempfile::NamedTempFile::new_in(dir)?;
+    tmp.write_all(bytes)?;
+    tmp.persist(path).map_err(|e| e.error)?;
+    Ok(())
+}
+
+/// Mark an entry as recently used (its modification time), at most once
+/// per [`TOUCH_AFTER`]. Errors are ignored: a read-only cache still serves.
+fn touch(path: &Path) {
+    let now = SystemTime::now();
+    let fresh = std::fs::metadata(path)
+        .and_then(|m| m.modified())
+        .ok()
+        .and_then(|t| now.duration_since(t).ok())
+        .is_some_and(|age| age < TOUCH_AFTER);
+    if !fresh {
+        if let Ok(f) = std::fs::OpenOptions::new().write(true).open(path) {
+            let _ = f.set_modified(now);
+        }
+    }
+}
+
+fn hex(bytes: &[u8]) -> String {
+    let mut s = String::with_capacity(bytes.len() * 2);
+    for b in bytes {
+        let _ = write!(s, "{b:02x}");
+    }
+    s
+}
+
+fn push_floats(out: &mut String, name: &str, v: &[f64]) {
+    let _ = write!(out, "{name} {}", v.len());
+    for x in v {
+        let _ = write!(out, " {:016x}", x.to_bits());
+    }
+    out.push('\n');
+}
+
+/// The entry's bytes: magic line, length-prefixed key text, the result,
+/// then the SHA-256 of everything before the checksum line.
+fn encode(key_text: &str, value: &Result<SolvedLine, String>) -> Vec<u8> {
+    let mut out = String::new();
+    let _ = write!(out, "{MAGIC}\nkey {}\n{key_text}\n", key_text.len());
+    match value {
+        Err(message) => {
+            let _ = write!(out, "err {}\n{message}\n", message.len());
+        }
+        Ok(s) => {
+            let _ = writeln!(out, "ok {} {}", s.n, s.unknowns);
+            push_floats(&mut out, "z_rel_error", &[s.z_rel_error]);
+            push_floats(&mut out, "eps_rel_error", &[s.eps_rel_error]);
+            push_floats(&mut out, "capacitance", &s.capacitance);
+            push_floats(&mut out, "capacitance_vacuum", &s.capacitance_vacuum);
+            push_floats(&mut out, "inductance", &s.inductance);
+            push_floats(&mut out, "modal_eps_eff", &s.modal_eps_eff);
+            match s.single {
+                Some(x) => push_floats(&mut out, "single", &[x.z0, x.eps_eff]),
+                None => push_floats(&mut out, "single", &[]),
+            }
+            match s.pair {
+                Some(p) => push_floats(
+                    &mut out,
+                    "pair",
+                    &[
+                        p.z_even,
+                        p.z_odd,
+                        p.z_diff,
+                        p.z_common,
+                        p.eps_eff_even,
+                        p.eps_eff_odd,
+                    ],
+                ),
+                None => push_floats(&mut out, "pair", &[]),
+            }
+        }
+    }
+    let sum = hex(&Sha256::digest(out.as_bytes()));
+    let _ = writeln!(out, "sha256 {sum}");
+    out.into_bytes()
+}
+
+/// Read an entry back; `None` for anything but a whole, intact entry for
+/// exactly `key_text`.
+fn decode(bytes: &[u8], key_text: &str) -> Option<Result<SolvedLine, String>> {
+    // Checksum line: the last 72 bytes ("sha256 " + 64 hex + "\n").
+    let body_len = bytes.len().checked_sub(72)?;
+    let (body, tail) = bytes.split_at(body_len);
+    let tail = std::str::from_utf8(tail).ok()?;
+    let sum = tail.strip_prefix("sha256 ")?.strip_suffix('\n')?;
+    if sum != hex(&Sha256::digest(body)) {
+        return None;
+    }
+    let body = std::str::from_utf8(body).ok()?;
+    let rest = body.strip_prefix(MAGIC)?.strip_prefix("\nkey ")?;
+    let (len, rest) = rest.split_once('\n')?;
+    let len: usize = len.parse().ok()?;
+    if rest.get(..len)? != key_text {
+        return None;
+    }
+    let rest = rest.get(len..)?.strip_prefix('\n')?;
+    if let Some(rest) = rest.strip_prefix("err ") {
+        let (len, rest) = rest.split_once('\n')?;
+        let len: usize = len.parse().ok()?;
+        let message = rest.get(..len)?;
+        if rest.get(len..)? != "\n" {
+            return None;
+        }
+        return Some(Err(message.to_string()));
+    }
+    let mut lines = rest.strip_suffix('\n')?.split('\n');
+    let mut head = lines.next()?.strip_prefix("ok ")?.split(' ');
+    let n: usize = head.next()?.parse().ok()?;
+    let unknowns: usize = head.next()?.parse().ok()?;
+    if head.next().is_some() {
+        return None;
+    }
+    let mut floats = |name: &str| -> Option<Vec<f64>> {
+        let mut it = lines.next()?.split(' ');
+        if it.next()? != name {
+            return None;
+        }
+        let count: usize = it.next()?.parse().ok()?;
+        let v = it
+            .map(|h| {
+                if h.len() == 16 {
+                    u64::from_str_radix(h, 16).ok().map(f64::from_bits)
+                } else {
+                    None
+                }
+            })
+            .collect::<Option<Vec<f64>>>()?;
+        (v.len() == count).then_some(v)
+    };
+    let z_rel_error = *floats("z_rel_error")?.first()?;
+    let eps_rel_error = *floats("eps_rel_error")?.first()?;
+    let capacitance = floats("capacitance")?;
+    let capacitance_vacuum = floats("capacitance_vacuum")?;
+    let inductance = floats("inductance")?;
+    let modal_eps_eff = floats("modal_eps_eff")?;
+    let single = match floats("single")?.as_slice() {
+        [] => None,
+        [z0, eps_eff] => Some(SingleEnded {
+            z0: *z0,
+            eps_eff: *eps_eff,
+        }),
+        _ => return None,
+    };
+    let pair = match floats("pair")?.as_slice() {
+        [] => None,
+        [z_even, z_odd, z_diff, z_common, eps_eff_even, eps_eff_odd] => Some(Pair {
+            z_even: *z_even,
+            z_odd: *z_odd,
+            z_diff: *z_diff,
+            z_common: *z_common,
+            eps_eff_even: *eps_eff_even,
+            eps_eff_odd: *eps_eff_odd,
+        }),
+        _ => return None,
+    };
+    if lines.next().is_some() {
+        return None;
+    }
+    Some(Ok(SolvedLine {
+        capacitance,
+        capacitance_vacuum,
+        inductance,
+        n,
+        modal_eps_eff,
+        single,
+        pair,
+        z_rel_error,
+        eps_rel_error,
+        unknowns,
+    }))
+}
+
+/// The cache this process uses (`None`: no cache). Library users get none
+/// unless they call [`set`]; the command line calls [`from_env`].
+static ACTIVE: RwLock<Option<Arc<DiskCache>>> = RwLock::new(None);
+
+/// Use `cache` for field solves from now on (`None` turns it off).
+pub fn set(cache: Option<DiskCache>) {
+    if let Ok(mut a) = ACTIVE.write() {
+        *a = cache.map(Arc::new);
+    }
+}
+
+/// The cache in use, if any.
+pub fn active() -> Option<Arc<DiskCache>> {
+    ACTIVE.read().ok().and_then(|a| a.clone())
+}
+
+/// True when `STACKUP_LINT_CACHE_DEBUG` asks for notes on standard error.
+pub fn debug() -> bool {
+    std::env::var_os("STACKUP_LINT_CACHE_DEBUG").is_some_and(|v| !v.is_empty() && v != "0")
+}
+
+/// Parse a size such as `64 MiB`, `500K`, `1G` or a plain byte count
+/// (binary multiples).
+pub fn parse_size(text: &str) -> Option<u64> {
+    let t = text.trim();
+    let split = t.find(|c: char| !c.is_ascii_digit()).unwrap_or(t.len());
+    let (num, unit) = t.split_at(split);
+    let n: u64 = num.parse().ok()?;
+    let mult: u64 = match unit.trim().to_ascii_lowercase().as_str() {
+        "" | "b" => 1,
+        "k" | "kb" | "kib" => 1 << 10,
+        "m" | "mb" | "mib" => 1 << 20,
+        "g" | "gb" | "gib" => 1 << 30,
+        _ => return None,
+    };
+    n.checked_mul(mult)
+}
+
+/// The cache directory from the environment: `STACKUP_LINT_CACHE_DIR`,
+/// else `$XDG_CACHE_HOME/stackup-lint`, else `$HOME/.cache/stackup-lint`.
+pub fn default_dir() -> Option<PathBuf> {
+    let var = |name: &str| {
+        std::env::var_os(name)
+            .filter(|v| !v.is_empty())
+            .map(PathBuf::from)
+    };
+    if let Some(d) = var("STACKUP_LINT_CACHE_DIR") {
+        return Some(d);
+    }
+    if let Some(x) = var("XDG_CACHE_HOME").filter(|p| p.is_absolute()) {
+        return Some(x.join("stackup-lint"));
+    }
+    var("HOME").map(|h| h.join(".cache").join("stackup-lint"))
+}
+
+/// Set up the cache the command line uses: off when `no_cache` or
+/// `STACKUP_LINT_NO_CACHE` is set (non-empty, not `0`), else the default
+/// directory bounded by `STACKUP_LINT_CACHE_SIZE` (default 64 MiB). Any
+/// problem leaves the cache off; the run goes on.
+pub fn from_env(no_cache: bool) {
+    let off = no_cache
+        || std::env::var_os("STACKUP_LINT_NO_CACHE").is_some_and(|v| !v.is_empty() && v != "0");
+    if off {
+        set(None);
+        return;
+    }
+    let max_bytes = match std::env::var("STACKUP_LINT_CACHE_SIZE") {
+        Ok(t) => match parse_size(&t) {
+            Some(n) => n,
+            None => {
+                eprintln!(
+                    "warning: STACKUP_LINT_CACHE_SIZE `{t}` is not a size such as `64 MiB`; using 64 MiB"
+                );
+                DEFAULT_MAX_BYTES
+            }
+        },
+        Err(_) => DEFAULT_MAX_BYTES,
+    };
+    let Some(dir) = default_dir() else {
+        if debug() {
+            eprintln!(
+                "cache: no cache directory (set STACKUP_LINT_CACHE_DIR or HOME); running without"
+            );
+        }
+        set(None);
+        return;
+    };
+    match DiskCache::open(&dir, max_bytes, engine_identity()) {
+        Ok(c) => set(Some(c)),
+        Err(e) => {
+            if debug() {
+                eprintln!(
+                    "cache: {} is not usable ({e}); running without",
+                    dir.display()
+                );
+            }
+            set(None);
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn sample() -> SolvedLine {
+        SolvedLine {
+            capacitance: vec![1.234e-10, -3.0e-12, -3.0e-12, 1.234e-10],
+            capacitance_vacuum: vec![3.1e-11, -1.0e-12, -1.0e-12, 0.1 + 0.2],
+            inductance: vec![f64::MIN_POSITIVE, 4.0e-7, 4.0e-7, 1.0 / 3.0],
+            n: 2,
+            modal_eps_eff: vec![2.9, 3.1],
+            single: None,
+            pair: Some(Pair {
+                z_even: 55.5,
+                z_odd: 45.0000000000001,
+                z_diff: 90.0000000000002,
+                z_common: 27.75,
+                eps_eff_even: 3.1,
+                eps_eff_odd: 2.9,
+            }),
+            z_rel_error: 1e-3,
+            eps_rel_error: 5e-17,
+            unknowns: 12345,
+        }
+    }
+
+    fn cache(dir: &Path, max: u64, engine: &str) -> DiskCache {
+        DiskCache::open(dir, max, engine.to_string()).unwrap()
+    }
+
+    #[test]
+    fn entries_round_trip_bit_for_bit() {
+        let dir = tempfile::tempdir().unwrap();
+        let c = cache(dir.path(), DEFAULT_MAX_BYTES, "engine A");
+        let v = Ok(sample());
+        assert!(c.put("section 1", &v) > 0);
+        let back = c.get("section 1").unwrap().unwrap();
+        let s = sample();
+        assert_eq!(back, s);
+        for (a, b) in back.inductance.iter().zip(&s.inductance) {
+            assert_eq!(a.to_bits(), b.to_bits());
+        }
+        let single = SolvedLine {
+            n: 1,
+            single: Some(SingleEnded {
+                z0: 50.000000000000014,
+                eps_eff: 3.3,
+            }),
+            pair: None,
+            ..sample()
+        };
+        c.put("section 2", &Ok(single.clone()));
+        assert_eq!(c.get("section 2"), Some(Ok(single)));
+        let err: Result<SolvedLine, String> = Err("no plane\nbelow".into());
+        c.put("section 3", &err);
+        assert_eq!(c.get("section 3"), Some(err));
+        assert_eq!(c.get("section 4"), None);
+    }
+
+    #[test]
+    fn another_engine_misses() {
+        let dir = tempfile::tempdir().unwrap();
+        cache(dir.path(), DEFAULT_MAX_BYTES, "engine A").put("s", &Ok(sample()));
+        assert!(cache(dir.path(), DEFAULT_MAX_BYTES, "engine A")
+            .get("s")
+            .is_some());
+        assert_eq!(
+            cache(dir.path(), DEFAULT_MAX_BYTES, "engine B").get("s"),
+            None
+        );
+    }
+
+    #[test]
+    fn damaged_or_foreign_entries_are_misses_and_get_rewritten() {
+        let dir = tempfile::tempdir().unwrap();
+        let c = cache(dir.path(), DEFAULT_MAX_BYTES, "e");
+        c.put("s", &Ok(sample()));
+        let path = c.path_of(&c.key_text("s"));
+        let good = std::fs::read(&path).unwrap();
+        // Every truncation, and a flipped byte anywhere, is a miss.
+        for cut in [0, 1, 40, good.len() / 2, good.len() - 73, good.len() - 1] {
+            std::fs::write(&path, &good[..cut]).unwrap();
+            assert_eq!(c.get("s"), None, "truncated at {cut}");
+        }
+        for i in (0..good.len()).step_by(7) {
+            let mut bad = good.clone();
+            bad[i] ^= 0x04;
+            std::fs::write(&path, &bad).unwrap();
+            assert_eq!(c.get("s"), None, "byte {i} flipped");
+        }
+        // A whole, valid entry for another key at this path is a miss too.
+        std::fs::write(&path, encode(&c.key_text("other"), &Ok(sample()))).unwrap();
+        assert_eq!(c.get("s"), None);
+        c.put("s", &Ok(sample()));
+        assert_eq!(c.get("s"), Some(Ok(sample())));
+        assert_eq!(std::fs::read(&path).unwrap(), good);
+    }
+
+    #[test]
+    fn the_size_bound_evicts_least_recently_used() {
+        let dir = tempfile::tempdir().unwrap();
+        let probe = cache(dir.path(), DEFAULT_MAX_BYTES, "e");
+        let one = probe.put("probe", &Ok(sample()));
+        std::fs::remove_file(probe.path_of(&probe.key_text("probe"))).unwrap();
+        // Room for ten entries (the keys differ by a digit only).
+        let c = cache(dir.path(), one * 10 + one / 2, "e");
+        let old = SystemTime::now() - Duration::from_secs(86_400);
+        let mut added = 0;
+        for i in 0..10 {
+            let key = format!("s{i}");
+            added += c.put(&key, &Ok(sample()));
+            // Entry i was last used i minutes after a day ago.
+            let f = std::fs::OpenOptions::new()
+                .write(true)
+                .open(c.path_of(&c.key_text(&key)))
+                .unwrap();
+            f.set_modified(old + Duration::from_secs(60 * i)).unwrap();
+        }
+        assert_eq!(c.account(added), 0, "ten entries fit");
+        // Using s0 makes it recent; s1 is then the oldest.
+        assert!(c.get("s0").is_some());
+        let mut more = 0;
+        for i in 10..12 {
+            more += c.put(&format!("s{i}"), &Ok(sample()));
+        }
+        let evicted = c.account(more);
+        // 12 entries, down to at most 3/4 of 10.5: 7 left, 5 removed.
+        assert_eq!(evicted, 5);
+        for gone in ["s1", "s2", "s3", "s4", "s5"] {
+            assert_eq!(c.get(gone), None, "{gone} should be evicted");
+        }
+        for kept in ["s0", "s6", "s7", "s8", "s9", "s10", "s11"] {
+            assert!(c.get(kept).is_some(), "{kept} should be kept");
+        }
+        let usage: u64 = std::fs::read_to_string(dir.path().join(USAGE_FILE))
+            .unwrap()
+            .trim()
+            .parse()
+            .unwrap();
+        let left: u64 = ["s0", "s6", "s7", "s8", "s9", "s10", "s11"]
+            .iter()
+            .map(|k| std::fs::metadata(c.path_of(&c.key_text(k))).unwrap().len())
+            .sum();
+        assert_eq!(usage, left);
+    }
+
+    #[test]
+    fn sizes_parse() {
+        assert_eq!(parse_size("64 MiB"), Some(64 << 20));
+        assert_eq!(parse_size("500k"), Some(500 << 10));
+        assert_eq!(parse_size("1G"), Some(1 << 30));
+        assert_eq!(parse_size("4096"), Some(4096));
+        assert_eq!(parse_size("lots"), None);
+        assert_eq!(parse_size("5 parsecs"), None);
+    }
+}

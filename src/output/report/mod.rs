@@ -1,0 +1,703 @@
+//! The fabrication-note report: one self-contained HTML page and one
+//! Markdown file (with its drawings as SVG files beside it) that show what
+//! the stackup is and what it does electrically — cross-section, dielectrics
+//! with bulk and apparent Dk, the impedance table, Dk/Df against frequency
+//! per material, matched-group skew, and the findings.
+//!
+//! The content is built once as a [`Document`] of sections, tables and
+//! figures; `html` and `markdown` only render it.
+
+mod html;
+mod markdown;
+mod plot;
+mod svg;
+
+use std::fmt::Write as _;
+
+use crate::analysis::delay::net_delay;
+use crate::analysis::Analysis;
+use crate::finding::{Finding, Severity};
+use crate::input::units::{fmt_frequency, fmt_length};
+use crate::model::Stackup;
+use crate::output::impedance::{dielectric_rows, ghz};
+use crate::output::Summary;
+use crate::source::{line_col, SourceDb};
+
+/// Report settings.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct ReportOptions {
+    /// Draw the cross-section with heights to scale (the HTML page has both
+    /// drawings and a switch; this picks the one shown first and the one
+    /// the Markdown file uses).
+    pub to_scale: bool,
+    /// Line length for total-loss figures, m.
+    pub length: Option<f64>,
+}
+
+/// One output file: name (no directory) and contents.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReportFile {
+    pub name: String,
+    pub contents: String,
+}
+
+/// A table: header cells and rows of text cells; `tone` marks rows to
+/// highlight (a finding's severity, a group over budget).
+#[derive(Debug, Clone, Default)]
+pub struct Table {
+    pub header: Vec<&'static str>,
+    pub rows: Vec<Vec<String>>,
+    pub tone: Vec<Option<&'static str>>,
+}
+
+impl Table {
+    fn new(header: &[&'static str]) -> Table {
+        Table {
+            header: header.to_vec(),
+            ..Table::default()
+        }
+    }
+
+    fn push(&mut self, row: Vec<String>, tone: Option<&'static str>) {
+        self.rows.push(row);
+        self.tone.push(tone);
+    }
+}
+
+/// A drawing: its file name for the Markdown, its caption and its SVG.
+#[derive(Debug, Clone)]
+pub struct Figure {
+    pub file: String,
+    pub caption: String,
+    pub svg: String,
+}
+
+/// Content blocks.
+#[derive(Debug, Clone)]
+pub enum Block {
+    Paragraph(String),
+    /// Small print under a table or figure.
+    Note(String),
+    Table(Table),
+    Figure(Figure),
+    /// The cross-section in both forms: (exaggerated, to scale), and which
+    /// one is shown first.
+    CrossSection {
+        readable: Figure,
+        scaled: Figure,
+        to_scale: bool,
+    },
+    /// A sub-heading inside a section.
+    Heading(String),
+}
+
+/// A titled section.
+#[derive(Debug, Clone)]
+pub struct Section {
+    pub id: &'static str,
+    pub title: &'static str,
+    pub blocks: Vec<Block>,
+}
+
+/// The whole report.
+#[derive(Debug, Clone)]
+pub struct Document {
+    pub title: String,
+    pub source: String,
+    pub sections: Vec<Section>,
+}
+
+/// The caution printed at the top of every report.
+pub const CAUTION: &str = "Engineering aid, not a sign-off: confirm the final stackup with the fabricator's own impedance modelling and test coupons, and follow the applicable IPC standards.";
+
+/// Slug for file names: lowercase ASCII letters, digits and dashes.
+fn slug(s: &str) -> String {
+    let mut out = String::new();
+    for c in s.chars() {
+        if c.is_ascii_alphanumeric() {
+            out.push(c.to_ascii_lowercase());
+        } else if !out.ends_with('-') {
+            out.push('-');
+        }
+    }
+    let out = out.trim_matches('-').to_string();
+    if out.is_empty() {
+        "x".into()
+    } else {
+        out
+    }
+}
+
+/// Stem of the report files for a stackup file name.
+pub fn stem(display: &str) -> String {
+    let name = display.rsplit(['/', '\\']).next().unwrap_or(display);
+    let name = [".stackup.yaml", ".stackup.yml", ".yaml", ".yml"]
+        .iter()
+        .find_map(|sfx| name.strip_suffix(sfx))
+        .unwrap_or(name);
+    slug(name)
+}
+
+/// Escape text for HTML and SVG.
+pub(crate) fn esc(s: &str) -> String {
+    let mut out = String::with_capacity(s.len());
+    for c in s.chars() {
+        match c {
+            '&' => out.push_str("&amp;"),
+            '<' => out.push_str("&lt;"),
+            '>' => out.push_str("&gt;"),
+            '"' => out.push_str("&quot;"),
+            '\'' => out.push_str("&#39;"),
+            c => out.push(c),
+        }
+    }
+    out
+}
+
+fn opt(v: Option<String>) -> String {
+    v.unwrap_or_else(|| "—".into())
+}
+
+fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
+    let copper = s.copper_indices().len();
+    let mut text = format!(
+        "{} layers ({} copper, {} dielectric), {} thick as pressed",
+        s.layers.len(),
+        copper,
+        s.layers.len() - copper,
+        fmt_length(s.total_thickness())
+    );
+    if let Some(bt) = &s.settings.board_thickness {
+        let _ = write!(
+            text,
+            " against a target of {} ± {}",
+            fmt_length(bt.target),
+            fmt_length(bt.tolerance)
+        );
+    }
+    let _ = write!(
+        text,
+        "; {} impedance-controlled net class{}, {} matched group{}.",
+        s.net_classes.len(),
+        if s.net_classes.len() == 1 { "" } else { "es" },
+        s.matched_groups.len(),
+        if s.matched_groups.len() == 1 { "" } else { "s" }
+    );
+    let counts = Summary::of(findings, 1).line();
+    Section {
+        id: "summary",
+        title: "Summary",
+        blocks: vec![
+            Block::Paragraph(text),
+            Block::Paragraph(format!("Findings: {counts}.")),
+        ],
+    }
+}
+
+fn cross_section_section(
+    s: &Stackup,
+    a: &Analysis,
+    stem: &str,
+    rows: &[crate::output::impedance::DielectricRow],
+    opts: &ReportOptions,
+) -> Section {
+    let fig = |to_scale: bool| Figure {
+        file: format!(
+            "{stem}-cross-section{}.svg",
+            if to_scale { "-to-scale" } else { "" }
+        ),
+        caption: if to_scale {
+            "Cross-section, heights to scale".into()
+        } else {
+            "Cross-section, heights exaggerated for reading".into()
+        },
+        svg: svg::cross_section(s, a, rows, to_scale),
+    };
+    let mut blocks = vec![Block::CrossSection {
+        readable: fig(false),
+        scaled: fig(true),
+        to_scale: opts.to_scale,
+    }];
+    let mut t = Table::new(&[
+        "layer",
+        "kind",
+        "material",
+        "pressed thickness",
+        "f GHz",
+        "bulk Dk",
+        "Df",
+        "apparent Dk",
+        "copper faces",
+    ]);
+    for r in rows {
+        let Some(d) = s.dielectric(r.layer) else {
+            continue;
+        };
+        let thickness = match d.nominal_thickness {
+            Some(n) => format!("{} (nominal {})", fmt_length(d.thickness), fmt_length(n)),
+            None => fmt_length(d.thickness),
+        };
+        let bulk = r.contact.bulk;
+        t.push(
+            vec![
+                s.layers[r.layer].name.clone(),
+                d.kind.as_str().to_string(),
+                d.material.clone(),
+                thickness,
+                ghz(r.frequency),
+                if r.estimate {
+                    format!("{:.2} (estimate)", bulk.dk)
+                } else {
+                    format!("{:.2}", bulk.dk)
+                } + match a.materials.get(&d.material) {
+                    Some(m) if bulk.extrapolated && r.carries_lines => {
+                        if r.frequency < m.valid_from {
+                            " (below its validated range)"
+                        } else {
+                            " (above its validated range)"
+                        }
+                    }
+                    _ => "",
+                },
+                format!("{:.4}", bulk.df),
+                r.apparent_text(),
+                r.faces_text(),
+            ],
+            None,
+        );
+    }
+    if !t.rows.is_empty() {
+        blocks.push(Block::Heading("Dielectrics".into()));
+        blocks.push(Block::Table(t));
+        blocks.push(Block::Note(
+            "Bulk Dk and Df from a causal Djordjevic-Sarkar fit of the material data, at the highest analysis frequency of the lines whose field runs in the layer (a layer no line uses: the highest of any line). Apparent Dk: the effective-roughness-layer model (parallel-plate form) with the roughness of the copper faces touching the layer; a range where a face's roughness is unknown. A dielectric bonded only to other dielectrics keeps its bulk Dk.".into(),
+        ));
+    }
+    Section {
+        id: "cross-section",
+        title: "Cross-section",
+        blocks,
+    }
+}
+
+fn impedance_section(s: &Stackup, a: &Analysis, opts: &ReportOptions) -> Section {
+    let mut t = Table::new(&[
+        "net class",
+        "structure",
+        "layer",
+        "W / S µm",
+        "f GHz",
+        "target Ω",
+        "Z smooth Ω",
+        "Z rough Ω",
+        "apparent Dk",
+        "delay ps/mm",
+        "loss dB/mm",
+        "W for target µm",
+    ]);
+    let mut notes = Vec::new();
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        let ws = match (nc.spacing, nc.top_width) {
+            (Some(sp), _) => format!("{:.0} / {:.0}", nc.width * 1e6, sp * 1e6),
+            (None, Some(top)) => format!("{:.0} (top {:.0})", nc.width * 1e6, top * 1e6),
+            (None, None) => format!("{:.0}", nc.width * 1e6),
+        };
+        let target = nc
+            .impedance
+            .map(|t| format!("{:.0} ± {:.1}", t.target, t.tolerance));
+        let smooth = ca.smooth.as_ref().ok();
+        let z_rough = match (ca.rough_best, ca.rough_worst) {
+            (Some(b), Some(w)) if (b.z - w.z).abs() >= 0.05 => {
+                Some(format!("{:.1}..{:.1}", w.z.min(b.z), w.z.max(b.z)))
+            }
+            (_, Some(w)) => Some(format!("{:.1}", w.z)),
+            _ => None,
+        };
+        let apparent = ca.apparent_dk().map(|(lo, hi)| {
+            if hi - lo < 0.005 {
+                format!("{hi:.2}")
+            } else {
+                format!("{lo:.2}..{hi:.2}")
+            }
+        });
+        let delay = ca
+            .rough_worst
+            .or(smooth.copied())
+            .map(|n| format!("{:.2}", n.ps_per_mm()));
+        let mut tone = None;
+        if let (Some(t), Some(w)) = (nc.impedance, ca.rough_worst) {
+            if (w.z - t.target).abs() > t.tolerance {
+                tone = Some("warning");
+            }
+        }
+        t.push(
+            vec![
+                nc.name.clone(),
+                nc.structure.as_str().to_string(),
+                nc.layer.clone(),
+                ws,
+                ghz(ca.frequency),
+                opt(target),
+                opt(smooth.map(|n| format!("{:.1}", n.z))),
+                opt(z_rough),
+                opt(apparent),
+                opt(delay),
+                opt(ca.loss.map(|l| format!("{:.4}", l.total_rough() / 1e3))),
+                opt(ca.width_for_target.map(|w| format!("{:.1}", w * 1e6))),
+            ],
+            tone,
+        );
+        if let Err(e) = &ca.smooth {
+            notes.push(format!("{}: not solved: {e}", nc.name));
+        }
+        if let (Some(len), Some(l)) = (opts.length, ca.loss) {
+            notes.push(format!(
+                "{}: {:.2} dB over {} at {} ({:.2} dB conductor with rough copper, {:.2} dB with smooth; {:.2} dB dielectric).",
+                nc.name,
+                l.total_rough() * len,
+                fmt_length(len),
+                fmt_frequency(ca.frequency),
+                l.conductor_rough * len,
+                l.conductor_smooth * len,
+                l.dielectric * len,
+            ));
+        }
+        for n in &ca.notes {
+            notes.push(format!("{}: {n}", nc.name));
+        }
+    }
+    let mut blocks = Vec::new();
+    if t.rows.is_empty() {
+        blocks.push(Block::Paragraph(
+            "The stackup declares no impedance-controlled net classes.".into(),
+        ));
+    } else {
+        blocks.push(Block::Table(t));
+        blocks.push(Block::Note(format!(
+            "Solved with the {} at each class's analysis frequency; differential pairs show Z_diff. Z rough, apparent Dk, delay and loss include the declared copper roughness (effective-roughness-layer model for Z and delay, Hammerstad-Bekkadal for conductor loss), worst case where a face is unknown; a range shows best..worst. W for target: base width that brings the rough line back to its target. Rows over tolerance with rough copper are marked.",
+            crate::analysis::FIELD_SOLVER
+        )));
+        for n in notes {
+            blocks.push(Block::Note(n));
+        }
+    }
+    Section {
+        id: "impedance",
+        title: "Impedance-controlled net classes",
+        blocks,
+    }
+}
+
+fn materials_section(s: &Stackup, a: &Analysis, stem: &str) -> Section {
+    let mut blocks = Vec::new();
+    let mut t = Table::new(&[
+        "material",
+        "class",
+        "data points",
+        "validated range",
+        "method",
+        "used by",
+    ]);
+    let mut figures = Vec::new();
+    for (name, m) in &s.materials {
+        let Some(model) = a.materials.get(name) else {
+            continue;
+        };
+        let layers: Vec<usize> = (0..s.layers.len())
+            .filter(|&k| s.dielectric(k).is_some_and(|d| &d.material == name))
+            .collect();
+        if layers.is_empty() {
+            continue;
+        }
+        let marks: Vec<(String, f64)> = s
+            .net_classes
+            .iter()
+            .zip(&a.classes)
+            .filter(|(_, ca)| {
+                ca.geometry
+                    .as_ref()
+                    .is_ok_and(|g| g.slabs.iter().any(|sl| layers.contains(&sl.layer)))
+            })
+            .map(|(nc, ca)| (nc.name.clone(), ca.frequency))
+            .collect();
+        let points: Vec<String> = m
+            .points
+            .iter()
+            .map(|p| {
+                format!(
+                    "{:.2} / {:.4} at {}",
+                    p.dk,
+                    p.df,
+                    fmt_frequency(p.frequency)
+                )
+            })
+            .collect();
+        let range = format!(
+            "{} to {}{}",
+            fmt_frequency(model.valid_from),
+            fmt_frequency(model.valid_to),
+            if m.valid_from.is_none() || m.valid_to.is_none() {
+                " (policy: not stated)"
+            } else {
+                ""
+            }
+        );
+        let layer_names: Vec<&str> = layers.iter().map(|&k| s.layers[k].name.as_str()).collect();
+        t.push(
+            vec![
+                name.clone(),
+                m.class.clone().unwrap_or_else(|| "—".into()),
+                if points.is_empty() {
+                    m.estimate.clone().unwrap_or_else(|| "—".into())
+                } else {
+                    points.join("; ")
+                },
+                range,
+                m.method.as_str().to_string(),
+                layer_names.join(", "),
+            ],
+            None,
+        );
+        let mut caption = format!(
+            "{name}: Dk and Df against frequency (Djordjevic-Sarkar model line, data points as dots, validated range shaded"
+        );
+        if marks.is_empty() {
+            caption.push(')');
+        } else {
+            let names: Vec<String> = marks
+                .iter()
+                .map(|(n, f)| format!("{n} at {}", fmt_frequency(*f)))
+                .collect();
+            let _ = write!(caption, "; amber lines: {})", names.join(", "));
+        }
+        match plot::material_plot(m, model, &marks) {
+            Ok(svg) => figures.push(Block::Figure(Figure {
+                file: format!("{stem}-material-{}.svg", slug(name)),
+                caption,
+                svg,
+            })),
+            Err(e) => figures.push(Block::Note(format!("{name}: no plot: {e}"))),
+        }
+        if let Some(p) = &model.fit_problem {
+            figures.push(Block::Note(format!(
+                "{name}: no causal fit ({p}); the first data point is held constant."
+            )));
+        }
+    }
+    if t.rows.is_empty() {
+        blocks.push(Block::Paragraph("No dielectric materials in use.".into()));
+    } else {
+        blocks.push(Block::Table(t));
+        blocks.extend(figures);
+    }
+    Section {
+        id: "materials",
+        title: "Materials",
+        blocks,
+    }
+}
+
+fn skew_section(s: &Stackup, a: &Analysis) -> Section {
+    let mut t = Table::new(&[
+        "group",
+        "net",
+        "routed",
+        "layers",
+        "delay ps",
+        "behind fastest ps",
+        "budget ps",
+        "status",
+    ]);
+    for g in &s.matched_groups {
+        let delays: Vec<Result<f64, Vec<String>>> =
+            g.nets.iter().map(|n| net_delay(s, a, n)).collect();
+        let known: Vec<f64> = delays
+            .iter()
+            .filter_map(|d| d.as_ref().ok().copied())
+            .collect();
+        let fastest = known.iter().copied().fold(f64::INFINITY, f64::min);
+        let slowest = known.iter().copied().fold(f64::NEG_INFINITY, f64::max);
+        let complete = known.len() == delays.len() && !known.is_empty();
+        let over = complete && slowest - fastest > g.skew_budget;
+        for (net, d) in g.nets.iter().zip(&delays) {
+            let routed: f64 = net.segments.iter().map(|x| x.length).sum();
+            let mut layers: Vec<&str> = Vec::new();
+            for seg in &net.segments {
+                let n = s.layers[seg.layer_index].name.as_str();
+                if !layers.contains(&n) {
+                    layers.push(n);
+                }
+            }
+            let (delay, behind, status, tone) = match d {
+                Ok(t) => {
+                    let behind = t - fastest;
+                    let late = complete && behind > g.skew_budget;
+                    (
+                        format!("{:.1}", t * 1e12),
+                        format!("{:.1}", behind * 1e12),
+                        if !complete {
+                            "group incomplete"
+                        } else if late {
+                            "over budget"
+                        } else {
+                            "within budget"
+                        },
+                        late.then_some("error").or(over.then_some("warning")),
+                    )
+                }
+                Err(_) => (
+                    "—".into(),
+                    "—".into(),
+                    "no solved class on a segment's layer",
+                    Some("warning"),
+                ),
+            };
+            t.push(
+                vec![
+                    g.name.clone(),
+                    net.name.clone(),
+                    fmt_length(routed),
+                    layers.join(", "),
+                    delay,
+                    behind,
+                    format!("{:.1}", g.skew_budget * 1e12),
+                    status.into(),
+                ],
+                tone,
+            );
+        }
+    }
+    let blocks = if t.rows.is_empty() {
+        vec![Block::Paragraph(
+            "The stackup declares no matched groups.".into(),
+        )]
+    } else {
+        vec![
+            Block::Table(t),
+            Block::Note("Delay per segment: routed length times the delay per unit length of the net class on its layer (rough copper, worst case). Vias and breakouts are not included.".into()),
+        ]
+    };
+    Section {
+        id: "skew",
+        title: "Matched-group skew",
+        blocks,
+    }
+}
+
+fn findings_section(findings: &[Finding], db: &SourceDb) -> Section {
+    let mut t = Table::new(&["severity", "rule", "where", "finding", "fix"]);
+    let mut suppressed = Table::new(&["rule", "where", "finding", "reason"]);
+    for f in findings {
+        let file = db.get(f.primary.file);
+        let (line, col) = line_col(&file.text, f.primary.span.start);
+        let place = if f.primary.span.is_empty() && f.primary.span.start == 0 {
+            file.display.clone()
+        } else {
+            format!("{}:{line}:{col}", file.display)
+        };
+        if let Some(reason) = &f.suppressed {
+            suppressed.push(
+                vec![f.rule.into(), place, f.message.clone(), reason.clone()],
+                None,
+            );
+            continue;
+        }
+        let tone = match f.severity {
+            Severity::Error => "error",
+            Severity::Warning => "warning",
+            Severity::Note => "note",
+        };
+        t.push(
+            vec![
+                f.severity.as_str().into(),
+                f.rule.into(),
+                place,
+                f.message.clone(),
+                f.help.clone().unwrap_or_default(),
+            ],
+            Some(tone),
+        );
+    }
+    let mut blocks = Vec::new();
+    if t.rows.is_empty() {
+        blocks.push(Block::Paragraph("No findings.".into()));
+    } else {
+        blocks.push(Block::Table(t));
+    }
+    if !suppressed.rows.is_empty() {
+        blocks.push(Block::Heading("Suppressed".into()));
+        blocks.push(Block::Table(suppressed));
+    }
+    Section {
+        id: "findings",
+        title: "Findings",
+        blocks,
+    }
+}
+
+/// Build the report content for one stackup.
+pub fn document(
+    display: &str,
+    s: &Stackup,
+    a: &Analysis,
+    findings: &[Finding],
+    db: &SourceDb,
+    opts: &ReportOptions,
+) -> Document {
+    let stem = stem(display);
+    let rows = dielectric_rows(s, a);
+    let title = match &s.board {
+        Some(b) => format!("Fabrication notes: {b}"),
+        None => format!("Fabrication notes: {display}"),
+    };
+    Document {
+        title,
+        source: display.to_string(),
+        sections: vec![
+            summary_section(s, findings),
+            cross_section_section(s, a, &stem, &rows, opts),
+            impedance_section(s, a, opts),
+            materials_section(s, a, &stem),
+            skew_section(s, a),
+            findings_section(findings, db),
+        ],
+    }
+}
+
+/// Render the report files: `<stem>.html` (self-contained), `<stem>.md` and
+/// the SVG drawings the Markdown links to.
+pub fn render(doc: &Document) -> Vec<ReportFile> {
+    let stem = stem(&doc.source);
+    let mut files = vec![
+        ReportFile {
+            name: format!("{stem}.html"),
+            contents: html::render(doc),
+        },
+        ReportFile {
+            name: format!("{stem}.md"),
+            contents: markdown::render(doc),
+        },
+    ];
+    for sec in &doc.sections {
+        for b in &sec.blocks {
+            match b {
+                Block::Figure(f) => files.push(ReportFile {
+                    name: f.file.clone(),
+                    contents: f.svg.clone(),
+                }),
+                Block::CrossSection {
+                    readable, scaled, ..
+                } => {
+                    for f in [readable, scaled] {
+                        files.push(ReportFile {
+                            name: f.file.clone(),
+                            contents: f.svg.clone(),
+                        });
+                    }
+                }
+                _ => {}
+            }
+        }
+    }
+    files
+}

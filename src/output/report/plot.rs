@@ -1,0 +1,154 @@
+//! Dk and Df against frequency for one material, drawn with `plotters`'
+//! SVG backend: the causal Djordjevic-Sarkar model the analysis uses, the
+//! material's data points, its validated range shaded, and the analysis
+//! frequencies of the net classes whose field runs in it.
+
+use plotters::prelude::*;
+
+use crate::analysis::materials::MaterialModel;
+use crate::model::Material;
+
+/// Plot size, px.
+pub const SIZE: (u32, u32) = (760, 460);
+
+const MODEL: RGBColor = RGBColor(0x1f, 0x4e, 0x8c);
+const DATA: RGBColor = RGBColor(0xb3, 0x3a, 0x1b);
+const VALID: RGBColor = RGBColor(0xdc, 0xea, 0xd5);
+const MARK: RGBColor = RGBColor(0xc0, 0x7a, 0x1e);
+
+/// Frequency span shown: a decade around the data, the validated range and
+/// the class frequencies.
+fn span(m: &Material, model: &MaterialModel, marks: &[(String, f64)]) -> (f64, f64) {
+    let mut lo = model.valid_from;
+    let mut hi = model.valid_to;
+    for p in &m.points {
+        lo = lo.min(p.frequency);
+        hi = hi.max(p.frequency);
+    }
+    for (_, f) in marks {
+        lo = lo.min(*f);
+        hi = hi.max(*f);
+    }
+    let lo = (lo / 2.0).max(1e6);
+    let hi = (hi * 2.0).max(lo * 10.0);
+    (lo, hi)
+}
+
+fn padded(lo: f64, hi: f64, min_pad: f64) -> (f64, f64) {
+    let pad = ((hi - lo) * 0.15).max(min_pad);
+    (lo - pad, hi + pad)
+}
+
+fn ghz_label(v: &f64) -> String {
+    let g = v / 1e9;
+    if g >= 1.0 {
+        format!("{g:.0}")
+    } else if g >= 0.1 {
+        format!("{g:.1}")
+    } else {
+        format!("{g:.2}")
+    }
+}
+
+/// The SVG plot, or why it could not be drawn.
+pub fn material_plot(
+    m: &Material,
+    model: &MaterialModel,
+    marks: &[(String, f64)],
+) -> Result<String, String> {
+    let (f0, f1) = span(m, model, marks);
+    let n = 240;
+    let curve: Vec<(f64, f64, f64)> = (0..=n)
+        .map(|i| {
+            let f = f0 * (f1 / f0).powf(i as f64 / n as f64);
+            let at = model.at(f);
+            (f, at.dk, at.df)
+        })
+        .filter(|(_, dk, df)| dk.is_finite() && df.is_finite())
+        .collect();
+    if curve.is_empty() {
+        return Err("the material model gives no finite values in the plotted range".into());
+    }
+    let fold = |sel: fn(&(f64, f64, f64)) -> f64, pts: &[f64]| {
+        let mut lo = f64::INFINITY;
+        let mut hi = f64::NEG_INFINITY;
+        for v in curve.iter().map(sel).chain(pts.iter().copied()) {
+            lo = lo.min(v);
+            hi = hi.max(v);
+        }
+        (lo, hi)
+    };
+    let data_dk: Vec<f64> = m.points.iter().map(|p| p.dk).collect();
+    let data_df: Vec<f64> = m.points.iter().map(|p| p.df).collect();
+    let (dk0, dk1) = fold(|c| c.1, &data_dk);
+    let (df0, df1) = fold(|c| c.2, &data_df);
+    let (dk0, dk1) = padded(dk0, dk1, 0.05);
+    let (df0, df1) = padded(df0, df1, 0.0005);
+    let df0 = df0.max(0.0);
+
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, SIZE).into_drawing_area();
+        let e = |err: DrawingAreaErrorKind<_>| format!("plot: {err}");
+        root.fill(&WHITE).map_err(e)?;
+        let (upper, lower) = root.split_vertically(SIZE.1 / 2);
+        let panels: [(&DrawingArea<_, _>, &str, (f64, f64), usize); 2] =
+            [(&upper, "Dk", (dk0, dk1), 1), (&lower, "Df", (df0, df1), 2)];
+        for (area, name, (y0, y1), col) in panels {
+            let mut chart = ChartBuilder::on(area)
+                .margin(8)
+                .x_label_area_size(30)
+                .y_label_area_size(62)
+                .build_cartesian_2d((f0..f1).log_scale(), y0..y1)
+                .map_err(|err| format!("plot: {err}"))?;
+            chart
+                .configure_mesh()
+                .x_desc("frequency, GHz")
+                .y_desc(name)
+                .x_label_formatter(&ghz_label)
+                .y_label_formatter(&|v| {
+                    if col == 1 {
+                        format!("{v:.2}")
+                    } else {
+                        format!("{v:.4}")
+                    }
+                })
+                .light_line_style(WHITE.mix(0.0))
+                .bold_line_style(RGBColor(0xe2, 0xe4, 0xe6))
+                .draw()
+                .map_err(|err| format!("plot: {err}"))?;
+            let (v0, v1) = (model.valid_from.max(f0), model.valid_to.min(f1));
+            if v1 > v0 {
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(v0, y0), (v1, y1)],
+                        VALID.filled(),
+                    )))
+                    .map_err(|err| format!("plot: {err}"))?;
+            }
+            for (_, f) in marks {
+                chart
+                    .draw_series(std::iter::once(PathElement::new(
+                        vec![(*f, y0), (*f, y1)],
+                        MARK.stroke_width(2),
+                    )))
+                    .map_err(|err| format!("plot: {err}"))?;
+            }
+            let pick = |c: &(f64, f64, f64)| (c.0, if col == 1 { c.1 } else { c.2 });
+            chart
+                .draw_series(LineSeries::new(
+                    curve.iter().map(pick),
+                    MODEL.stroke_width(2),
+                ))
+                .map_err(|err| format!("plot: {err}"))?;
+            chart
+                .draw_series(m.points.iter().map(|p| {
+                    let y = if col == 1 { p.dk } else { p.df };
+                    Circle::new((p.frequency, y), 4, DATA.filled())
+                }))
+                .map_err(|err| format!("plot: {err}"))?;
+        }
+        root.present().map_err(|err| format!("plot: {err}"))?;
+    }
+    Ok(buf)
+}
