@@ -238,6 +238,43 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
     out
 }
 
+/// Map `f` over `items` on the solver threads; results in input order.
+fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) -> Vec<R> {
+    let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
+    let threads = if wanted > 0 {
+        wanted
+    } else {
+        std::thread::available_parallelism().map_or(1, |n| n.get())
+    }
+    .min(items.len().max(1));
+    if threads <= 1 {
+        return items.iter().map(&f).collect();
+    }
+    let f = &f;
+    let mut parts: Vec<Vec<(usize, R)>> = std::thread::scope(|scope| {
+        let handles: Vec<_> = (0..threads)
+            .map(|t| {
+                scope.spawn(move || {
+                    items
+                        .iter()
+                        .enumerate()
+                        .skip(t)
+                        .step_by(threads)
+                        .map(|(i, x)| (i, f(x)))
+                        .collect::<Vec<_>>()
+                })
+            })
+            .collect();
+        handles
+            .into_iter()
+            .map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)))
+            .collect()
+    });
+    let mut out: Vec<(usize, R)> = parts.drain(..).flatten().collect();
+    out.sort_by_key(|(i, _)| *i);
+    out.into_iter().map(|(_, r)| r).collect()
+}
+
 /// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
 fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
     let model = RoughLayerModel::default();
@@ -323,9 +360,33 @@ pub fn analyze(s: &Stackup) -> Analysis {
             None => Err("not solved".into()),
         }
     };
-    // Second pass: width back to target (secant on the worst-case section).
+    // Width back to target (secant on the worst-case section) for every
+    // class off its target, the classes spread over the solver threads.
+    let searches: Vec<(usize, &LineGeometry, f64, f64, f64)> = s
+        .net_classes
+        .iter()
+        .zip(&pending)
+        .enumerate()
+        .filter_map(|(i, (nc, p))| {
+            let p = p.as_ref().ok().filter(|p| p.blocked.is_none())?;
+            let t = nc.impedance?;
+            let w = numbers(&p.worst).ok()?;
+            ((w.z - t.target).abs() > 1e-3 * t.target).then_some((
+                i,
+                &p.geometry,
+                nc.analysis_frequency(),
+                t.target,
+                w.z,
+            ))
+        })
+        .collect();
+    let widths = in_parallel(&searches, |&(i, g, f, target, z)| {
+        (i, width_for_target(g, f, target, z))
+    });
+    let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
+    // Second pass: assemble each class.
     let mut classes = Vec::new();
-    for (nc, p) in s.net_classes.iter().zip(pending) {
+    for (i, (nc, p)) in s.net_classes.iter().zip(pending).enumerate() {
         let f = nc.analysis_frequency();
         let mut notes = Vec::new();
         if !nc.max_frequency_given && nc.nyquist.is_none() {
@@ -363,7 +424,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
         }
         let width_for_target = match (nc.impedance, worst) {
             (Some(t), Some(w)) if (w.z - t.target).abs() > 1e-3 * t.target => {
-                width_for_target(&g, f, t.target, w.z)
+                widths.get(&i).copied().flatten()
             }
             (Some(_), Some(_)) => Some(nc.width),
             _ => None,
