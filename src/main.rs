@@ -5,7 +5,7 @@ use std::io::{IsTerminal, Write};
 use std::path::PathBuf;
 use std::process::ExitCode;
 
-use clap::{Parser, Subcommand, ValueEnum};
+use clap::{Args, Parser, Subcommand, ValueEnum};
 
 use stackup_lint::baseline::Baseline;
 use stackup_lint::engine::{self, CheckOptions};
@@ -68,15 +68,8 @@ enum Command {
     Check {
         /// Files or directories to check [default: .]
         paths: Vec<PathBuf>,
-        /// File-name suffix that marks a stackup file when walking directories
-        #[arg(long, default_value = ".stackup.yaml")]
-        suffix: String,
-        /// Only check files matching this glob (repeatable)
-        #[arg(long, value_name = "GLOB")]
-        include: Vec<String>,
-        /// Skip files matching this glob (repeatable)
-        #[arg(long, value_name = "GLOB")]
-        exclude: Vec<String>,
+        #[command(flatten)]
+        walk: WalkArgs,
         /// Lowest severity that makes the run fail (exit code 1)
         #[arg(long, value_enum, default_value = "error")]
         fail_on: FailOn,
@@ -151,6 +144,31 @@ enum Command {
     },
 }
 
+/// Which files a directory walk picks.
+#[derive(Args)]
+struct WalkArgs {
+    /// File-name suffix that marks a stackup file when walking directories
+    #[arg(long, default_value = ".stackup.yaml")]
+    suffix: String,
+    /// Only check files matching this glob (repeatable)
+    #[arg(long, value_name = "GLOB")]
+    include: Vec<String>,
+    /// Skip files matching this glob (repeatable)
+    #[arg(long, value_name = "GLOB")]
+    exclude: Vec<String>,
+}
+
+impl WalkArgs {
+    fn options(self) -> WalkOptions {
+        WalkOptions {
+            suffix: self.suffix,
+            include: self.include,
+            exclude: self.exclude,
+            ..WalkOptions::default()
+        }
+    }
+}
+
 #[derive(Subcommand)]
 enum BaselineAction {
     /// Check the stackups and write their findings to a baseline file
@@ -160,6 +178,8 @@ enum BaselineAction {
         /// The baseline file to write
         #[arg(short, long, value_name = "FILE")]
         output: PathBuf,
+        #[command(flatten)]
+        walk: WalkArgs,
     },
 }
 
@@ -168,8 +188,13 @@ fn main() -> ExitCode {
     stackup_lint::analysis::cache::from_env(cli.no_cache);
     match cli.command {
         Command::Baseline {
-            action: BaselineAction::Write { paths, output },
-        } => baseline_write(paths, &output),
+            action:
+                BaselineAction::Write {
+                    paths,
+                    output,
+                    walk,
+                },
+        } => baseline_write(paths, &output, walk.options()),
         Command::Impedance {
             paths,
             format,
@@ -226,9 +251,7 @@ fn main() -> ExitCode {
         },
         Command::Check {
             paths,
-            suffix,
-            include,
-            exclude,
+            walk,
             fail_on,
             format,
             sarif: sarif_path,
@@ -255,12 +278,7 @@ fn main() -> ExitCode {
                 paths
             };
             let opts = CheckOptions {
-                walk: WalkOptions {
-                    suffix,
-                    include,
-                    exclude,
-                    ..WalkOptions::default()
-                },
+                walk: walk.options(),
                 limits: InputLimits {
                     max_file_bytes: max_file_size,
                     yaml: YamlLimits {
@@ -405,14 +423,18 @@ fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCo
 
 /// `baseline write`: check with default options, record the findings.
 /// Input errors are never baselined: they are printed and nothing is written.
-fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path) -> ExitCode {
+fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path, walk: WalkOptions) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
         paths
     };
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
-    let outcome = match engine::check_paths(&paths, &base, &CheckOptions::default()) {
+    let opts = CheckOptions {
+        walk,
+        ..CheckOptions::default()
+    };
+    let outcome = match engine::check_paths(&paths, &base, &opts) {
         Ok(o) => o,
         Err(e) => {
             eprintln!("error: {e}");

@@ -322,3 +322,48 @@ fn input_errors_are_never_baselined() {
         .filter(|f| f["rule"] == "invalid-input")
         .all(|f| f["baselined"] == false));
 }
+
+#[test]
+fn baseline_write_walks_like_check() {
+    // The same --include/--exclude/--suffix as `check`: excluding the flawed
+    // board leaves only the clean one, so nothing is recorded.
+    let dir = tempfile::tempdir().unwrap();
+    let out = dir.path().join("b.json");
+    let o = run(
+        root(),
+        &[
+            "baseline",
+            "write",
+            "examples",
+            "--exclude",
+            "**/line-card-10l/**",
+            "-o",
+            out.to_str().unwrap(),
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    let b: Value = serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+    assert_eq!(b["findings"].as_array().unwrap().len(), 0, "{b}");
+    let o = run(
+        root(),
+        &[
+            "baseline",
+            "write",
+            "examples",
+            "--include",
+            "**/line-card-10l/*",
+            "-o",
+            out.to_str().unwrap(),
+        ],
+    );
+    assert_eq!(o.status.code(), Some(0), "{o:?}");
+    let b: Value = serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+    let files: Vec<&str> = b["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["file"].as_str().unwrap())
+        .collect();
+    assert!(!files.is_empty());
+    assert!(files.iter().all(|f| f.contains("line-card-10l")), "{files:?}");
+}

@@ -57,6 +57,9 @@ pub fn material_plot(
     marks: &[(String, f64)],
 ) -> Result<String, String> {
     let (f0, f1) = span(m, model, marks);
+    if !(f0.is_finite() && f1.is_finite() && f1 > f0) {
+        return Err(format!("no drawable frequency range ({f0:e} to {f1:e} Hz)"));
+    }
     let n = 240;
     let curve: Vec<(f64, f64, f64)> = (0..=n)
         .map(|i| {
@@ -85,6 +88,9 @@ pub fn material_plot(
     let (dk0, dk1) = padded(dk0, dk1, 0.05);
     let (df0, df1) = padded(df0, df1, 0.0005);
     let df0 = df0.max(0.0);
+    if ![dk0, dk1, df0, df1].iter().all(|v| v.is_finite()) || dk1 <= dk0 || df1 <= df0 {
+        return Err("no drawable Dk or Df range".into());
+    }
 
     let mut buf = String::new();
     {
