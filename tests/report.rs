@@ -268,3 +268,73 @@ fn bad_input_writes_nothing() {
     assert!(stderr.contains("is a materials library"), "{stderr}");
     assert!(!out.exists());
 }
+
+#[test]
+fn a_200_layer_board_gives_a_complete_readable_drawing() {
+    // 100 copper layers (planes and signal layers alternating in pairs) and
+    // 99 dielectrics with 25 um and 400 um plies mixed, so labels of thin
+    // layers must be pushed apart; a stripline class every 10th signal layer.
+    let mut y = String::from(
+        "stackup-lint: 1\nboard: 199-layer drawing test\nmaterials:\n  fr4: {dk: 4.2, df: 0.018, frequency: 1 GHz}\nlayers:\n",
+    );
+    let mut classes = String::from("net-classes:\n");
+    for k in 0..100 {
+        let role = if k % 2 == 0 { "plane" } else { "signal" };
+        y.push_str(&format!(
+            "  - name: C{k}\n    copper: {{role: {role}, thickness: 17.5 um}}\n"
+        ));
+        if k % 20 == 1 {
+            classes.push_str(&format!(
+                "  - {{name: s{k}, structure: stripline, layer: C{k}, width: 0.1 mm}}\n"
+            ));
+        }
+        if k < 99 {
+            let (kind, t) = if k % 3 == 0 {
+                ("core", "400 um")
+            } else {
+                ("prepreg", "25 um")
+            };
+            y.push_str(&format!(
+                "  - name: D{k}\n    dielectric: {{kind: {kind}, material: fr4, thickness: {t}}}\n"
+            ));
+        }
+    }
+    y.push_str(&classes);
+    let dir = tempfile::tempdir().unwrap();
+    let file = dir.path().join("tall.stackup.yaml");
+    std::fs::write(&file, y).unwrap();
+    let out = dir.path().join("out");
+    let (code, stdout, stderr) = run(
+        &[
+            "report",
+            file.to_str().unwrap(),
+            "-o",
+            out.to_str().unwrap(),
+        ],
+        &dir.path().join("cache"),
+    );
+    assert_eq!(code, Some(0), "{stdout}{stderr}");
+    for name in ["tall-cross-section.svg", "tall-cross-section-to-scale.svg"] {
+        let svg = std::fs::read_to_string(out.join(name)).unwrap();
+        assert_eq!(
+            layer_heights(&svg).len(),
+            199,
+            "{name}: one rectangle per layer"
+        );
+        // Labels never overlap: their baselines are at least one line apart.
+        let doc = roxmltree::Document::parse(&svg).unwrap();
+        let mut ys: Vec<f64> = doc
+            .descendants()
+            .filter(|n| n.attribute("class") == Some("label"))
+            .map(|n| n.attribute("y").unwrap().parse().unwrap())
+            .collect();
+        assert_eq!(ys.len(), 199);
+        let sorted = ys.windows(2).all(|w| w[1] > w[0]);
+        assert!(sorted, "{name}: labels out of layer order");
+        ys.dedup();
+        assert!(
+            ys.windows(2).all(|w| w[1] - w[0] >= 14.9),
+            "{name}: overlapping labels"
+        );
+    }
+}
