@@ -194,6 +194,74 @@ fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
     }
 }
 
+/// The build table: every layer with its thickness in µm and mil, copper
+/// weight, material or foils, and the running height from the bottom.
+fn layer_table(s: &Stackup) -> Table {
+    use crate::input::units::ounce_thickness;
+    use crate::model::LayerKind;
+    let mut t = Table::new(&[
+        "#",
+        "layer",
+        "kind",
+        "material / copper",
+        "thickness µm",
+        "thickness mil",
+        "lower face at mm",
+    ]);
+    let total = s.total_thickness();
+    let mut above = 0.0;
+    for (k, layer) in s.layers.iter().enumerate() {
+        let th = s.thickness(k);
+        let (kind, what) = match &layer.kind {
+            LayerKind::Copper(c) => {
+                let mut what = format!("{:.2} oz", c.thickness / ounce_thickness());
+                if let Some(fill) = c.fill {
+                    let _ = write!(what, ", {:.0} % copper", fill * 100.0);
+                }
+                if c.plated {
+                    what.push_str(", plated");
+                }
+                for (dir, face) in [("up", &c.up), ("down", &c.down)] {
+                    if let Some(f) = face {
+                        let _ = write!(what, "; {dir}: {}", f.side.as_str());
+                        if let Some(foil) = &f.foil {
+                            let _ = write!(what, " ({foil})");
+                        }
+                    }
+                }
+                (format!("copper, {}", c.role.as_str()), what)
+            }
+            LayerKind::Dielectric(d) => {
+                let mut what = d.material.clone();
+                if let Some(g) = &d.glass_style {
+                    let _ = write!(what, ", {g}");
+                }
+                if let Some(rc) = d.resin_content {
+                    let _ = write!(what, ", {:.0} % resin", rc * 100.0);
+                }
+                if let Some(n) = d.nominal_thickness {
+                    let _ = write!(what, "; nominal {}", fmt_length(n));
+                }
+                (d.kind.as_str().to_string(), what)
+            }
+        };
+        above += th;
+        t.push(
+            vec![
+                (k + 1).to_string(),
+                layer.name.clone(),
+                kind,
+                what,
+                format!("{:.1}", th * 1e6),
+                format!("{:.2}", th / 25.4e-6),
+                format!("{:.3}", (total - above) * 1e3),
+            ],
+            None,
+        );
+    }
+    t
+}
+
 fn cross_section_section(
     s: &Stackup,
     a: &Analysis,
@@ -213,11 +281,16 @@ fn cross_section_section(
         },
         svg: svg::cross_section(s, a, rows, to_scale),
     };
-    let mut blocks = vec![Block::CrossSection {
-        readable: fig(false),
-        scaled: fig(true),
-        to_scale: opts.to_scale,
-    }];
+    let mut blocks = vec![
+        Block::CrossSection {
+            readable: fig(false),
+            scaled: fig(true),
+            to_scale: opts.to_scale,
+        },
+        Block::Heading("Layers".into()),
+        Block::Table(layer_table(s)),
+        Block::Note("Top to bottom as built; dielectric thickness as pressed. 1 mil = 25.4 µm; copper weight in ounces (1 oz = 28.35 g of copper over one square foot, 34.3 µm); the last column is the height of each layer's lower face above the bottom of the board.".into()),
+    ];
     let mut t = Table::new(&[
         "layer",
         "kind",
