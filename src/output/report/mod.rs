@@ -234,7 +234,7 @@ fn layer_table(s: &Stackup) -> Table {
             LayerKind::Dielectric(d) => {
                 let mut what = d.material.clone();
                 if let Some(g) = &d.glass_style {
-                    let _ = write!(what, ", {g}");
+                    let _ = write!(what, ", {g} glass");
                 }
                 if let Some(rc) = d.resin_content {
                     let _ = write!(what, ", {:.0} % resin", rc * 100.0);
