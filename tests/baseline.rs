@@ -365,5 +365,8 @@ fn baseline_write_walks_like_check() {
         .map(|f| f["file"].as_str().unwrap())
         .collect();
     assert!(!files.is_empty());
-    assert!(files.iter().all(|f| f.contains("line-card-10l")), "{files:?}");
+    assert!(
+        files.iter().all(|f| f.contains("line-card-10l")),
+        "{files:?}"
+    );
 }
