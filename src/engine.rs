@@ -56,9 +56,16 @@ pub fn lint(loaded: load::Loaded) -> CheckOutcome {
 fn lint_inner(loaded: load::Loaded, keep: bool) -> (CheckOutcome, Vec<(Stackup, Analysis)>) {
     let mut findings = loaded.problems;
     let mut kept = Vec::new();
-    for s in loaded.stackups {
-        let analysis = crate::analysis::analyze(&s);
-        findings.extend(rules::run(&s, &analysis, &loaded.db));
+    // Files are independent: analyse and lint them on the solver threads,
+    // results taken back in file order.
+    let db = &loaded.db;
+    let done = crate::analysis::in_parallel(&loaded.stackups, |s| {
+        let analysis = crate::analysis::analyze(s);
+        let found = rules::run(s, &analysis, db);
+        (analysis, found)
+    });
+    for (s, (analysis, found)) in loaded.stackups.into_iter().zip(done) {
+        findings.extend(found);
         if keep {
             kept.push((s, analysis));
         }

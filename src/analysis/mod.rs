@@ -238,8 +238,9 @@ fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, 
     out
 }
 
-/// Map `f` over `items` on the solver threads; results in input order.
-fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) -> Vec<R> {
+/// Map `f` over `items` on the solver threads (`--threads`); results in
+/// input order, so output does not depend on the thread count.
+pub fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) -> Vec<R> {
     let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
     let threads = if wanted > 0 {
         wanted
