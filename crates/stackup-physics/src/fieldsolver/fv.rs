@@ -12,8 +12,9 @@
 use faer::dyn_stack::{MemBuffer, MemStack};
 use faer::perm::PermRef;
 use faer::sparse::linalg::cholesky::{
-    factorize_symbolic_cholesky, SymbolicCholesky, SymmetricOrdering,
+    factorize_symbolic_cholesky, CholeskySymbolicParams, SymbolicCholesky, SymmetricOrdering,
 };
+use faer::sparse::linalg::SupernodalThreshold;
 use faer::sparse::{SparseColMat, SymbolicSparseColMat};
 use faer::{Conj, Mat, Par, Side};
 
@@ -194,7 +195,10 @@ impl<'g> Solver<'g> {
             pattern.as_ref(),
             Side::Lower,
             SymmetricOrdering::Custom(perm),
-            Default::default(),
+            CholeskySymbolicParams {
+                supernodal_flop_ratio_threshold: SupernodalThreshold::FORCE_SUPERNODAL,
+                ..Default::default()
+            },
         )
         .map_err(|e| format!("symbolic factorisation failed: {e:?}"))?;
         Ok(Solver {
