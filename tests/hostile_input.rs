@@ -113,10 +113,14 @@ fn thousand_levels_of_nesting_are_refused() {
         assert_eq!(out.status.code(), Some(2), "{name}");
         let m = messages(&out);
         assert_eq!(m.len(), 1, "{name}: {m:?}");
-        assert!(
-            m[0].contains("nests deeper than 64 levels"),
-            "{name}: {m:?}"
-        );
+        // Block nesting meets our depth limit; deep flow nesting meets the
+        // YAML parser's own recursion limit first, which the message names.
+        let want = if name == "flow" {
+            "recursion limit exceeded"
+        } else {
+            "nests deeper than 64 levels"
+        };
+        assert!(m[0].contains(want), "{name}: {m:?}");
     }
 }
 
