@@ -254,6 +254,14 @@ fn next<'i>(
                     });
                 }
             }
+            // The scanner's own guard against deep flow nesting (`[[[…`)
+            // fires before our depth budget can.
+            if info.contains("recursion limit") {
+                return Err(YamlError {
+                    message: "the YAML nests too deeply: flow collections (`[` / `{`) are nested beyond the parser's limit; a stackup needs only a few levels".into(),
+                    span: at..at,
+                });
+            }
             let hint = if info.contains("did not find expected key") {
                 " (check the indentation of this line against the lines above)"
             } else {
