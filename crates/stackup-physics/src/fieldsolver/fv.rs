@@ -31,8 +31,6 @@ pub(crate) enum Node {
 pub(crate) struct Grid {
     pub xs: Vec<f64>,
     pub ys: Vec<f64>,
-    /// Relative permittivity per cell, row-major (j * (nx-1) + i).
-    pub eps: Vec<f64>,
     /// Node kinds, row-major (j * nx + i).
     pub nodes: Vec<Node>,
     /// Number of free nodes.
@@ -48,17 +46,13 @@ impl Grid {
     fn ny(&self) -> usize {
         self.ys.len()
     }
-    fn eps_cell(&self, i: usize, j: usize, vacuum: bool) -> f64 {
-        if vacuum {
-            1.0
-        } else {
-            self.eps[j * (self.nx() - 1) + i]
-        }
-    }
-
     /// Link coefficients (dimensionless; ×ε0 gives F/m per volt): `east[p]`
-    /// couples node p to p + 1, `north[p]` couples p to p + nx.
-    fn links(&self, vacuum: bool) -> (Vec<f64>, Vec<f64>) {
+    /// couples node p to p + 1, `north[p]` couples p to p + nx. `eps` is the
+    /// relative permittivity per cell, row-major (j * (nx-1) + i); `None`
+    /// is vacuum.
+    fn links(&self, eps: Option<&[f64]>) -> (Vec<f64>, Vec<f64>) {
+        let ncx = self.nx() - 1;
+        let eps_cell = |i: usize, j: usize| eps.map_or(1.0, |e| e[j * ncx + i]);
         let (nx, ny) = (self.nx(), self.ny());
         let mut east = vec![0.0; nx * ny];
         let mut north = vec![0.0; nx * ny];
@@ -69,10 +63,10 @@ impl Grid {
                     let dx = self.xs[i + 1] - self.xs[i];
                     let mut s = 0.0;
                     if j > 0 {
-                        s += self.eps_cell(i, j - 1, vacuum) * (self.ys[j] - self.ys[j - 1]) * 0.5;
+                        s += eps_cell(i, j - 1) * (self.ys[j] - self.ys[j - 1]) * 0.5;
                     }
                     if j + 1 < ny {
-                        s += self.eps_cell(i, j, vacuum) * (self.ys[j + 1] - self.ys[j]) * 0.5;
+                        s += eps_cell(i, j) * (self.ys[j + 1] - self.ys[j]) * 0.5;
                     }
                     east[p] = s / dx;
                 }
@@ -80,10 +74,10 @@ impl Grid {
                     let dy = self.ys[j + 1] - self.ys[j];
                     let mut s = 0.0;
                     if i > 0 {
-                        s += self.eps_cell(i - 1, j, vacuum) * (self.xs[i] - self.xs[i - 1]) * 0.5;
+                        s += eps_cell(i - 1, j) * (self.xs[i] - self.xs[i - 1]) * 0.5;
                     }
                     if i + 1 < nx {
-                        s += self.eps_cell(i, j, vacuum) * (self.xs[i + 1] - self.xs[i]) * 0.5;
+                        s += eps_cell(i, j) * (self.xs[i + 1] - self.xs[i]) * 0.5;
                     }
                     north[p] = s / dy;
                 }
@@ -149,6 +143,15 @@ pub(crate) struct Solver<'g> {
     symbolic: SymbolicCholesky<usize>,
     col_ptr: Vec<usize>,
     row_idx: Vec<usize>,
+    /// Factor values and workspaces, allocated once and reused by every
+    /// factorisation on this pattern (dielectric members and vacuum).
+    work: std::cell::RefCell<Work>,
+}
+
+struct Work {
+    l_values: Vec<f64>,
+    factor: MemBuffer,
+    solve: MemBuffer,
 }
 
 impl<'g> Solver<'g> {
@@ -201,23 +204,41 @@ impl<'g> Solver<'g> {
             },
         )
         .map_err(|e| format!("symbolic factorisation failed: {e:?}"))?;
+        let oom = |_| "out of memory for the factorisation workspace".to_string();
+        let factor = MemBuffer::try_new(
+            symbolic.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()),
+        )
+        .map_err(oom)?;
+        let solve =
+            MemBuffer::try_new(symbolic.solve_in_place_scratch::<f64>(grid.n_cond, Par::Seq))
+                .map_err(oom)?;
+        let work = std::cell::RefCell::new(Work {
+            l_values: vec![0.0; symbolic.len_val()],
+            factor,
+            solve,
+        });
         Ok(Solver {
             grid,
             symbolic,
             col_ptr,
             row_idx,
+            work,
         })
     }
 
     /// Maxwell capacitance matrix (row-major n_cond × n_cond) divided by ε0,
-    /// with the dielectrics (`vacuum = false`) or in vacuum.
-    pub fn capacitance(&self, vacuum: bool) -> Result<Vec<f64>, String> {
+    /// with the cell permittivities `eps` (row-major, (nx-1)·(ny-1)) or in
+    /// vacuum (`None`).
+    pub fn capacitance(&self, eps: Option<&[f64]>) -> Result<Vec<f64>, String> {
         let g = self.grid;
         let n = g.n_free;
         let nc = g.n_cond;
         let nx = g.nx();
         let nn = g.nodes.len();
-        let (east, north) = g.links(vacuum);
+        if eps.is_some_and(|e| e.len() != (nx - 1) * (g.ny() - 1)) {
+            return Err("internal error: permittivity map does not fit the mesh".into());
+        }
+        let (east, north) = g.links(eps);
         // Neighbours of node p with their coefficients.
         let neighbours = |p: usize| {
             let i = p % nx;
@@ -274,26 +295,25 @@ impl<'g> Solver<'g> {
         );
         let a = SparseColMat::<usize, f64>::new(pattern, val);
         let sym = &self.symbolic;
-        let mut l_values = vec![0.0f64; sym.len_val()];
-        let mut buf = MemBuffer::try_new(
-            sym.factorize_numeric_llt_scratch::<f64>(Par::Seq, Default::default()),
-        )
-        .map_err(|_| "out of memory for the factorisation workspace".to_string())?;
+        let mut work = self.work.borrow_mut();
+        let Work {
+            l_values,
+            factor,
+            solve,
+        } = &mut *work;
         let llt = sym
             .factorize_numeric_llt::<f64>(
-                &mut l_values,
+                l_values,
                 a.as_ref(),
                 Side::Lower,
                 Default::default(),
                 Par::Seq,
-                MemStack::new(&mut buf),
+                MemStack::new(factor),
                 Default::default(),
             )
             .map_err(|e| format!("Cholesky factorisation failed: {e:?}"))?;
         let mut phi = rhs;
-        let mut sbuf = MemBuffer::try_new(sym.solve_in_place_scratch::<f64>(nc, Par::Seq))
-            .map_err(|_| "out of memory for the solve workspace".to_string())?;
-        llt.solve_in_place_with_conj(Conj::No, phi.as_mut(), Par::Seq, MemStack::new(&mut sbuf));
+        llt.solve_in_place_with_conj(Conj::No, phi.as_mut(), Par::Seq, MemStack::new(solve));
         // Charge on conductor k for excitation m: Σ a (φ_k − φ_other) over the
         // links that leave conductor k's nodes.
         let mut c = vec![0.0; nc * nc];
@@ -358,7 +378,6 @@ mod tests {
         let grid = Grid {
             xs: (0..nx).map(|i| i as f64).collect(),
             ys: (0..ny).map(|j| j as f64).collect(),
-            eps: vec![1.0; (nx - 1) * (ny - 1)],
             nodes,
             n_free,
             n_cond: 1,

@@ -58,6 +58,24 @@ pub(crate) fn dedup_sorted(mut v: Vec<f64>, tol: f64) -> Vec<f64> {
     out
 }
 
+/// Merges two ascending lists into one ascending list (ties: `x` first).
+fn merge_sorted(x: &[f64], y: &[f64]) -> Vec<f64> {
+    let mut out = Vec::with_capacity(x.len() + y.len());
+    let (mut i, mut j) = (0, 0);
+    while i < x.len() && j < y.len() {
+        if y[j].total_cmp(&x[i]).is_lt() {
+            out.push(y[j]);
+            j += 1;
+        } else {
+            out.push(x[i]);
+            i += 1;
+        }
+    }
+    out.extend_from_slice(&x[i..]);
+    out.extend_from_slice(&y[j..]);
+    out
+}
+
 /// Builds the base (level-1) lines of one axis. Each interval between key
 /// lines is filled by equidistributing 1/size, so cell sizes vary smoothly.
 #[cfg(test)]
@@ -98,17 +116,19 @@ pub(crate) fn lines_with_counts(
         let len = b - a;
         // Sample points clustered geometrically at both ends, where the size
         // function is smallest (all singular coordinates are key lines).
-        let mut xs_s = vec![a, b];
+        // Three ascending runs (near a, uniform, near b) merged in order:
+        // the same points a full sort would give, without sorting.
+        let mut near_a = vec![a];
+        let mut near_b = vec![b];
         let mut d = len * 1e-7;
         while d < 0.5 * len {
-            xs_s.push(a + d);
-            xs_s.push(b - d);
+            near_a.push(a + d);
+            near_b.push(b - d);
             d *= 1.1;
         }
-        for k in 1..32 {
-            xs_s.push(a + len * k as f64 / 32.0);
-        }
-        xs_s.sort_by(f64::total_cmp);
+        near_b.reverse();
+        let uniform: Vec<f64> = (1..32).map(|k| a + len * k as f64 / 32.0).collect();
+        let xs_s = merge_sorted(&merge_sorted(&near_a, &uniform), &near_b);
         // cumulative integral of 1/size (trapezoid rule)
         let mut cum = Vec::with_capacity(xs_s.len());
         cum.push(0.0);

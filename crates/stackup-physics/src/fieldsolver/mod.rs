@@ -191,6 +191,12 @@ pub struct SolverOptions {
     pub wall_factor_closed: f64,
     /// Side-wall and lid distance for open sections, in the same unit.
     pub wall_factor_open: f64,
+    /// Solve mirror-symmetric sections (one trace centred on x = 0, or a
+    /// pair placed symmetrically, with symmetric blocks) on the half
+    /// x ≥ 0 only: a magnetic wall (zero normal field) on x = 0 for the
+    /// even excitation and an electric wall (0 V) for the odd one. Exact
+    /// by symmetry; about a third of the work for one trace.
+    pub mirror: bool,
 }
 
 impl Default for SolverOptions {
@@ -205,6 +211,7 @@ impl Default for SolverOptions {
             assumed_order: 2.0,
             wall_factor_closed: 8.0,
             wall_factor_open: 40.0,
+            mirror: true,
         }
     }
 }
@@ -349,6 +356,8 @@ fn eps_ok(name: &str, v: f64) -> Result<(), SolveError> {
 /// Checked geometry with the derived box.
 struct Prepared<'a> {
     cs: &'a CrossSection,
+    /// Mesh the half x ≥ 0 only (see `SolverOptions::mirror`).
+    mirror: bool,
     grounds: Vec<Trace>,
     /// Tolerance for coordinate comparisons.
     tol: f64,
@@ -676,13 +685,51 @@ fn prepare<'a>(cs: &'a CrossSection, opt: &SolverOptions) -> Result<Prepared<'a>
         h_far: (near / (2.0 * d)).max(h_fine) * 1e3,
         min_cells: 2,
     };
+    let mirror = opt.mirror && mirror_symmetric(cs, tol);
+    let mut xspec = xspec;
+    if mirror {
+        xspec.lo = 0.0;
+        xspec.keys.retain(|&x| x >= -tol);
+        xspec.keys.push(0.0);
+        xspec.singular.retain(|&x| x >= -tol);
+    }
     Ok(Prepared {
         cs,
+        mirror,
         grounds,
         tol,
         xspec,
         yspec,
     })
+}
+
+/// Whether `cs` is its own mirror image in x = 0 with every trace either
+/// centred on it (one trace) or clear of it (a pair): conductors, blocks
+/// (and so the coplanar grounds, placed from the traces' edges).
+fn mirror_symmetric(cs: &CrossSection, tol: f64) -> bool {
+    let close = |a: f64, b: f64| (a - b).abs() <= tol;
+    let conductors = match cs.conductors.as_slice() {
+        [a] => close(a.x_center, 0.0),
+        [a, b] => {
+            close(a.x_center, -b.x_center)
+                && a.y_bottom == b.y_bottom
+                && a.width_bottom == b.width_bottom
+                && a.width_top == b.width_top
+                && a.thickness == b.thickness
+                && b.x_min() > tol
+        }
+        _ => false,
+    };
+    conductors
+        && cs.blocks.iter().all(|b| {
+            cs.blocks.iter().any(|c| {
+                close(b.x0, -c.x1)
+                    && close(b.x1, -c.x0)
+                    && b.y0 == c.y0
+                    && b.y1 == c.y1
+                    && b.eps_r == c.eps_r
+            })
+        })
 }
 
 fn inside(t: &Trace, x: f64, y: f64, tol: f64) -> bool {
@@ -692,13 +739,10 @@ fn inside(t: &Trace, x: f64, y: f64, tol: f64) -> bool {
     (x - t.x_center).abs() <= t.half_width_at(y) + tol
 }
 
-fn build_grid(p: &Prepared, xs: Vec<f64>, ys: Vec<f64>) -> Result<Grid, SolveError> {
+/// Relative permittivity of every cell (row-major, (nx-1)·(ny-1)) of the
+/// mesh `xs` × `ys` for the layers and blocks of `cs`.
+fn cell_eps(cs: &CrossSection, xs: &[f64], ys: &[f64]) -> Vec<f64> {
     let (nx, ny) = (xs.len(), ys.len());
-    if nx < 3 || ny < 3 {
-        return Err(SolveError::new("mesh too small"));
-    }
-    let cs = p.cs;
-    // permittivity per cell
     let mut eps = vec![1.0; (nx - 1) * (ny - 1)];
     let mut bounds = Vec::with_capacity(cs.layers.len());
     let mut acc = 0.0;
@@ -724,19 +768,42 @@ fn build_grid(p: &Prepared, xs: Vec<f64>, ys: Vec<f64>) -> Result<Grid, SolveErr
             eps[j * (nx - 1) + i] = e;
         }
     }
+    eps
+}
+
+/// The mesh `xs` × `ys` with every node marked free or fixed (box walls,
+/// planes, grounds, conductors) for the conductors of `p`. For a mirrored
+/// section only the traces reaching into x ≥ 0 are placed, and the nodes on
+/// x = 0 are grounded (`electric_wall`, odd excitation) or free (even).
+fn build_grid(
+    p: &Prepared,
+    xs: Vec<f64>,
+    ys: Vec<f64>,
+    electric_wall: bool,
+) -> Result<Grid, SolveError> {
+    let (nx, ny) = (xs.len(), ys.len());
+    if nx < 3 || ny < 3 {
+        return Err(SolveError::new("mesh too small"));
+    }
+    let conductors: Vec<&Trace> =
+        p.cs.conductors
+            .iter()
+            .filter(|t| !p.mirror || t.x_max() > 0.0)
+            .collect();
     // node kinds
     let mut nodes = vec![Node::Free(0); nx * ny];
     let mut n_free = 0;
-    let mut count = vec![0usize; cs.conductors.len()];
+    let mut count = vec![0usize; conductors.len()];
     for j in 0..ny {
         for i in 0..nx {
             let (x, y) = (xs[i], ys[j]);
-            let boundary = i == 0 || j == 0 || i == nx - 1 || j == ny - 1;
+            let wall_left = i == 0 && (!p.mirror || electric_wall);
+            let boundary = wall_left || j == 0 || i == nx - 1 || j == ny - 1;
             let mut kind = None;
             if boundary {
                 kind = Some(0);
             }
-            for (k, t) in cs.conductors.iter().enumerate() {
+            for (k, t) in conductors.iter().enumerate() {
                 if inside(t, x, y, p.tol) {
                     if boundary {
                         return Err(SolveError::new(format!(
@@ -767,10 +834,9 @@ fn build_grid(p: &Prepared, xs: Vec<f64>, ys: Vec<f64>) -> Result<Grid, SolveErr
     Ok(Grid {
         xs,
         ys,
-        eps,
         nodes,
         n_free,
-        n_cond: cs.conductors.len(),
+        n_cond: conductors.len(),
     })
 }
 
@@ -854,27 +920,33 @@ fn level_lines(
 /// Cells per key interval (x, y) at every level.
 type Topology = Vec<(Vec<usize>, Vec<usize>)>;
 
-/// Per-level capacitance matrices (÷ε0) with dielectrics and in vacuum,
+/// Per-level capacitance matrices (÷ε0): with the dielectrics of each
+/// member section (`c[member][level]`) and in vacuum (`c0[level]`), the
 /// unknowns of the finest mesh, and the mesh topology used.
 struct Levels {
-    c: Vec<Vec<f64>>,
+    c: Vec<Vec<Vec<f64>>>,
     c0: Vec<Vec<f64>>,
     unknowns: usize,
     topology: Topology,
 }
 
+/// Runs every refinement level of `p`'s mesh: one vacuum solve and one
+/// solve per entry of `members` (sections sharing `p`'s conductors, whose
+/// dielectrics are painted on the same mesh), all on one symbolic
+/// factorisation per level (two for a mirrored pair: even and odd).
 fn run_levels(
     p: &Prepared,
+    members: &[&CrossSection],
     opt: &SolverOptions,
-    with_dielectric: bool,
     topology: Option<&Topology>,
 ) -> Result<Levels, SolveError> {
     let mut out = Levels {
-        c: Vec::new(),
+        c: vec![Vec::new(); members.len()],
         c0: Vec::new(),
         unknowns: 0,
         topology: Vec::new(),
     };
+    let n = p.cs.conductors.len();
     for (l, &m) in opt.refinements.iter().enumerate() {
         let (cx, cy) = match topology.and_then(|t| t.get(l)) {
             Some((cx, cy)) => (Some(cx.as_slice()), Some(cy.as_slice())),
@@ -883,15 +955,52 @@ fn run_levels(
         let (xs, ux) = level_lines(&p.xspec, m, p.tol, cx)?;
         let (ys, uy) = level_lines(&p.yspec, m, p.tol, cy)?;
         out.topology.push((ux, uy));
-        let grid = build_grid(p, xs, ys)?;
-        out.unknowns = grid.n_free;
-        let solver = Solver::new(&grid).map_err(SolveError::new)?;
-        if with_dielectric {
-            out.c
-                .push(solver.capacitance(false).map_err(SolveError::new)?);
+        // Excitations: the whole section, or the even (magnetic wall) and,
+        // for a pair, odd (electric wall) halves.
+        let walls: &[bool] = match (p.mirror, n) {
+            (false, _) => &[false],
+            (true, 1) => &[false],
+            _ => &[false, true],
+        };
+        let mut per_wall: Vec<(Vec<Vec<f64>>, Vec<f64>)> = Vec::new();
+        out.unknowns = 0;
+        for &electric in walls {
+            let grid = build_grid(p, xs.clone(), ys.clone(), electric)?;
+            out.unknowns += grid.n_free;
+            let solver = Solver::new(&grid).map_err(SolveError::new)?;
+            let mut cm = Vec::with_capacity(members.len());
+            for cs in members {
+                let eps = cell_eps(cs, &grid.xs, &grid.ys);
+                cm.push(solver.capacitance(Some(&eps)).map_err(SolveError::new)?);
+            }
+            let c0 = solver.capacitance(None).map_err(SolveError::new)?;
+            per_wall.push((cm, c0));
         }
-        out.c0
-            .push(solver.capacitance(true).map_err(SolveError::new)?);
+        // Back to the whole section's Maxwell matrix.
+        let whole = |k: Option<usize>| -> Vec<f64> {
+            let q = |w: usize| match k {
+                Some(k) => per_wall[w].0[k][0],
+                None => per_wall[w].1[0],
+            };
+            match (p.mirror, n) {
+                (false, _) => match k {
+                    Some(k) => per_wall[0].0[k].clone(),
+                    None => per_wall[0].1.clone(),
+                },
+                // the half carries half the trace's charge
+                (true, 1) => vec![2.0 * q(0)],
+                // even: C11 + C12, odd: C11 − C12
+                _ => {
+                    let (e, o) = (q(0), q(1));
+                    let (cs, cm) = (0.5 * (e + o), 0.5 * (e - o));
+                    vec![cs, cm, cm, cs]
+                }
+            }
+        };
+        for k in 0..members.len() {
+            out.c[k].push(whole(Some(k)));
+        }
+        out.c0.push(whole(None));
     }
     Ok(out)
 }
@@ -1011,12 +1120,77 @@ fn matmul(a: &[f64], b: &[f64], n: usize) -> Vec<f64> {
 ///
 /// Never panics on bad geometry; returns [`SolveError`] instead.
 pub fn solve(cs: &CrossSection, opt: &SolverOptions) -> Result<SolvedLine, SolveError> {
-    let p = prepare(cs, opt)?;
-    let n = cs.conductors.len();
-    let lv = run_levels(&p, opt, true, None)?;
-    let (c, ce) = extrapolate(&opt.refinements, &lv.c, opt.assumed_order, n);
+    let mut out = solve_family(std::slice::from_ref(cs), opt)?;
+    out.pop()
+        .ok_or_else(|| SolveError::new("internal error: no result"))
+}
+
+/// Solves several cross-sections that differ only in their dielectrics
+/// (layers and blocks): the same conductors, planes, coplanar grounds and
+/// stack height, as the smooth and the roughness-layer versions of one
+/// line. One mesh carries every member's interfaces (the union of their
+/// key lines), so the vacuum capacitance, the mesh and the symbolic
+/// factorisation are computed once; each member costs one numeric
+/// factorisation per level. Results are in the order of `members` and are
+/// the same as [`solve`] on each member meshed with the union's lines.
+///
+/// Errors: an empty list, members that differ beyond their dielectrics,
+/// or any error [`solve`] gives for a member.
+pub fn solve_family(
+    members: &[CrossSection],
+    opt: &SolverOptions,
+) -> Result<Vec<SolvedLine>, SolveError> {
+    let p = prepare_family(members, opt)?;
+    let n = members[0].conductors.len();
+    let refs: Vec<&CrossSection> = members.iter().collect();
+    let lv = run_levels(&p, &refs, opt, None)?;
     let (c0, c0e) = extrapolate(&opt.refinements, &lv.c0, opt.assumed_order, n);
-    finish(c, c0, ce, c0e, n, lv.unknowns)
+    lv.c.iter()
+        .map(|cm| {
+            let (c, ce) = extrapolate(&opt.refinements, cm, opt.assumed_order, n);
+            finish(c, c0.clone(), ce, c0e, n, lv.unknowns)
+        })
+        .collect()
+}
+
+/// The mesh description of a family: the first member's, with the key
+/// lines and layer caps of every other member added.
+fn prepare_family<'a>(
+    members: &'a [CrossSection],
+    opt: &SolverOptions,
+) -> Result<Prepared<'a>, SolveError> {
+    let first = members
+        .first()
+        .ok_or_else(|| SolveError::new("no cross-section to solve"))?;
+    let mut p = prepare(first, opt)?;
+    for m in &members[1..] {
+        let q = prepare(m, opt)?;
+        let same_box = [
+            (p.xspec.lo, q.xspec.lo),
+            (p.xspec.hi, q.xspec.hi),
+            (p.yspec.lo, q.yspec.lo),
+            (p.yspec.hi, q.yspec.hi),
+        ]
+        .iter()
+        .all(|(a, b)| (a - b).abs() <= p.tol);
+        if m.conductors != first.conductors
+            || m.bottom_plane != first.bottom_plane
+            || m.top_plane != first.top_plane
+            || m.coplanar_grounds != first.coplanar_grounds
+            || !same_box
+        {
+            return Err(SolveError::new(
+                "the cross-sections of a family must differ only in their dielectrics",
+            ));
+        }
+        for (ps, qs) in [(&mut p.xspec, q.xspec), (&mut p.yspec, q.yspec)] {
+            ps.keys.extend(qs.keys);
+            ps.caps.extend(qs.caps);
+            ps.h_fine = ps.h_fine.min(qs.h_fine);
+            ps.h_far = ps.h_far.min(qs.h_far);
+        }
+    }
+    Ok(p)
 }
 
 fn finish(
@@ -1087,7 +1261,7 @@ pub fn solve_vacuum(
     opt: &SolverOptions,
 ) -> Result<VacuumCapacitance, SolveError> {
     let p = prepare(cs, opt)?;
-    let lv = run_levels(&p, opt, false, None)?;
+    let lv = run_levels(&p, &[], opt, None)?;
     vacuum_result(&lv, opt, cs.conductors.len())
 }
 
@@ -1137,10 +1311,174 @@ pub fn solve_vacuum_pair(
     }
     let pa = prepare(a, opt)?;
     let pb = prepare(b, opt)?;
-    let la = run_levels(&pa, opt, false, None)?;
-    let lb = run_levels(&pb, opt, false, Some(&la.topology))?;
+    let la = run_levels(&pa, &[], opt, None)?;
+    let lb = run_levels(&pb, &[], opt, Some(&la.topology))?;
     let n = a.conductors.len();
     Ok((vacuum_result(&la, opt, n)?, vacuum_result(&lb, opt, n)?))
+}
+
+/// The coarsest mesh of a section (first refinement level), kept so that
+/// nearby sections (the same line at another width) can be meshed with the
+/// same topology: the same number of cells between corresponding key
+/// lines, the lines moving with the geometry.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CoarseMesh {
+    reference: CrossSection,
+    topology: Topology,
+    options: SolverOptions,
+}
+
+impl CoarseMesh {
+    /// The section the mesh was made for.
+    pub fn reference(&self) -> &CrossSection {
+        &self.reference
+    }
+}
+
+/// The coarse mesh of `cs` under `opt` (no solve; cheap).
+pub fn coarse_mesh(cs: &CrossSection, opt: &SolverOptions) -> Result<CoarseMesh, SolveError> {
+    let options = SolverOptions {
+        refinements: opt.refinements.first().copied().into_iter().collect(),
+        ..opt.clone()
+    };
+    let p = prepare(cs, &options)?;
+    let m = options.refinements[0];
+    let (_, ux) = level_lines(&p.xspec, m, p.tol, None)?;
+    let (_, uy) = level_lines(&p.yspec, m, p.tol, None)?;
+    Ok(CoarseMesh {
+        reference: cs.clone(),
+        topology: vec![(ux, uy)],
+        options,
+    })
+}
+
+/// Solves `cs` on one coarse mesh with the topology of `mesh` (no
+/// extrapolation; the error estimates are NaN). Its absolute error is that
+/// of the first level (a few per cent), but the ratio of two such results
+/// for nearby geometries on the same topology is accurate to far better,
+/// which is what [`width_for_target`] uses.
+///
+/// Errors: as [`solve`], or a section whose key lines do not match the
+/// topology (a different number of interfaces or edges).
+pub fn solve_coarse(cs: &CrossSection, mesh: &CoarseMesh) -> Result<SolvedLine, SolveError> {
+    let opt = &mesh.options;
+    let p = prepare(cs, opt)?;
+    let lv = run_levels(&p, &[cs], opt, Some(&mesh.topology))?;
+    let n = cs.conductors.len();
+    finish(
+        lv.c[0][0].clone(),
+        lv.c0[0].clone(),
+        0.0,
+        0.0,
+        n,
+        lv.unknowns,
+    )
+    .map(|mut r| {
+        r.z_rel_error = f64::NAN;
+        r.eps_rel_error = f64::NAN;
+        r
+    })
+}
+
+/// Secant search (e.g. W. H. Press et al., *Numerical Recipes*, 3rd ed.,
+/// 2007, §9.2) for the width at which `z_at(w)` meets `target`, from the
+/// width `w0` with impedance `z0`. The second point assumes Z ∝ w^(−1/2)
+/// locally (common practice, no source: the log-slope of stripline and
+/// microstrip impedance against width lies near −0.3 to −0.8 over the
+/// usual range), kept within 0.5 to 2 times `w0`. At most five evaluations
+/// of `z_at`; stops within 0.1 % of the target; steps stay within 0.3 to 3
+/// times `w0`. `None` if `z_at` fails or the inputs are not finite and
+/// positive.
+pub fn secant_width(
+    mut z_at: impl FnMut(f64) -> Option<f64>,
+    w0: f64,
+    z0: f64,
+    target: f64,
+) -> Option<f64> {
+    if ![w0, z0, target].iter().all(|v| v.is_finite() && *v > 0.0) {
+        return None;
+    }
+    let (mut wa, mut za) = (w0, z0);
+    let mut wb = w0 * (z0 / target).powi(2).clamp(0.5, 2.0);
+    let mut zb = z_at(wb)?;
+    for _ in 0..4 {
+        if (zb - za).abs() < 1e-9 * target || (zb - target).abs() < 0.001 * target {
+            break;
+        }
+        let w = wb + (target - zb) * (wb - wa) / (zb - za);
+        let w = w.clamp(0.3 * w0, 3.0 * w0);
+        wa = wb;
+        za = zb;
+        wb = w;
+        zb = z_at(wb)?;
+    }
+    Some(wb)
+}
+
+/// How [`width_for_target`] gets its solves (the caller may route them
+/// through a cache).
+pub trait WidthSolves {
+    /// A coarse solve of `cs` on `mesh` ([`solve_coarse`]).
+    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine>;
+    /// A full, extrapolated solve of `cs` ([`solve`]).
+    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine>;
+}
+
+/// [`WidthSolves`] calling the solver directly.
+pub struct DirectSolves<'a>(pub &'a SolverOptions);
+
+impl WidthSolves for DirectSolves<'_> {
+    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine> {
+        solve_coarse(cs, mesh).ok()
+    }
+    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine> {
+        solve(cs, self.0).ok()
+    }
+}
+
+/// Width at which the line `section_at(w)` has impedance `target`, where
+/// `z_of` reads the impedance of interest (Z0, or Z_diff of a pair) from a
+/// result, and `z0` is the accurate impedance at the current width `w0`.
+///
+/// The accurate impedance at an anchor width (first `w0`) is scaled by the
+/// ratio of coarse solves on the anchor's mesh topology,
+/// Z(w) = Z(w_a) · Z_coarse(w) / Z_coarse(w_a), searched by
+/// [`secant_width`]: the coarse mesh's discretisation error is nearly the
+/// same at both widths and cancels, at a small fraction of a full solve
+/// per step. Over a change of more than 10 % in width it cancels less
+/// well, so that width is then solved in full and becomes the next anchor
+/// (at most twice). The impedance at the result then lies within about
+/// 0.1 % of the target plus the solver's own error.
+pub fn width_for_target(
+    section_at: impl Fn(f64) -> CrossSection,
+    z_of: impl Fn(&SolvedLine) -> Option<f64>,
+    w0: f64,
+    z0: f64,
+    target: f64,
+    opt: &SolverOptions,
+    solves: &mut dyn WidthSolves,
+) -> Option<f64> {
+    let (mut wa, mut za) = (w0, z0);
+    for anchors_left in (0..3).rev() {
+        let reference = section_at(wa);
+        let mesh = coarse_mesh(&reference, opt).ok()?;
+        let z_ref = z_of(&solves.coarse(&reference, &mesh)?)?;
+        let w = secant_width(
+            |w| Some(za * z_of(&solves.coarse(&section_at(w), &mesh)?)? / z_ref),
+            wa,
+            za,
+            target,
+        )?;
+        if (w / wa - 1.0).abs() <= 0.1 || anchors_left == 0 {
+            return Some(w);
+        }
+        za = z_of(&solves.full(&section_at(w))?)?;
+        wa = w;
+        if (za - target).abs() < 0.001 * target {
+            return Some(w);
+        }
+    }
+    None
 }
 
 #[cfg(test)]
