@@ -16,10 +16,13 @@ pub mod materials;
 pub mod section;
 
 use std::collections::{BTreeMap, HashMap};
+use std::sync::atomic::{AtomicUsize, Ordering};
 
 use stackup_physics::consts::C0;
 use stackup_physics::copper::{surface_resistance, SIGMA_ANNEALED_COPPER};
-use stackup_physics::fieldsolver::{solve, CrossSection, SolvedLine, SolverOptions};
+use stackup_physics::fieldsolver::{
+    self, solve, solve_coarse, solve_family, CoarseMesh, CrossSection, SolvedLine, SolverOptions,
+};
 use stackup_physics::loss;
 use stackup_physics::roughness::{hammerstad_factor, RoughLayerModel, RoughSurface};
 
@@ -150,19 +153,37 @@ pub fn set_solver_threads(n: usize) {
 /// against its size bound (see `cache::DiskCache::account`).
 static CACHE_PENDING: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
 
-/// Solve one section, through the disk cache when one is in use.
-fn solve_cached(
+/// Cache entries one analysis read (`hits`) and solved (`solved`), for
+/// `STACKUP_LINT_CACHE_DEBUG`.
+#[derive(Default)]
+struct Tally {
+    hits: AtomicUsize,
+    solved: AtomicUsize,
+}
+
+impl Tally {
+    fn add(&self, hits: usize, solved: usize) {
+        self.hits.fetch_add(hits, Ordering::Relaxed);
+        self.solved.fetch_add(solved, Ordering::Relaxed);
+    }
+}
+
+/// The result stored under `k` in the disk cache, or `compute`'s (stored
+/// there) when there is none or no cache is in use.
+fn cached(
     cache: Option<&cache::DiskCache>,
+    tally: &Tally,
     k: &str,
-    cs: &CrossSection,
-    opts: &SolverOptions,
+    compute: impl FnOnce() -> Result<SolvedLine, String>,
 ) -> Result<SolvedLine, String> {
     if let Some(c) = cache {
         if let Some(v) = c.get(k) {
+            tally.add(1, 0);
             return v;
         }
     }
-    let v = solve(cs, opts).map_err(|e| e.message);
+    tally.add(0, 1);
+    let v = compute();
     if let Some(c) = cache {
         let n = c.put(k, &v);
         CACHE_PENDING.fetch_add(n, std::sync::atomic::Ordering::Relaxed);
@@ -177,65 +198,73 @@ fn settle_cache(cache: Option<&cache::DiskCache>) -> usize {
     cache.map_or(0, |c| c.account(added))
 }
 
-/// Solve distinct sections, in parallel, deterministically (results keyed
-/// by section). Cached results are read first; only misses are solved.
-fn solve_all(sections: Vec<CrossSection>) -> HashMap<String, Result<SolvedLine, String>> {
+/// Cache key of member `i` of a family.
+fn member_key(family: &str, i: usize) -> String {
+    format!("{family}#{i}")
+}
+
+/// Solve one family (sections differing only in their dielectrics) on one
+/// shared mesh, through the disk cache when one is in use. If the family
+/// cannot be solved as one, each member is solved alone so that each gets
+/// its own result or reason.
+fn solve_family_cached(
+    cache: Option<&cache::DiskCache>,
+    tally: &Tally,
+    family: &str,
+    members: &[CrossSection],
+    opts: &SolverOptions,
+) -> Vec<Result<SolvedLine, String>> {
+    if let Some(c) = cache {
+        let hits: Option<Vec<_>> = (0..members.len())
+            .map(|i| c.get(&member_key(family, i)))
+            .collect();
+        if let Some(v) = hits {
+            tally.add(members.len(), 0);
+            return v;
+        }
+    }
+    tally.add(0, members.len());
+    let v: Vec<Result<SolvedLine, String>> = match solve_family(members, opts) {
+        Ok(v) => v.into_iter().map(Ok).collect(),
+        Err(_) => members
+            .iter()
+            .map(|cs| solve(cs, opts).map_err(|e| e.message))
+            .collect(),
+    };
+    if let Some(c) = cache {
+        for (i, r) in v.iter().enumerate() {
+            let n = c.put(&member_key(family, i), r);
+            CACHE_PENDING.fetch_add(n, std::sync::atomic::Ordering::Relaxed);
+        }
+    }
+    v
+}
+
+/// A family's key: its members' keys in order.
+fn family_key(members: &[CrossSection]) -> String {
+    members.iter().map(key).collect::<Vec<_>>().join(" & ")
+}
+
+/// Solve distinct families, in parallel, deterministically (results keyed
+/// by family). Cached results are read inside the workers; only misses are
+/// solved.
+fn solve_all(
+    families: Vec<Vec<CrossSection>>,
+    tally: &Tally,
+) -> HashMap<String, Vec<Result<SolvedLine, String>>> {
     let cache = cache::active();
     let cache = cache.as_deref();
-    let mut out = HashMap::new();
-    let mut unique: Vec<(String, CrossSection)> = Vec::new();
     let mut seen = std::collections::HashSet::new();
-    let mut hits = 0;
-    for cs in sections {
-        let k = key(&cs);
-        if seen.insert(k.clone()) {
-            match cache.and_then(|c| c.get(&k)) {
-                Some(v) => {
-                    hits += 1;
-                    out.insert(k, v);
-                }
-                None => unique.push((k, cs)),
-            }
-        }
-    }
-    let misses = unique.len();
-    let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
-    let threads = if wanted > 0 {
-        wanted
-    } else {
-        std::thread::available_parallelism().map_or(1, |n| n.get())
-    }
-    .min(unique.len().max(1));
-    let opts = SolverOptions::default();
-    let chunks: Vec<Vec<(String, CrossSection)>> = (0..threads)
-        .map(|t| unique.iter().skip(t).step_by(threads).cloned().collect())
+    let unique: Vec<(String, Vec<CrossSection>)> = families
+        .into_iter()
+        .map(|f| (family_key(&f), f))
+        .filter(|(k, _)| seen.insert(k.clone()))
         .collect();
-    std::thread::scope(|scope| {
-        let handles: Vec<_> = chunks
-            .iter()
-            .map(|chunk| {
-                let opts = &opts;
-                scope.spawn(move || {
-                    chunk
-                        .iter()
-                        .map(|(k, cs)| (k.clone(), solve_cached(cache, k, cs, opts)))
-                        .collect::<Vec<_>>()
-                })
-            })
-            .collect();
-        for h in handles {
-            if let Ok(v) = h.join() {
-                out.extend(v);
-            }
-        }
+    let opts = SolverOptions::default();
+    let solved = in_parallel(&unique, |(k, f)| {
+        solve_family_cached(cache, tally, k, f, &opts)
     });
-    if let (Some(c), true) = (cache, cache::debug()) {
-        eprintln!(
-            "cache: {}: {hits} hits, {misses} solved and stored",
-            c.dir().display()
-        );
-    }
-    out
+    unique.into_iter().map(|(k, _)| k).zip(solved).collect()
 }
 
 /// Map `f` over `items` on the solver threads (`--threads`); results in
@@ -302,9 +331,12 @@ struct Pending {
     geometry: LineGeometry,
     /// Why the section is not solved (outside the solver's range).
     blocked: Option<String>,
-    smooth: String,
-    best: String,
-    worst: String,
+    /// Key of the family (smooth, best-case rough, worst-case rough
+    /// sections; equal sections once) and each one's member index.
+    family: String,
+    smooth: usize,
+    best: usize,
+    worst: usize,
 }
 
 /// Analyse every net class of `s`.
@@ -320,7 +352,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
     };
     // First pass: build sections.
     let mut pending: Vec<Result<Pending, String>> = Vec::new();
-    let mut sections = Vec::new();
+    let mut families = Vec::new();
     for nc in &s.net_classes {
         let f = nc.analysis_frequency();
         let eps_of = |layer: usize| dk_at(layer, f).map_or(1.0, |d| d.dk);
@@ -328,9 +360,10 @@ pub fn analyze(s: &Stackup) -> Analysis {
             Ok(g) if solvable(&g).is_err() => {
                 let why = solvable(&g).err().unwrap_or_default();
                 pending.push(Ok(Pending {
-                    smooth: String::new(),
-                    best: String::new(),
-                    worst: String::new(),
+                    family: String::new(),
+                    smooth: 0,
+                    best: 0,
+                    worst: 0,
                     blocked: Some(why),
                     geometry: g,
                 }));
@@ -339,22 +372,33 @@ pub fn analyze(s: &Stackup) -> Analysis {
                 let smooth = section::cross_section(&g, None);
                 let best = section::cross_section(&g, Some(&rough_layers(&g, f, false)));
                 let worst = section::cross_section(&g, Some(&rough_layers(&g, f, true)));
+                let mut members: Vec<CrossSection> = vec![smooth];
+                let mut index_of = |cs: CrossSection| match members.iter().position(|m| *m == cs) {
+                    Some(i) => i,
+                    None => {
+                        members.push(cs);
+                        members.len() - 1
+                    }
+                };
+                let (best, worst) = (index_of(best), index_of(worst));
                 let p = Pending {
-                    smooth: key(&smooth),
-                    best: key(&best),
-                    worst: key(&worst),
+                    family: family_key(&members),
+                    smooth: 0,
+                    best,
+                    worst,
                     blocked: None,
                     geometry: g,
                 };
-                sections.extend([smooth, best, worst]);
+                families.push(members);
                 pending.push(Ok(p));
             }
             Err(e) => pending.push(Err(e.0)),
         }
     }
-    let solved = solve_all(sections);
-    let numbers = |k: &str| -> Result<LineNumbers, String> {
-        match solved.get(k) {
+    let tally = Tally::default();
+    let solved = solve_all(families, &tally);
+    let numbers = |family: &str, i: usize| -> Result<LineNumbers, String> {
+        match solved.get(family).and_then(|v| v.get(i)) {
             Some(Ok(s)) => LineNumbers::from_solved(s)
                 .ok_or_else(|| "the solver returned no impedance".to_string()),
             Some(Err(e)) => Err(e.clone()),
@@ -371,7 +415,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
         .filter_map(|(i, (nc, p))| {
             let p = p.as_ref().ok().filter(|p| p.blocked.is_none())?;
             let t = nc.impedance?;
-            let w = numbers(&p.worst).ok()?;
+            let w = numbers(&p.family, p.worst).ok()?;
             ((w.z - t.target).abs() > 1e-3 * t.target).then_some((
                 i,
                 &p.geometry,
@@ -382,7 +426,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
         })
         .collect();
     let widths = in_parallel(&searches, |&(i, g, f, target, z)| {
-        (i, width_for_target(g, f, target, z))
+        (i, width_for_target(g, f, target, z, &tally))
     });
     let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
     // Second pass: assemble each class.
@@ -406,9 +450,9 @@ pub fn analyze(s: &Stackup) -> Analysis {
             classes.push(ClassAnalysis::unsolved(f, Ok(g), why, notes));
             continue;
         }
-        let smooth = numbers(&p.smooth);
-        let best = numbers(&p.best).ok();
-        let worst = numbers(&p.worst).ok();
+        let smooth = numbers(&p.family, p.smooth);
+        let best = numbers(&p.family, p.best).ok();
+        let worst = numbers(&p.family, p.worst).ok();
         let roughness_unknown = g
             .faces
             .iter()
@@ -450,6 +494,14 @@ pub fn analyze(s: &Stackup) -> Analysis {
         });
     }
     let active = cache::active();
+    if let (Some(c), true) = (active.as_deref(), cache::debug()) {
+        eprintln!(
+            "cache: {}: {} hits, {} solved and stored",
+            c.dir().display(),
+            tally.hits.load(Ordering::Relaxed),
+            tally.solved.load(Ordering::Relaxed)
+        );
+    }
     let evicted = settle_cache(active.as_deref());
     if evicted > 0 && cache::debug() {
         eprintln!("cache: {evicted} least recently used entries removed");
@@ -494,41 +546,62 @@ fn solvable(g: &LineGeometry) -> Result<(), String> {
 }
 
 /// Width (base width, top width scaled alike) at which the worst-case rough
-/// section meets `target`, by two secant steps from the current width.
-fn width_for_target(g: &LineGeometry, f: f64, target: f64, z_now: f64) -> Option<f64> {
-    let opts = SolverOptions::default();
-    let z_at = |w: f64| -> Option<f64> {
+/// section meets `target` (`fieldsolver::width_for_target`, its solves
+/// through the disk cache).
+fn width_for_target(
+    g: &LineGeometry,
+    f: f64,
+    target: f64,
+    z_now: f64,
+    tally: &Tally,
+) -> Option<f64> {
+    let w0 = g.width_bottom.max(g.width_top);
+    let section = |w: f64| {
         let mut g2 = g.clone();
-        let scale = w / g.width_bottom.max(g.width_top);
+        let scale = w / w0;
         g2.width_bottom = g.width_bottom * scale;
         g2.width_top = g.width_top * scale;
-        let cs = section::cross_section(&g2, Some(&rough_layers(&g2, f, true)));
-        let active = cache::active();
-        solve_cached(active.as_deref(), &key(&cs), &cs, &opts)
-            .ok()
-            .as_ref()
-            .and_then(LineNumbers::from_solved)
-            .map(|n| n.z)
+        section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
     };
-    let w0 = g.width_bottom.max(g.width_top);
-    let (mut wa, mut za) = (w0, z_now);
-    let mut wb = w0 * if z_now > target { 1.1 } else { 0.9 };
-    let mut zb = z_at(wb)?;
-    for _ in 0..3 {
-        if (zb - za).abs() < 1e-9 {
-            break;
-        }
-        let w = wb + (target - zb) * (wb - wa) / (zb - za);
-        let w = w.clamp(0.3 * w0, 3.0 * w0);
-        wa = wb;
-        za = zb;
-        wb = w;
-        zb = z_at(wb)?;
-        if (zb - target).abs() < 0.002 * target {
-            break;
-        }
+    let opts = SolverOptions::default();
+    let active = cache::active();
+    let mut solves = CachedSolves {
+        cache: active.as_deref(),
+        tally,
+        opts: &opts,
+    };
+    fieldsolver::width_for_target(
+        section,
+        |r| LineNumbers::from_solved(r).map(|n| n.z),
+        w0,
+        z_now,
+        target,
+        &opts,
+        &mut solves,
+    )
+}
+
+/// The width search's solves, through the disk cache.
+struct CachedSolves<'a> {
+    cache: Option<&'a cache::DiskCache>,
+    tally: &'a Tally,
+    opts: &'a SolverOptions,
+}
+
+impl fieldsolver::WidthSolves for CachedSolves<'_> {
+    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine> {
+        let k = format!("coarse mesh of {} | {}", key(mesh.reference()), key(cs));
+        cached(self.cache, self.tally, &k, || {
+            solve_coarse(cs, mesh).map_err(|e| e.message)
+        })
+        .ok()
     }
-    Some(wb)
+    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine> {
+        cached(self.cache, self.tally, &key(cs), || {
+            solve(cs, self.opts).map_err(|e| e.message)
+        })
+        .ok()
+    }
 }
 
 /// Loss per metre: dielectric loss from the filling-weighted loss tangent,

@@ -398,33 +398,48 @@ pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSect
             .unwrap_or(0.0)
     };
     let factor = rough.map_or(1.0, |r| r.eps_factor);
+    // Plane faces: a roughness layer is a full-width block over the plane
+    // (not a layer of its own), so that it adds its two mesh lines but no
+    // cells-per-layer minimum: the field across a layer a few µm thick is
+    // uniform, and the solver's interface averaging takes its permittivity
+    // exactly.
+    let mut acc = 0.0;
     let n = g.slabs.len();
+    let full = 1.0; // m, wider than any box; the solver clamps blocks to it
     for (k, sl) in g.slabs.iter().enumerate() {
-        // Plane faces: split the first / last slab.
-        let mut lo = 0.0;
-        let mut hi = 0.0;
-        if k == 0 {
-            lo = tr(0).min(0.45 * sl.thickness);
-        }
-        if k + 1 == n && g.top_plane.is_some() {
-            hi = tr(3).min(0.45 * sl.thickness);
-        }
-        if lo > 0.0 {
-            layers.push(DielectricLayer {
-                thickness: lo,
-                eps_r: sl.eps * factor,
-            });
-        }
         layers.push(DielectricLayer {
-            thickness: sl.thickness - lo - hi,
+            thickness: sl.thickness,
             eps_r: sl.eps,
         });
-        if hi > 0.0 {
-            layers.push(DielectricLayer {
-                thickness: hi,
+        let lo = if k == 0 {
+            tr(0).min(0.45 * sl.thickness)
+        } else {
+            0.0
+        };
+        let hi = if k + 1 == n && g.top_plane.is_some() {
+            tr(3).min(0.45 * sl.thickness)
+        } else {
+            0.0
+        };
+        if lo > 0.0 {
+            blocks.push(DielectricBlock {
+                x0: -full,
+                x1: full,
+                y0: acc,
+                y1: acc + lo,
                 eps_r: sl.eps * factor,
             });
         }
+        if hi > 0.0 {
+            blocks.push(DielectricBlock {
+                x0: -full,
+                x1: full,
+                y0: acc + sl.thickness - hi,
+                y1: acc + sl.thickness,
+                eps_r: sl.eps * factor,
+            });
+        }
+        acc += sl.thickness;
     }
     let conductors: Vec<Trace> = match g.spacing {
         Some(sp) => {
