@@ -94,6 +94,9 @@ enum Command {
         /// Threads for field solves (0 = one per core); output does not depend on it
         #[arg(long, default_value_t = 0, value_name = "N")]
         threads: usize,
+        /// Largest field-solver mesh (nodes of one grid); bigger sections are reported, not solved
+        #[arg(long, default_value_t = stackup_lint::analysis::DEFAULT_MAX_MESH_NODES, value_name = "NODES")]
+        max_mesh_nodes: usize,
         /// Base address of the rule pages linked from SARIF
         #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
         rule_docs_url: String,
@@ -262,8 +265,10 @@ fn main() -> ExitCode {
             rule_docs_url,
             baseline,
             threads,
+            max_mesh_nodes,
         } => {
             stackup_lint::analysis::set_solver_threads(threads);
+            stackup_lint::analysis::set_max_mesh_nodes(max_mesh_nodes);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
                 Some(Ok(b)) => Some(b),

@@ -249,3 +249,44 @@ fn failed_runs_leave_no_partial_sarif() {
             .expect("the SARIF log is complete JSON");
     assert_eq!(log["runs"][0]["results"][0]["ruleId"], "invalid-input");
 }
+
+/// The field solver's mesh budget (`--max-mesh-nodes`): a section that
+/// needs a bigger mesh is reported at its net class with the limit and the
+/// option that raises it, and the run goes on (no panic, no exit 2).
+#[test]
+fn mesh_budget_reports_the_class_and_the_option() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("board.stackup.yaml"), BASELINE).unwrap();
+    let out = run(
+        dir.path(),
+        &[
+            "--no-cache",
+            "check",
+            "--format",
+            "json",
+            "--max-mesh-nodes",
+            "300",
+            "board.stackup.yaml",
+        ],
+    );
+    no_panic(&out);
+    assert_ne!(out.status.code(), Some(2));
+    let m = messages(&out);
+    assert!(
+        m.iter()
+            .any(|m| m.contains("limit of 300") && m.contains("--max-mesh-nodes")),
+        "{m:#?}"
+    );
+    // With the default budget the same board is solved.
+    let out = run(
+        dir.path(),
+        &[
+            "--no-cache",
+            "check",
+            "--format",
+            "json",
+            "board.stackup.yaml",
+        ],
+    );
+    assert!(messages(&out).iter().all(|m| !m.contains("limit of")));
+}

@@ -135,8 +135,14 @@ pub const FIELD_SOLVER: &str = "2-D field solver (finite volume, Richardson-extr
 /// Copper conductivity used for skin depth and loss (annealed copper).
 pub const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
 
+/// Cache key text of a section. The engine identity (`cache.rs`) holds
+/// the default solver options; the run's mesh budget is added here, since
+/// a section refused under one budget may be solved under another.
 fn key(cs: &CrossSection) -> String {
-    format!("{cs:?}")
+    format!(
+        "mesh budget {} | {cs:?}",
+        MAX_MESH_NODES.load(Ordering::Relaxed)
+    )
 }
 
 /// Threads used for field solves; 0 = one per available core. Results do
@@ -147,6 +153,26 @@ static SOLVER_THREADS: std::sync::atomic::AtomicUsize = std::sync::atomic::Atomi
 /// Set the number of threads for field solves (0 = automatic).
 pub fn set_solver_threads(n: usize) {
     SOLVER_THREADS.store(n, std::sync::atomic::Ordering::Relaxed);
+}
+
+/// Default of [`set_max_mesh_nodes`].
+pub const DEFAULT_MAX_MESH_NODES: usize = 400_000;
+
+static MAX_MESH_NODES: AtomicUsize = AtomicUsize::new(DEFAULT_MAX_MESH_NODES);
+
+/// Set the largest field-solver mesh (nodes of one grid,
+/// `SolverOptions::max_mesh_nodes`); a section that needs more is reported
+/// as not solved. Part of the solver options, so of the cache key.
+pub fn set_max_mesh_nodes(n: usize) {
+    MAX_MESH_NODES.store(n, Ordering::Relaxed);
+}
+
+/// The solver options of this run.
+fn solver_options() -> SolverOptions {
+    SolverOptions {
+        max_mesh_nodes: MAX_MESH_NODES.load(Ordering::Relaxed),
+        ..SolverOptions::default()
+    }
 }
 
 /// Bytes this process stored in the disk cache and has not yet counted
@@ -260,7 +286,7 @@ fn solve_all(
         .map(|f| (family_key(&f), f))
         .filter(|(k, _)| seen.insert(k.clone()))
         .collect();
-    let opts = SolverOptions::default();
+    let opts = solver_options();
     let solved = in_parallel(&unique, |(k, f)| {
         solve_family_cached(cache, tally, k, f, &opts)
     });
@@ -401,6 +427,9 @@ pub fn analyze(s: &Stackup) -> Analysis {
         match solved.get(family).and_then(|v| v.get(i)) {
             Some(Ok(s)) => LineNumbers::from_solved(s)
                 .ok_or_else(|| "the solver returned no impedance".to_string()),
+            Some(Err(e)) if e.contains("the solver's limit of") => Err(format!(
+                "{e} (raise the limit with --max-mesh-nodes if the section is genuine)"
+            )),
             Some(Err(e)) => Err(e.clone()),
             None => Err("not solved".into()),
         }
@@ -563,7 +592,7 @@ fn width_for_target(
         g2.width_top = g.width_top * scale;
         section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
     };
-    let opts = SolverOptions::default();
+    let opts = solver_options();
     let active = cache::active();
     let mut solves = CachedSolves {
         cache: active.as_deref(),

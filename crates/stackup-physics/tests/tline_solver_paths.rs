@@ -283,3 +283,18 @@ fn secant_width_on_a_power_law() {
     assert!(secant_width(|w| Some(z(w)), f64::NAN, 60.0, 45.0).is_none());
     assert!(secant_width(|_| None, 1e-4, 60.0, 45.0).is_none());
 }
+
+/// The mesh budget: a section whose mesh would pass `max_mesh_nodes` is an
+/// error naming the limit, not a long solve (and not a panic).
+#[test]
+fn mesh_budget_is_enforced() {
+    let small = SolverOptions {
+        max_mesh_nodes: 300,
+        ..SolverOptions::default()
+    };
+    for cs in [offset_stripline(120e-6), microstrip(300e-6, 0.2e-3, 4.2)] {
+        let e = solve(&cs, &small).unwrap_err();
+        assert!(e.message.contains("limit of"), "{}", e.message);
+        assert!(solve(&cs, &SolverOptions::default()).is_ok());
+    }
+}

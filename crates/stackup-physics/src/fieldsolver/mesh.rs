@@ -23,6 +23,8 @@ pub(crate) struct AxisSpec {
     pub h_far: f64,
     /// Minimum number of cells between two consecutive key lines.
     pub min_cells: usize,
+    /// Most lines the axis may have; more is an error (mesh budget).
+    pub max_lines: usize,
 }
 
 impl AxisSpec {
@@ -145,6 +147,12 @@ pub(crate) fn lines_with_counts(
             None => (total.ceil() as usize).max(spec.min_cells).max(1),
         };
         used.push(n);
+        if n > spec.max_lines.saturating_sub(lines.len()) {
+            return Err(format!(
+                "the section needs a mesh of more than {} lines across, beyond the solver's limit of {}: its features span too wide a range of sizes",
+                spec.max_lines, spec.max_lines
+            ));
+        }
         for k in 1..n {
             let target = total * k as f64 / n as f64;
             // invert the cumulative integral by linear interpolation
@@ -178,6 +186,7 @@ mod tests {
             caps: vec![(-1.0, 1.0, 0.1)],
             h_far: 1e9,
             min_cells: 2,
+            max_lines: 100_000,
         };
         let l = base_lines(&spec, 1e-12);
         for k in [-10.0, -0.5, 0.0, 0.5, 10.0] {

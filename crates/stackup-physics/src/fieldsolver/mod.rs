@@ -197,6 +197,12 @@ pub struct SolverOptions {
     /// even excitation and an electric wall (0 V) for the odd one. Exact
     /// by symmetry; about a third of the work for one trace.
     pub mirror: bool,
+    /// Largest mesh (nodes of one grid) the solver builds; a section that
+    /// would need more is refused with an error instead of taking minutes
+    /// and gigabytes. Real sections need 10³ to 10⁴ nodes on the finest
+    /// default level; the default 400 000 bounds a solve to about 0.3 GB
+    /// and a few seconds.
+    pub max_mesh_nodes: usize,
 }
 
 impl Default for SolverOptions {
@@ -212,6 +218,7 @@ impl Default for SolverOptions {
             wall_factor_closed: 8.0,
             wall_factor_open: 40.0,
             mirror: true,
+            max_mesh_nodes: 400_000,
         }
     }
 }
@@ -673,6 +680,7 @@ fn prepare<'a>(cs: &'a CrossSection, opt: &SolverOptions) -> Result<Prepared<'a>
         caps: ycaps,
         h_far: f64::INFINITY,
         min_cells: 2,
+        max_lines: opt.max_mesh_nodes / 3,
     };
     let xspec = AxisSpec {
         lo: x_lo,
@@ -684,6 +692,7 @@ fn prepare<'a>(cs: &'a CrossSection, opt: &SolverOptions) -> Result<Prepared<'a>
         caps: xcaps,
         h_far: (near / (2.0 * d)).max(h_fine) * 1e3,
         min_cells: 2,
+        max_lines: opt.max_mesh_nodes / 3,
     };
     let mirror = opt.mirror && mirror_symmetric(cs, tol);
     let mut xspec = xspec;
@@ -917,6 +926,14 @@ fn level_lines(
     Ok((lines, used))
 }
 
+/// The error for a section whose mesh would pass `max_mesh_nodes`.
+fn too_large(nodes: usize, opt: &SolverOptions) -> SolveError {
+    SolveError::new(format!(
+        "the section needs a mesh of more than {nodes} nodes, beyond the solver's limit of {}: its features span too wide a range of sizes",
+        opt.max_mesh_nodes
+    ))
+}
+
 /// Cells per key interval (x, y) at every level.
 type Topology = Vec<(Vec<usize>, Vec<usize>)>;
 
@@ -954,6 +971,9 @@ fn run_levels(
         };
         let (xs, ux) = level_lines(&p.xspec, m, p.tol, cx)?;
         let (ys, uy) = level_lines(&p.yspec, m, p.tol, cy)?;
+        if xs.len().saturating_mul(ys.len()) > opt.max_mesh_nodes {
+            return Err(too_large(xs.len().saturating_mul(ys.len()), opt));
+        }
         out.topology.push((ux, uy));
         // Excitations: the whole section, or the even (magnetic wall) and,
         // for a pair, odd (electric wall) halves.
