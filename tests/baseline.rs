@@ -2,30 +2,14 @@
 //! the run, a material change of a finding's numbers makes it new again,
 //! and edits that move lines do not.
 
-use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
 
 use serde_json::Value;
 
+mod common;
+use common::{output_in as run, root};
+
 const BOARD: &str = "examples/line-card-10l/board.stackup.yaml";
-
-fn run(dir: &Path, args: &[&str]) -> Output {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .expect("binary runs");
-    assert!(
-        !String::from_utf8_lossy(&o.stderr).contains("panicked"),
-        "{}",
-        String::from_utf8_lossy(&o.stderr)
-    );
-    o
-}
-
-fn root() -> &'static Path {
-    Path::new(env!("CARGO_MANIFEST_DIR"))
-}
 
 fn json_of(o: &Output) -> Value {
     serde_json::from_slice(&o.stdout).expect("JSON report")

@@ -17,29 +17,17 @@
 
 use std::collections::HashSet;
 use std::path::Path;
-use std::process::Command;
+
+mod common;
+use common::run_in;
 
 use serde_json::Value;
 use stackup_lint::output::github::{escape_data, escape_property};
 
 const BOARD: &str = "examples/line-card-10l/board.stackup.yaml";
 
-fn run_in(dir: &Path, args: &[&str]) -> (Option<i32>, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(dir)
-        .env("NO_COLOR", "1")
-        .args(args)
-        .output()
-        .expect("binary runs");
-    (
-        o.status.code(),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
-}
-
 fn run(args: &[&str]) -> (Option<i32>, String, String) {
-    run_in(Path::new(env!("CARGO_MANIFEST_DIR")), args)
+    run_in(common::root(), args)
 }
 
 fn json_report(dir: &Path, target: &str) -> Value {

@@ -1,20 +1,10 @@
 //! The demo boards, through the binary: exit codes and reviewed snapshots of
 //! the terminal text (no colour, fixed width) and of the SARIF log.
 
-use std::process::Command;
+mod common;
 
 fn run(args: &[&str]) -> (Option<i32>, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("NO_COLOR", "1")
-        .args(args)
-        .output()
-        .expect("binary runs");
-    (
-        o.status.code(),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
+    common::run_in(common::root(), args)
 }
 
 #[test]

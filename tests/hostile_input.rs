@@ -5,20 +5,14 @@
 //! (size, depth, nodes) are the `--max-*` options; their defaults are in
 //! the README's command-line table and in DEVELOPERS.md ("Hostile input").
 
-use std::path::Path;
-use std::process::{Command, Output};
+use std::process::Output;
 
 use serde_json::Value;
 
-const BASELINE: &str = include_str!("common/baseline.stackup.yaml");
+mod common;
+use common::output_in as run;
 
-fn run(dir: &Path, args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .args(args)
-        .current_dir(dir)
-        .output()
-        .expect("the stackup-lint binary runs")
-}
+const BASELINE: &str = include_str!("common/baseline.stackup.yaml");
 
 fn no_panic(out: &Output) {
     let stderr = String::from_utf8_lossy(&out.stderr);

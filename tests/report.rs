@@ -4,21 +4,15 @@
 //! `impedance` command, and no file at all on bad input.
 
 use std::path::Path;
-use std::process::Command;
+
+mod common;
 
 fn run(args: &[&str], cache: &Path) -> (Option<i32>, String, String) {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("NO_COLOR", "1")
-        .env("STACKUP_LINT_CACHE_DIR", cache)
-        .args(args)
-        .output()
-        .expect("binary runs");
-    (
-        o.status.code(),
-        String::from_utf8_lossy(&o.stdout).into_owned(),
-        String::from_utf8_lossy(&o.stderr).into_owned(),
-    )
+    common::text(common::output(
+        common::command(common::root())
+            .env("STACKUP_LINT_CACHE_DIR", cache)
+            .args(args),
+    ))
 }
 
 fn report(board: &str, extra: &[&str]) -> tempfile::TempDir {

@@ -4,7 +4,9 @@
 //! suppression with its justification, and must give a reason.
 
 use std::path::Path;
-use std::process::{Command, Output};
+
+mod common;
+use common::output_in as run;
 
 use serde_json::Value;
 
@@ -34,16 +36,6 @@ fn board_with(edits: &[(&str, &str)]) -> (tempfile::TempDir, Vec<usize>) {
     )
     .unwrap();
     (dir, numbers)
-}
-
-fn run(dir: &Path, args: &[&str]) -> Output {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(dir)
-        .args(args)
-        .output()
-        .expect("binary runs");
-    assert!(!String::from_utf8_lossy(&o.stderr).contains("panicked"));
-    o
 }
 
 fn report(dir: &Path) -> (Option<i32>, Value) {

@@ -11,14 +11,15 @@
 //! `crates/stackup-physics/tests/tline_solver_paths.rs`.
 
 use std::path::Path;
-use std::process::Command;
+
+mod common;
 
 fn impedance(file: &Path) -> Vec<serde_json::Value> {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .args(["--no-cache", "impedance", "--format", "json"])
-        .arg(file)
-        .output()
-        .unwrap();
+    let o = common::output(
+        common::command(common::root())
+            .args(["--no-cache", "impedance", "--format", "json"])
+            .arg(file),
+    );
     assert!(
         o.status.code().is_some_and(|c| c <= 1),
         "{}",
@@ -30,7 +31,7 @@ fn impedance(file: &Path) -> Vec<serde_json::Value> {
 
 #[test]
 fn proposed_widths_meet_their_targets() {
-    let fixtures = Path::new(env!("CARGO_MANIFEST_DIR")).join("bench/fixtures");
+    let fixtures = common::root().join("bench/fixtures");
     let dir = tempfile::tempdir().unwrap();
     std::fs::copy(
         fixtures.join("bench.materials.yaml"),

@@ -1,0 +1,45 @@
+//! Helpers shared by the integration tests that run the `stackup-lint`
+//! binary. Each test file uses some of them.
+#![allow(dead_code)]
+
+use std::path::Path;
+use std::process::{Command, Output};
+
+/// The repository root (examples, schema, bench fixtures).
+pub fn root() -> &'static Path {
+    Path::new(env!("CARGO_MANIFEST_DIR"))
+}
+
+/// The binary, to be run in `dir` with colour off.
+pub fn command(dir: &Path) -> Command {
+    let mut c = Command::new(env!("CARGO_BIN_EXE_stackup-lint"));
+    c.current_dir(dir).env("NO_COLOR", "1");
+    c
+}
+
+/// Runs `c` and fails the test if the binary panicked.
+pub fn output(c: &mut Command) -> Output {
+    let o = c.output().expect("the stackup-lint binary runs");
+    let stderr = String::from_utf8_lossy(&o.stderr);
+    assert!(!stderr.contains("panicked"), "{stderr}");
+    o
+}
+
+/// Runs the binary in `dir` with `args`.
+pub fn output_in(dir: &Path, args: &[&str]) -> Output {
+    output(command(dir).args(args))
+}
+
+/// Exit code, standard output and standard error of `o`, as text.
+pub fn text(o: Output) -> (Option<i32>, String, String) {
+    (
+        o.status.code(),
+        String::from_utf8_lossy(&o.stdout).into_owned(),
+        String::from_utf8_lossy(&o.stderr).into_owned(),
+    )
+}
+
+/// Runs the binary in `dir` with `args`: exit code, stdout, stderr.
+pub fn run_in(dir: &Path, args: &[&str]) -> (Option<i32>, String, String) {
+    text(output_in(dir, args))
+}
