@@ -5,6 +5,7 @@
 //! expanded under a node budget (alias bombs are rejected) and nesting depth
 //! is bounded; both limits are configurable through [`YamlLimits`].
 
+use std::borrow::Cow;
 use std::collections::HashMap;
 use std::ops::Range;
 
@@ -62,6 +63,17 @@ pub struct YamlError {
     pub span: Range<usize>,
 }
 
+/// One JSON-pointer token with `~1` and `~0` turned back into `/` and `~`
+/// (RFC 6901, in that order); borrowed when it has no `~`, as almost every
+/// token has (the model looks up thousands of pointers per file).
+fn unescape_token(raw: &str) -> Cow<'_, str> {
+    if raw.contains('~') {
+        Cow::Owned(raw.replace("~1", "/").replace("~0", "~"))
+    } else {
+        Cow::Borrowed(raw)
+    }
+}
+
 impl Node {
     /// Look up a JSON pointer (RFC 6901), e.g. `/layers/3/thickness`.
     pub fn pointer(&self, pointer: &str) -> Option<&Node> {
@@ -70,7 +82,7 @@ impl Node {
         }
         let mut node = self;
         for raw in pointer.strip_prefix('/')?.split('/') {
-            let token = raw.replace("~1", "/").replace("~0", "~");
+            let token = unescape_token(raw);
             node = match &node.value {
                 Value::Map(entries) => &entries.iter().find(|e| e.key == token)?.value,
                 Value::Seq(items) => items.get(token.parse::<usize>().ok()?)?,
@@ -87,7 +99,7 @@ impl Node {
             Some(i) => (&pointer[..i], &pointer[i + 1..]),
             None => return self.pointer(pointer).map(|n| n.span.clone()),
         };
-        let token = last.replace("~1", "/").replace("~0", "~");
+        let token = unescape_token(last);
         match &self.pointer(parent)?.value {
             Value::Map(entries) => entries
                 .iter()
@@ -575,6 +587,38 @@ mod tests {
 
     fn p(t: &str) -> Result<Node, YamlError> {
         parse(t, YamlLimits::default())
+    }
+
+    /// The example document and pointers of RFC 6901, section 5, plus
+    /// `~01` (a key `~1`: `~1` is undone before `~0`, RFC 6901 section 4).
+    #[test]
+    fn json_pointers_follow_rfc_6901() {
+        let t = r#"{"foo": ["bar", "baz"], "": 0, "a/b": 1, "c%d": 2, "e^f": 3, "g|h": 4, 'i\j': 5, 'k"l': 6, " ": 7, "m~n": 8, "~1": 9}"#;
+        let n = p(t).unwrap();
+        let num = |ptr: &str| match n.pointer(ptr).map(|x| &x.value) {
+            Some(Value::Number(v)) => Some(*v),
+            _ => None,
+        };
+        assert_eq!(n.pointer("").unwrap().span, n.span);
+        assert_eq!(n.pointer("/foo/0").unwrap().as_str(), Some("bar"));
+        for (ptr, want) in [
+            ("/", 0.0),
+            ("/a~1b", 1.0),
+            ("/c%d", 2.0),
+            ("/e^f", 3.0),
+            ("/g|h", 4.0),
+            ("/i\\j", 5.0),
+            ("/k\"l", 6.0),
+            ("/ ", 7.0),
+            ("/m~0n", 8.0),
+            ("/~01", 9.0),
+        ] {
+            assert_eq!(num(ptr), Some(want), "{ptr}");
+        }
+        assert_eq!(num("/a/b"), None);
+        // The key's own span, found through an escaped token.
+        let key = n.key_span("/a~1b").unwrap();
+        assert_eq!(&t[key], "\"a/b\"");
     }
 
     #[test]
