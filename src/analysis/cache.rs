@@ -60,6 +60,10 @@ pub const DEFAULT_MAX_BYTES: u64 = 1 << 30;
 /// blocks.
 const BLOCK: u64 = 4096;
 
+/// Larger files in the cache directory are not entries (one is about 500
+/// bytes; a cached error message is short too) and are not read.
+const MAX_ENTRY: u64 = 1 << 20;
+
 const MAGIC: &str = "stackup-lint field-solver cache entry, format 2";
 const USAGE_FILE: &str = "usage";
 /// Temporary files older than this are left-overs of a killed run.
@@ -147,11 +151,18 @@ impl DiskCache {
     pub fn get(&self, section_key: &str) -> Option<Result<SolvedLine, String>> {
         let digest = self.digest(section_key);
         let path = self.path_of(&digest);
+        // Open, size, one read: an entry is replaced by renaming a new file
+        // over it, never written in place, so the opened file keeps the
+        // size it was seen with (a shorter read is a miss).
         let mut file = std::fs::File::open(&path).ok()?;
-        let mut bytes = Vec::with_capacity(1024);
-        std::io::Read::read_to_end(&mut file, &mut bytes).ok()?;
+        let meta = file.metadata().ok()?;
+        if meta.len() > MAX_ENTRY {
+            return None;
+        }
+        let mut bytes = vec![0; usize::try_from(meta.len()).ok()?];
+        std::io::Read::read_exact(&mut file, &mut bytes).ok()?;
         let value = decode(&bytes, &digest)?;
-        touch(&file, &path);
+        touch(&file, &meta, &path);
         Some(value)
     }
 
@@ -274,11 +285,10 @@ pub fn on_disk(meta: &std::fs::Metadata) -> u64 {
 /// lookup of the path); where that handle may not set the time, through
 /// one opened for writing. Errors are ignored: a read-only cache still
 /// serves.
-fn touch(file: &std::fs::File, path: &Path) {
+fn touch(file: &std::fs::File, meta: &std::fs::Metadata, path: &Path) {
     let now = SystemTime::now();
-    let fresh = file
-        .metadata()
-        .and_then(|m| m.modified())
+    let fresh = meta
+        .modified()
         .ok()
         .and_then(|t| now.duration_since(t).ok())
         .is_some_and(|age| age < TOUCH_AFTER);
@@ -350,6 +360,21 @@ fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u8> {
     out.into_bytes()
 }
 
+/// A 64-bit pattern written as exactly 16 lowercase hex digits.
+fn bits_of(hex: &str) -> Option<u64> {
+    if hex.len() != 16 {
+        return None;
+    }
+    hex.bytes().try_fold(0u64, |acc, b| {
+        let digit = match b {
+            b'0'..=b'9' => b - b'0',
+            b'a'..=b'f' => b - b'a' + 10,
+            _ => return None,
+        };
+        Some(acc << 4 | u64::from(digit))
+    })
+}
+
 /// Read an entry back; `None` for anything but a whole, intact entry for
 /// the key whose SHA-256 is `digest`.
 fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, String>> {
@@ -389,15 +414,10 @@ fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, String>> {
             return None;
         }
         let count: usize = it.next()?.parse().ok()?;
-        let v = it
-            .map(|h| {
-                if h.len() == 16 {
-                    u64::from_str_radix(h, 16).ok().map(f64::from_bits)
-                } else {
-                    None
-                }
-            })
-            .collect::<Option<Vec<f64>>>()?;
+        let mut v = Vec::with_capacity(count.min(64));
+        for h in it {
+            v.push(f64::from_bits(bits_of(h)?));
+        }
         (v.len() == count).then_some(v)
     };
     let z_rel_error = *floats("z_rel_error")?.first()?;
@@ -642,6 +662,11 @@ mod tests {
             std::fs::write(&path, &bad).unwrap();
             assert_eq!(c.get("s"), None, "byte {i} flipped");
         }
+        // A file larger than any entry is a miss.
+        let mut big = good.clone();
+        big.resize(MAX_ENTRY as usize + 1, b'\n');
+        std::fs::write(&path, &big).unwrap();
+        assert_eq!(c.get("s"), None);
         // A whole, valid entry for another key at this path is a miss too.
         std::fs::write(&path, encode(&c.digest("other"), &Ok(sample()))).unwrap();
         assert_eq!(c.get("s"), None);
@@ -732,6 +757,35 @@ mod tests {
             .map(|k| on_disk(&std::fs::metadata(c.path_of(&c.digest(k))).unwrap()))
             .sum();
         assert_eq!(usage, left);
+    }
+
+    #[test]
+    fn bit_patterns_parse_as_written() {
+        for x in [
+            0.0,
+            -0.0,
+            1.0 / 3.0,
+            f64::MIN_POSITIVE,
+            f64::MAX,
+            f64::NAN,
+            5e-324,
+        ] {
+            let text = format!("{:016x}", x.to_bits());
+            assert_eq!(bits_of(&text), Some(x.to_bits()), "{text}");
+        }
+        assert_eq!(bits_of("0123456789abcdef"), Some(0x0123_4567_89ab_cdef));
+        // Only what `encode` writes: 16 lowercase hex digits.
+        for bad in [
+            "",
+            "0",
+            "0123456789abcde",
+            "0123456789abcdef0",
+            "0123456789ABCDEF",
+        ] {
+            assert_eq!(bits_of(bad), None, "{bad}");
+        }
+        assert_eq!(bits_of("+123456789abcdef"), None);
+        assert_eq!(bits_of("0123456789abcdeg"), None);
     }
 
     #[test]
