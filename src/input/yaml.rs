@@ -301,6 +301,10 @@ struct Builder<'o, 'a> {
     nodes: usize,
 }
 
+/// Mappings with more keys than this find duplicate keys through a hash
+/// map instead of a scan.
+const SMALL_MAP: usize = 16;
+
 impl Builder<'_, '_> {
     fn count(&mut self, n: usize, span: &Range<usize>) -> Result<(), YamlError> {
         self.nodes = self.nodes.saturating_add(n);
@@ -388,9 +392,11 @@ impl Builder<'_, '_> {
             Event::MappingStart(anchor, _) => {
                 self.count(1, &range)?;
                 let mut entries: Vec<Entry> = Vec::new();
-                // Key -> index in `entries`: a linear search per key made a
-                // 100 000-key mapping take minutes.
-                let mut seen: HashMap<String, usize> = HashMap::new();
+                // Key -> index in `entries`, built once the mapping passes
+                // `SMALL_MAP` keys: a linear search per key made a 100 000-key
+                // mapping take minutes, but for the few keys of a real
+                // mapping a scan is cheaper than hashing and copying keys.
+                let mut seen: Option<HashMap<String, usize>> = None;
                 let mut end = range.end;
                 loop {
                     let (ev, sp) = self.next_in(parser, &range, '}')?;
@@ -416,7 +422,11 @@ impl Builder<'_, '_> {
                     };
                     let (ev, sp) = self.next_in(parser, &range, '}')?;
                     let value = self.node(parser, ev, sp, depth + 1)?;
-                    if let Some(&first) = seen.get(&key) {
+                    let earlier = match &seen {
+                        Some(index) => index.get(&key).copied(),
+                        None => entries.iter().position(|e| e.key == key),
+                    };
+                    if let Some(first) = earlier {
                         let (line, _) = crate::source::line_col(
                             self.offsets.text,
                             entries[first].key_span.start,
@@ -429,7 +439,21 @@ impl Builder<'_, '_> {
                             span: key_node.span,
                         });
                     }
-                    seen.insert(key.clone(), entries.len());
+                    match &mut seen {
+                        Some(index) => {
+                            index.insert(key.clone(), entries.len());
+                        }
+                        None if entries.len() >= SMALL_MAP => {
+                            let mut index: HashMap<String, usize> = entries
+                                .iter()
+                                .enumerate()
+                                .map(|(i, e)| (e.key.clone(), i))
+                                .collect();
+                            index.insert(key.clone(), entries.len());
+                            seen = Some(index);
+                        }
+                        None => {}
+                    }
                     end = end.max(value.span.end);
                     entries.push(Entry {
                         key,
@@ -705,6 +729,34 @@ mod tests {
     fn duplicate_key_message_names_the_first_line() {
         let e = p("a: 1\nb: 2\na: 3\n").unwrap_err();
         assert!(e.message.contains("first at line 1"), "{}", e.message);
+    }
+
+    /// Duplicates are found alike below and above the size where the
+    /// search switches from a scan to a hash map, whichever key repeats.
+    #[test]
+    fn duplicate_keys_are_found_in_small_and_large_mappings() {
+        for n in [1, 2, SMALL_MAP, SMALL_MAP + 1, SMALL_MAP + 2, 3 * SMALL_MAP] {
+            let keys: String = (0..n).map(|i| format!("k{i}: {i}\n")).collect();
+            let tree = p(&keys).unwrap();
+            match &tree.value {
+                Value::Map(entries) => {
+                    let names: Vec<&str> = entries.iter().map(|e| e.key.as_str()).collect();
+                    let want: Vec<String> = (0..n).map(|i| format!("k{i}")).collect();
+                    assert_eq!(names, want);
+                }
+                other => panic!("{other:?}"),
+            }
+            for j in [0, n / 2, n - 1] {
+                let t = format!("{keys}k{j}: again\n");
+                let e = p(&t).unwrap_err();
+                assert!(
+                    e.message.contains(&format!("first at line {}", j + 1)),
+                    "{n} keys, k{j}: {}",
+                    e.message
+                );
+                assert_eq!(e.span.start, keys.len(), "{n} keys, k{j}");
+            }
+        }
     }
 
     #[test]
