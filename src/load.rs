@@ -60,15 +60,22 @@ fn whole_file(file: FileId) -> Location {
     }
 }
 
-/// Read a file into the database; on failure the problem is recorded and
-/// the file is kept with empty text so findings can still name it.
-fn read_file(
-    loaded: &mut Loaded,
-    path: &Path,
-    base: &Path,
-    limits: &InputLimits,
-    kind: FileKind,
-) -> Option<FileId> {
+/// A file read, parsed and schema-checked on its own, before it joins the
+/// run's database: its problems point at file 0 until [`admit`] gives it
+/// its id. Files are prepared on the `--threads` workers, then admitted
+/// one after another in the order a sequential load would add them, so
+/// file ids, problems and output are the same for any thread count.
+#[derive(Debug)]
+struct Prepared {
+    file: SourceFile,
+    problems: Vec<Finding>,
+    /// The file parsed and passed the schema.
+    ok: bool,
+}
+
+/// Read a file; on failure the problem is recorded and the file is kept
+/// with empty text so findings can still name it.
+fn prepare(path: &Path, base: &Path, limits: &InputLimits, kind: FileKind) -> Prepared {
     let display = display_path(path, base);
     let mut file = SourceFile {
         path: path.to_path_buf(),
@@ -115,20 +122,69 @@ fn read_file(
         })
     });
     match text {
-        Ok(t) => file.text = t,
+        Ok(t) => {
+            file.text = t;
+            prepare_text(file, limits, kind)
+        }
         Err((msg, help)) => {
-            let id = loaded.db.add(file);
-            let mut at = whole_file(id);
+            let mut at = whole_file(0);
             at.span = bad_span;
-            loaded.problems.push(
-                Finding::new(INVALID_INPUT, at, msg)
+            Prepared {
+                file,
+                problems: vec![Finding::new(INVALID_INPUT, at, msg)
                     .label("unreadable")
-                    .with_help(help),
-            );
-            return None;
+                    .with_help(help)],
+                ok: false,
+            }
         }
     }
-    ingest(loaded, file, limits, kind)
+}
+
+/// Parse and schema-check a file whose text is already read.
+fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> Prepared {
+    match yaml::parse(&file.text, limits.yaml) {
+        Ok(tree) => file.tree = Some(tree),
+        Err(e) => {
+            let problem = Finding::new(
+                INVALID_INPUT,
+                Location {
+                    file: 0,
+                    pointer: String::new(),
+                    span: e.span,
+                },
+                e.message,
+            )
+            .label("YAML error here");
+            return Prepared {
+                file,
+                problems: vec![problem],
+                ok: false,
+            };
+        }
+    }
+    // Validate as file 0 of a database of its own.
+    let mut alone = SourceDb { files: vec![file] };
+    let problems = schema::validate(&alone, 0, kind);
+    let file = alone.files.pop().expect("the file just put there");
+    Prepared {
+        file,
+        ok: problems.is_empty(),
+        problems,
+    }
+}
+
+/// Add a prepared file to the database and its problems to the run;
+/// returns its id when it parsed and passed the schema.
+fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<FileId> {
+    let id = loaded.db.add(prepared.file);
+    for mut f in prepared.problems {
+        f.primary.file = id;
+        for l in &mut f.labels {
+            l.location.file = id;
+        }
+        loaded.problems.push(f);
+    }
+    prepared.ok.then_some(id)
 }
 
 /// The built-in library of generic material classes (typical values, not
@@ -138,50 +194,21 @@ pub const BUILTIN_GENERIC: &str = include_str!("../materials/generic.materials.y
 /// Name by which stackups reference the built-in library.
 pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
 
-/// Parse and schema-check a file whose text is already read.
-fn ingest(
-    loaded: &mut Loaded,
-    mut file: SourceFile,
-    limits: &InputLimits,
-    kind: FileKind,
-) -> Option<FileId> {
-    let parsed = yaml::parse(&file.text, limits.yaml);
-    let id = match parsed {
-        Ok(tree) => {
-            file.tree = Some(tree);
-            loaded.db.add(file)
-        }
-        Err(e) => {
-            let id = loaded.db.add(file);
-            loaded.problems.push(
-                Finding::new(
-                    INVALID_INPUT,
-                    Location {
-                        file: id,
-                        pointer: String::new(),
-                        span: e.span,
-                    },
-                    e.message,
-                )
-                .label("YAML error here"),
-            );
-            return None;
-        }
-    };
-    let errors = schema::validate(&loaded.db, id, kind);
-    if !errors.is_empty() {
-        loaded.problems.extend(errors);
-        return None;
-    }
-    Some(id)
-}
-
 /// Load stackup files (and the libraries they reference).
+///
+/// Reading, YAML and schema run on the `--threads` workers, then libraries
+/// are loaded once each in file order, then the models are built on the
+/// workers again; problems keep the order of a one-file-at-a-time load.
 pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
+    let prepared =
+        crate::analysis::in_parallel(paths, |path| prepare(path, base, limits, FileKind::Stackup));
     let mut loaded = Loaded::default();
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
-    for path in paths {
-        let Some(id) = read_file(&mut loaded, path, base, limits, FileKind::Stackup) else {
+    // Per stackup, in order: where its problems so far end, and the model
+    // to build (its file and libraries).
+    let mut builds: Vec<(usize, FileId, Vec<LibraryData>)> = Vec::new();
+    for (path, prepared) in paths.iter().zip(prepared) {
+        let Some(id) = admit(&mut loaded, prepared) else {
             continue;
         };
         let mut libs = Vec::new();
@@ -235,9 +262,12 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
                         text: BUILTIN_GENERIC.to_string(),
                         tree: None,
                     };
-                    ingest(&mut loaded, file, limits, FileKind::Library)
+                    admit(&mut loaded, prepare_text(file, limits, FileKind::Library))
                 } else {
-                    read_file(&mut loaded, &lib_path, base, limits, FileKind::Library)
+                    admit(
+                        &mut loaded,
+                        prepare(&lib_path, base, limits, FileKind::Library),
+                    )
                 };
                 let data = lid.and_then(|lid| {
                     let (data, errors) = model::load_library(&loaded.db, lid);
@@ -255,11 +285,25 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
         if !libs_ok {
             continue;
         }
-        match model::build_stackup(&loaded.db, id, &libs) {
+        builds.push((loaded.problems.len(), id, libs));
+    }
+    let db = &loaded.db;
+    let built =
+        crate::analysis::in_parallel(&builds, |(_, id, libs)| model::build_stackup(db, *id, libs));
+    // Put each model's problems where a sequential load would have.
+    let mut problems = Vec::with_capacity(loaded.problems.len());
+    let mut earlier = std::mem::take(&mut loaded.problems).into_iter();
+    let mut taken = 0;
+    for ((at, _, _), result) in builds.iter().zip(built) {
+        problems.extend(earlier.by_ref().take(at - taken));
+        taken = *at;
+        match result {
             Ok(s) => loaded.stackups.push(s),
-            Err(errors) => loaded.problems.extend(errors),
+            Err(errors) => problems.extend(errors),
         }
     }
+    problems.extend(earlier);
+    loaded.problems = problems;
     loaded
 }
 
@@ -272,7 +316,7 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits) -> Loaded {
         text: text.to_string(),
         tree: None,
     };
-    if let Some(id) = ingest(&mut loaded, file, limits, FileKind::Stackup) {
+    if let Some(id) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
         match model::build_stackup(&loaded.db, id, &[]) {
             Ok(s) => loaded.stackups.push(s),
             Err(errors) => loaded.problems.extend(errors),

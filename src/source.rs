@@ -82,16 +82,102 @@ pub struct Location {
 /// SARIF regions use this convention (`columnKind: unicodeCodePoints`); it is
 /// the one place where byte offsets become line/column.
 pub fn line_col(text: &str, byte: usize) -> (usize, usize) {
-    let byte = byte.min(text.len());
-    let byte = (0..=byte)
-        .rev()
-        .find(|&b| text.is_char_boundary(b))
-        .unwrap_or(0);
+    let byte = floor_char_boundary(text, byte);
     let before = &text[..byte];
     let line = before.bytes().filter(|&b| b == b'\n').count() + 1;
     let line_start = before.rfind('\n').map_or(0, |i| i + 1);
     let col = text[line_start..byte].chars().count() + 1;
     (line, col)
+}
+
+/// Where each line of a text starts, for [`line_col`] answers by binary
+/// search instead of a scan from the start of the file (a renderer asks
+/// for every finding and label, and a file can hold thousands of them).
+///
+/// Lines end at `\n`, as in [`line_col`]; a `\r` before it belongs to the
+/// line it ends.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct LineIndex {
+    /// Byte offset of the first byte of each line; `starts[0] == 0`.
+    starts: Vec<usize>,
+}
+
+impl LineIndex {
+    pub fn new(text: &str) -> LineIndex {
+        let mut starts = vec![0];
+        starts.extend(
+            text.bytes()
+                .enumerate()
+                .filter(|&(_, b)| b == b'\n')
+                .map(|(i, _)| i + 1),
+        );
+        LineIndex { starts }
+    }
+
+    /// Byte offsets where lines start (the first is 0).
+    pub fn starts(&self) -> &[usize] {
+        &self.starts
+    }
+
+    /// 0-based line holding byte `byte` (the last line for offsets past
+    /// the end).
+    pub fn line_of(&self, byte: usize) -> usize {
+        self.starts.partition_point(|&s| s <= byte) - 1
+    }
+
+    /// The same answer as [`line_col`]`(text, byte)`, for the `text` this
+    /// index was built from.
+    pub fn line_col(&self, text: &str, byte: usize) -> (usize, usize) {
+        let byte = floor_char_boundary(text, byte);
+        let line = self.line_of(byte);
+        let col = text[self.starts[line]..byte].chars().count() + 1;
+        (line + 1, col)
+    }
+}
+
+/// Line indexes of a run's files, each built the first time it is asked
+/// for (outputs use it to turn many spans into lines and columns).
+#[derive(Debug)]
+pub struct DbLines<'a> {
+    db: &'a SourceDb,
+    index: Vec<std::sync::OnceLock<LineIndex>>,
+}
+
+impl<'a> DbLines<'a> {
+    pub fn new(db: &'a SourceDb) -> DbLines<'a> {
+        DbLines {
+            db,
+            index: db
+                .files
+                .iter()
+                .map(|_| std::sync::OnceLock::new())
+                .collect(),
+        }
+    }
+
+    /// The files these indexes are of.
+    pub fn db(&self) -> &'a SourceDb {
+        self.db
+    }
+
+    /// The line index of file `file`.
+    pub fn of(&self, file: FileId) -> &LineIndex {
+        self.index[file].get_or_init(|| LineIndex::new(&self.db.get(file).text))
+    }
+
+    /// [`line_col`] of byte `byte` in file `file`.
+    pub fn line_col(&self, file: FileId, byte: usize) -> (usize, usize) {
+        self.of(file).line_col(&self.db.get(file).text, byte)
+    }
+}
+
+/// `byte` clamped to the text and moved back to a character boundary.
+fn floor_char_boundary(text: &str, byte: usize) -> usize {
+    let byte = byte.min(text.len());
+    (0..=byte)
+        .rev()
+        .find(|&b| text.is_char_boundary(b))
+        .unwrap_or(0)
 }
 
 /// Escape one JSON-pointer token (RFC 6901).
@@ -110,5 +196,40 @@ mod tests {
         // 'c' is after the two-byte µ: byte 5, column 2.
         assert_eq!(line_col(t, 5), (2, 2));
         assert_eq!(line_col(t, t.len()), (3, 1));
+    }
+
+    /// The index must answer exactly as the scan does, at every byte
+    /// (inside multibyte characters too) and past the end.
+    #[test]
+    fn line_index_agrees_with_the_scan_everywhere() {
+        let texts = [
+            "",
+            "\n",
+            "\n\n\n",
+            "a",
+            "ab\nµc d\n",
+            "no newline at the end",
+            // Two-, three- and four-byte characters, CRLF endings, a lone CR.
+            "name: Ω\r\nεr: 4.2 # ≈\r\n\r\n🙂🙂: x\rstill line 4\nlast",
+            "layers:\n  - name: L1 # 1 oz Cu\n    thickness: 35 µm\n\n",
+        ];
+        for t in texts {
+            let idx = LineIndex::new(t);
+            for b in 0..=t.len() + 3 {
+                assert_eq!(idx.line_col(t, b), line_col(t, b), "{t:?} at byte {b}");
+            }
+        }
+        // Known answers for the CRLF text: 'ε' starts line 2 at byte 10;
+        // 'r' after it is column 2 (one character, two bytes).
+        let t = texts[6];
+        let idx = LineIndex::new(t);
+        assert_eq!(idx.line_col(t, 10), (2, 1));
+        assert_eq!(idx.line_col(t, 12), (2, 2));
+        // Inside the two-byte 'ε' the column is the character's own.
+        assert_eq!(idx.line_col(t, 11), (2, 1));
+        // The lone CR does not end a line: "still" is on line 4.
+        let still = t.find("still").unwrap();
+        assert_eq!(idx.line_col(t, still), (4, 7));
+        assert_eq!(idx.starts().len(), 5);
     }
 }

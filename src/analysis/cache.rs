@@ -8,17 +8,23 @@
 //!   build's numbers) and the cross-section's full `Debug` text (every f64
 //!   printed in its shortest round-trip form).
 //! - **Entry**: one file per key at `<dir>/<2 hex>/<62 hex>`. It holds the
-//!   full key text (compared on read: a hash collision or a misplaced file
-//!   is a miss, never a wrong result), the result with every f64 stored as
-//!   its bit pattern (so a warm run prints byte-identical output), and a
-//!   SHA-256 of everything before it (a truncated or damaged file is a
-//!   miss and is rewritten). Solver errors are cached too: they are as
+//!   key's full SHA-256 (compared on read: a misplaced file or another
+//!   key's entry is a miss, never a wrong result; two key texts with the
+//!   same SHA-256 are not known to exist), the result with every f64
+//!   stored as its bit pattern (so a warm run prints byte-identical
+//!   output), and a SHA-256 of everything before it (a truncated or
+//!   damaged file is a miss and is rewritten). The key text itself (about
+//!   1.5 KB) is not stored: entries are about 500 bytes, and a hit hashes
+//!   the key once and the short entry once. Solver errors are cached too: they are as
 //!   deterministic as the numbers (the section is outside what the solver
 //!   meshes) and cost a mesh to find.
 //! - **Concurrency**: an entry is written to a temporary file in its shard
 //!   directory and renamed into place, so a reader sees a whole entry or
 //!   none. Two runs that solve the same section write the same bytes.
-//! - **Size**: bounded by [`DEFAULT_MAX_BYTES`] (`STACKUP_LINT_CACHE_SIZE`).
+//! - **Size**: bounded by [`DEFAULT_MAX_BYTES`] (`STACKUP_LINT_CACHE_SIZE`)
+//!   of disk space, counted in the blocks the files take (a 500-byte entry
+//!   takes a whole 4 KiB block on common file systems, so counting bytes
+//!   would let the directory grow to eight times its bound).
 //!   Each run that stores entries adds their size to a small usage file;
 //!   only when that estimate passes the bound is the directory scanned and
 //!   the least recently used entries (oldest modification time; a hit
@@ -32,18 +38,33 @@ use std::path::{Path, PathBuf};
 use std::sync::{Arc, RwLock};
 use std::time::{Duration, SystemTime};
 
+use sha2::digest::Output;
 use sha2::{Digest, Sha256};
 use stackup_physics::fieldsolver::{Pair, SingleEnded, SolvedLine, SolverOptions};
 
 /// Bump when the field solver, its default options or the entry layout
 /// change in a way that changes results (the executable's identity is in
 /// the key as well, but an explicit version keeps installed builds honest).
-pub const FORMAT: u32 = 1;
+pub const FORMAT: u32 = 2;
 
-/// Default bound on the cache directory's size.
-pub const DEFAULT_MAX_BYTES: u64 = 64 * 1024 * 1024;
+/// Default bound on the disk space of the cache directory: 1 GiB. One
+/// cached solve takes one 4 KiB block; a repository of 1,000 boards
+/// (`bench/synth-monorepo.py --files 1000`, 4 to 24 layers, 10 to 40 net
+/// classes) needs about 92,000 of them, 360 MiB, so 1 GiB holds it with
+/// room to spare (eviction goes down to 3/4 of the bound, 768 MiB, still
+/// twice that), and about 2,800 such boards in all.
+pub const DEFAULT_MAX_BYTES: u64 = 1 << 30;
 
-const MAGIC: &str = "stackup-lint field-solver cache entry";
+/// Disk space charged for an entry of `len` bytes before the directory is
+/// scanned (then the file system's own block count is used): whole 4 KiB
+/// blocks.
+const BLOCK: u64 = 4096;
+
+/// Larger files in the cache directory are not entries (one is about 500
+/// bytes; a cached error message is short too) and are not read.
+const MAX_ENTRY: u64 = 1 << 20;
+
+const MAGIC: &str = "stackup-lint field-solver cache entry, format 2";
 const USAGE_FILE: &str = "usage";
 /// Temporary files older than this are left-overs of a killed run.
 const STALE_TEMP: Duration = Duration::from_secs(3600);
@@ -55,7 +76,9 @@ const TOUCH_AFTER: Duration = Duration::from_secs(600);
 pub struct DiskCache {
     dir: PathBuf,
     max_bytes: u64,
-    engine: String,
+    /// SHA-256 state after the engine identity and a newline, the prefix
+    /// of every key text; a key's digest continues from a copy of it.
+    engine: Sha256,
 }
 
 /// What one lookup-and-store pass did (for `STACKUP_LINT_CACHE_DEBUG`).
@@ -96,10 +119,13 @@ impl DiskCache {
         // Prove it is writable now rather than failing on every store.
         let probe = tempfile::NamedTempFile::new_in(dir)?;
         drop(probe);
+        let mut prefix = Sha256::new();
+        prefix.update(engine.as_bytes());
+        prefix.update(b"\n");
         Ok(DiskCache {
             dir: dir.to_path_buf(),
             max_bytes,
-            engine,
+            engine: prefix,
         })
     }
 
@@ -107,31 +133,45 @@ impl DiskCache {
         &self.dir
     }
 
-    fn key_text(&self, section_key: &str) -> String {
-        format!("{}\n{section_key}", self.engine)
+    /// SHA-256 of the key text: the engine identity, a newline, the
+    /// section's key.
+    fn digest(&self, section_key: &str) -> Output<Sha256> {
+        let mut h = self.engine.clone();
+        h.update(section_key.as_bytes());
+        h.finalize()
     }
 
-    fn path_of(&self, key_text: &str) -> PathBuf {
-        let hex = hex(&Sha256::digest(key_text.as_bytes()));
+    fn path_of(&self, digest: &[u8]) -> PathBuf {
+        let hex = hex(digest);
         self.dir.join(&hex[..2]).join(&hex[2..])
     }
 
     /// The cached result for `section_key`, or `None` (missing, unreadable,
     /// damaged, or written for another key).
     pub fn get(&self, section_key: &str) -> Option<Result<SolvedLine, String>> {
-        let key_text = self.key_text(section_key);
-        let path = self.path_of(&key_text);
-        let bytes = std::fs::read(&path).ok()?;
-        let value = decode(&bytes, &key_text)?;
-        touch(&path);
+        let digest = self.digest(section_key);
+        let path = self.path_of(&digest);
+        // Open, size, one read: an entry is replaced by renaming a new file
+        // over it, never written in place, so the opened file keeps the
+        // size it was seen with (a shorter read is a miss).
+        let mut file = std::fs::File::open(&path).ok()?;
+        let meta = file.metadata().ok()?;
+        if meta.len() > MAX_ENTRY {
+            return None;
+        }
+        let mut bytes = vec![0; usize::try_from(meta.len()).ok()?];
+        std::io::Read::read_exact(&mut file, &mut bytes).ok()?;
+        let value = decode(&bytes, &digest)?;
+        touch(&file, &meta, &path);
         Some(value)
     }
 
-    /// Store a result; returns the bytes written (0 when it failed).
+    /// Store a result; returns the disk space charged for it (whole 4 KiB
+    /// blocks; 0 when it failed).
     pub fn put(&self, section_key: &str, value: &Result<SolvedLine, String>) -> u64 {
-        let key_text = self.key_text(section_key);
-        let path = self.path_of(&key_text);
-        let bytes = encode(&key_text, value);
+        let digest = self.digest(section_key);
+        let path = self.path_of(&digest);
+        let bytes = encode(&digest, value);
         let write = || -> std::io::Result<()> {
             let shard = path.parent().unwrap_or(&self.dir);
             std::fs::create_dir_all(shard)?;
@@ -141,7 +181,7 @@ impl DiskCache {
             Ok(())
         };
         match write() {
-            Ok(()) => bytes.len() as u64,
+            Ok(()) => (bytes.len() as u64).div_ceil(BLOCK) * BLOCK,
             Err(_) => 0,
         }
     }
@@ -191,7 +231,7 @@ impl DiskCache {
                 let fname = f.file_name();
                 let fname = fname.to_string_lossy();
                 if fname.len() == 62 && fname.bytes().all(|b| b.is_ascii_hexdigit()) {
-                    entries.push((modified, meta.len(), f.path()));
+                    entries.push((modified, on_disk(&meta), f.path()));
                 } else if fname.starts_with(".tmp")
                     && now.duration_since(modified).unwrap_or_default() > STALE_TEMP
                 {
@@ -227,16 +267,32 @@ fn write_small(dir: &Path, path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     Ok(())
 }
 
+/// Disk space a file takes: its blocks where the platform says, else its
+/// length in whole 4 KiB blocks.
+pub fn on_disk(meta: &std::fs::Metadata) -> u64 {
+    #[cfg(unix)]
+    {
+        std::os::unix::fs::MetadataExt::blocks(meta) * 512
+    }
+    #[cfg(not(unix))]
+    {
+        meta.len().div_ceil(BLOCK) * BLOCK
+    }
+}
+
 /// Mark an entry as recently used (its modification time), at most once
-/// per [`TOUCH_AFTER`]. Errors are ignored: a read-only cache still serves.
-fn touch(path: &Path) {
+/// per [`TOUCH_AFTER`], through the handle it was read by (no second
+/// lookup of the path); where that handle may not set the time, through
+/// one opened for writing. Errors are ignored: a read-only cache still
+/// serves.
+fn touch(file: &std::fs::File, meta: &std::fs::Metadata, path: &Path) {
     let now = SystemTime::now();
-    let fresh = std::fs::metadata(path)
-        .and_then(|m| m.modified())
+    let fresh = meta
+        .modified()
         .ok()
         .and_then(|t| now.duration_since(t).ok())
         .is_some_and(|age| age < TOUCH_AFTER);
-    if !fresh {
+    if !fresh && file.set_modified(now).is_err() {
         if let Ok(f) = std::fs::OpenOptions::new().write(true).open(path) {
             let _ = f.set_modified(now);
         }
@@ -244,9 +300,11 @@ fn touch(path: &Path) {
 }
 
 fn hex(bytes: &[u8]) -> String {
+    const DIGITS: &[u8; 16] = b"0123456789abcdef";
     let mut s = String::with_capacity(bytes.len() * 2);
     for b in bytes {
-        let _ = write!(s, "{b:02x}");
+        s.push(DIGITS[usize::from(b >> 4)] as char);
+        s.push(DIGITS[usize::from(b & 15)] as char);
     }
     s
 }
@@ -259,11 +317,11 @@ fn push_floats(out: &mut String, name: &str, v: &[f64]) {
     out.push('\n');
 }
 
-/// The entry's bytes: magic line, length-prefixed key text, the result,
-/// then the SHA-256 of everything before the checksum line.
-fn encode(key_text: &str, value: &Result<SolvedLine, String>) -> Vec<u8> {
-    let mut out = String::new();
-    let _ = write!(out, "{MAGIC}\nkey {}\n{key_text}\n", key_text.len());
+/// The entry's bytes: magic line, the key's SHA-256, the result, then the
+/// SHA-256 of everything before the checksum line.
+fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u8> {
+    let mut out = String::with_capacity(1024);
+    let _ = write!(out, "{MAGIC}\nkey {}\n", hex(digest));
     match value {
         Err(message) => {
             let _ = write!(out, "err {}\n{message}\n", message.len());
@@ -302,9 +360,24 @@ fn encode(key_text: &str, value: &Result<SolvedLine, String>) -> Vec<u8> {
     out.into_bytes()
 }
 
+/// A 64-bit pattern written as exactly 16 lowercase hex digits.
+fn bits_of(hex: &str) -> Option<u64> {
+    if hex.len() != 16 {
+        return None;
+    }
+    hex.bytes().try_fold(0u64, |acc, b| {
+        let digit = match b {
+            b'0'..=b'9' => b - b'0',
+            b'a'..=b'f' => b - b'a' + 10,
+            _ => return None,
+        };
+        Some(acc << 4 | u64::from(digit))
+    })
+}
+
 /// Read an entry back; `None` for anything but a whole, intact entry for
-/// exactly `key_text`.
-fn decode(bytes: &[u8], key_text: &str) -> Option<Result<SolvedLine, String>> {
+/// the key whose SHA-256 is `digest`.
+fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, String>> {
     // Checksum line: the last 72 bytes ("sha256 " + 64 hex + "\n").
     let body_len = bytes.len().checked_sub(72)?;
     let (body, tail) = bytes.split_at(body_len);
@@ -315,12 +388,10 @@ fn decode(bytes: &[u8], key_text: &str) -> Option<Result<SolvedLine, String>> {
     }
     let body = std::str::from_utf8(body).ok()?;
     let rest = body.strip_prefix(MAGIC)?.strip_prefix("\nkey ")?;
-    let (len, rest) = rest.split_once('\n')?;
-    let len: usize = len.parse().ok()?;
-    if rest.get(..len)? != key_text {
+    let (key, rest) = rest.split_once('\n')?;
+    if key != hex(digest) {
         return None;
     }
-    let rest = rest.get(len..)?.strip_prefix('\n')?;
     if let Some(rest) = rest.strip_prefix("err ") {
         let (len, rest) = rest.split_once('\n')?;
         let len: usize = len.parse().ok()?;
@@ -343,15 +414,10 @@ fn decode(bytes: &[u8], key_text: &str) -> Option<Result<SolvedLine, String>> {
             return None;
         }
         let count: usize = it.next()?.parse().ok()?;
-        let v = it
-            .map(|h| {
-                if h.len() == 16 {
-                    u64::from_str_radix(h, 16).ok().map(f64::from_bits)
-                } else {
-                    None
-                }
-            })
-            .collect::<Option<Vec<f64>>>()?;
+        let mut v = Vec::with_capacity(count.min(64));
+        for h in it {
+            v.push(f64::from_bits(bits_of(h)?));
+        }
         (v.len() == count).then_some(v)
     };
     let z_rel_error = *floats("z_rel_error")?.first()?;
@@ -454,7 +520,7 @@ pub fn default_dir() -> Option<PathBuf> {
 
 /// Set up the cache the command line uses: off when `no_cache` or
 /// `STACKUP_LINT_NO_CACHE` is set (non-empty, not `0`), else the default
-/// directory bounded by `STACKUP_LINT_CACHE_SIZE` (default 64 MiB). Any
+/// directory bounded by `STACKUP_LINT_CACHE_SIZE` (default 1 GiB). Any
 /// problem leaves the cache off; the run goes on.
 pub fn from_env(no_cache: bool) {
     let off = no_cache
@@ -468,7 +534,8 @@ pub fn from_env(no_cache: bool) {
             Some(n) => n,
             None => {
                 eprintln!(
-                    "warning: STACKUP_LINT_CACHE_SIZE `{t}` is not a size such as `64 MiB`; using 64 MiB"
+                    "warning: STACKUP_LINT_CACHE_SIZE `{t}` is not a size such as `64 MiB`; using {} MiB",
+                    DEFAULT_MAX_BYTES >> 20
                 );
                 DEFAULT_MAX_BYTES
             }
@@ -570,13 +637,20 @@ mod tests {
         );
     }
 
+    /// A cache in `dir` holding the sample under key "s": the cache, the
+    /// entry's path and its bytes.
+    fn one_entry(dir: &Path) -> (DiskCache, PathBuf, Vec<u8>) {
+        let c = cache(dir, DEFAULT_MAX_BYTES, "e");
+        c.put("s", &Ok(sample()));
+        let path = c.path_of(&c.digest("s"));
+        let good = std::fs::read(&path).unwrap();
+        (c, path, good)
+    }
+
     #[test]
     fn damaged_or_foreign_entries_are_misses_and_get_rewritten() {
         let dir = tempfile::tempdir().unwrap();
-        let c = cache(dir.path(), DEFAULT_MAX_BYTES, "e");
-        c.put("s", &Ok(sample()));
-        let path = c.path_of(&c.key_text("s"));
-        let good = std::fs::read(&path).unwrap();
+        let (c, path, good) = one_entry(dir.path());
         // Every truncation, and a flipped byte anywhere, is a miss.
         for cut in [0, 1, 40, good.len() / 2, good.len() - 73, good.len() - 1] {
             std::fs::write(&path, &good[..cut]).unwrap();
@@ -588,11 +662,52 @@ mod tests {
             std::fs::write(&path, &bad).unwrap();
             assert_eq!(c.get("s"), None, "byte {i} flipped");
         }
+        // A file larger than any entry is a miss.
+        let mut big = good.clone();
+        big.resize(MAX_ENTRY as usize + 1, b'\n');
+        std::fs::write(&path, &big).unwrap();
+        assert_eq!(c.get("s"), None);
         // A whole, valid entry for another key at this path is a miss too.
-        std::fs::write(&path, encode(&c.key_text("other"), &Ok(sample()))).unwrap();
+        std::fs::write(&path, encode(&c.digest("other"), &Ok(sample()))).unwrap();
         assert_eq!(c.get("s"), None);
         c.put("s", &Ok(sample()));
         assert_eq!(c.get("s"), Some(Ok(sample())));
+        assert_eq!(std::fs::read(&path).unwrap(), good);
+    }
+
+    #[test]
+    fn entries_hold_the_key_digest_not_the_key_text() {
+        let dir = tempfile::tempdir().unwrap();
+        let c = cache(dir.path(), DEFAULT_MAX_BYTES, "engine A");
+        // A key as long as a real section's `Debug` text.
+        let key = format!("CrossSection {{ {} }}", "slab: 1.27e-4, ".repeat(100));
+        let charged = c.put(&key, &Ok(sample()));
+        // The digest is the SHA-256 of the whole key text, engine first.
+        let whole = Sha256::digest(format!("engine A\n{key}").as_bytes());
+        assert_eq!(c.digest(&key), whole);
+        let path = c.path_of(&whole);
+        let bytes = std::fs::read(&path).unwrap();
+        let text = String::from_utf8(bytes.clone()).unwrap();
+        assert!(text.contains(&format!("\nkey {}\n", hex(&whole))));
+        assert!(!text.contains("slab"), "the key text is not stored");
+        assert!(bytes.len() < 1024, "{} bytes", bytes.len());
+        // Charged in whole 4 KiB blocks.
+        assert_eq!(charged, BLOCK);
+        assert_eq!(c.get(&key), Some(Ok(sample())));
+    }
+
+    #[test]
+    fn an_entry_of_the_previous_layout_is_a_miss_and_gets_rewritten() {
+        let dir = tempfile::tempdir().unwrap();
+        let (c, path, good) = one_entry(dir.path());
+        // Format 1 kept the whole key text, length-prefixed, with its own
+        // magic line and a valid checksum.
+        let mut old = String::from("stackup-lint field-solver cache entry\nkey 3\ne\ns\n");
+        old.push_str("ok 1 10\n");
+        old = format!("{old}sha256 {}\n", hex(&Sha256::digest(old.as_bytes())));
+        std::fs::write(&path, old).unwrap();
+        assert_eq!(c.get("s"), None);
+        c.put("s", &Ok(sample()));
         assert_eq!(std::fs::read(&path).unwrap(), good);
     }
 
@@ -601,7 +716,7 @@ mod tests {
         let dir = tempfile::tempdir().unwrap();
         let probe = cache(dir.path(), DEFAULT_MAX_BYTES, "e");
         let one = probe.put("probe", &Ok(sample()));
-        std::fs::remove_file(probe.path_of(&probe.key_text("probe"))).unwrap();
+        std::fs::remove_file(probe.path_of(&probe.digest("probe"))).unwrap();
         // Room for ten entries (the keys differ by a digit only).
         let c = cache(dir.path(), one * 10 + one / 2, "e");
         let old = SystemTime::now() - Duration::from_secs(86_400);
@@ -612,7 +727,7 @@ mod tests {
             // Entry i was last used i minutes after a day ago.
             let f = std::fs::OpenOptions::new()
                 .write(true)
-                .open(c.path_of(&c.key_text(&key)))
+                .open(c.path_of(&c.digest(&key)))
                 .unwrap();
             f.set_modified(old + Duration::from_secs(60 * i)).unwrap();
         }
@@ -639,9 +754,38 @@ mod tests {
             .unwrap();
         let left: u64 = ["s0", "s6", "s7", "s8", "s9", "s10", "s11"]
             .iter()
-            .map(|k| std::fs::metadata(c.path_of(&c.key_text(k))).unwrap().len())
+            .map(|k| on_disk(&std::fs::metadata(c.path_of(&c.digest(k))).unwrap()))
             .sum();
         assert_eq!(usage, left);
+    }
+
+    #[test]
+    fn bit_patterns_parse_as_written() {
+        for x in [
+            0.0,
+            -0.0,
+            1.0 / 3.0,
+            f64::MIN_POSITIVE,
+            f64::MAX,
+            f64::NAN,
+            5e-324,
+        ] {
+            let text = format!("{:016x}", x.to_bits());
+            assert_eq!(bits_of(&text), Some(x.to_bits()), "{text}");
+        }
+        assert_eq!(bits_of("0123456789abcdef"), Some(0x0123_4567_89ab_cdef));
+        // Only what `encode` writes: 16 lowercase hex digits.
+        for bad in [
+            "",
+            "0",
+            "0123456789abcde",
+            "0123456789abcdef0",
+            "0123456789ABCDEF",
+        ] {
+            assert_eq!(bits_of(bad), None, "{bad}");
+        }
+        assert_eq!(bits_of("+123456789abcdef"), None);
+        assert_eq!(bits_of("0123456789abcdeg"), None);
     }
 
     #[test]

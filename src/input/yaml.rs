@@ -5,6 +5,7 @@
 //! expanded under a node budget (alias bombs are rejected) and nesting depth
 //! is bounded; both limits are configurable through [`YamlLimits`].
 
+use std::borrow::Cow;
 use std::collections::HashMap;
 use std::ops::Range;
 
@@ -62,6 +63,17 @@ pub struct YamlError {
     pub span: Range<usize>,
 }
 
+/// One JSON-pointer token with `~1` and `~0` turned back into `/` and `~`
+/// (RFC 6901, in that order); borrowed when it has no `~`, as almost every
+/// token has (the model looks up thousands of pointers per file).
+fn unescape_token(raw: &str) -> Cow<'_, str> {
+    if raw.contains('~') {
+        Cow::Owned(raw.replace("~1", "/").replace("~0", "~"))
+    } else {
+        Cow::Borrowed(raw)
+    }
+}
+
 impl Node {
     /// Look up a JSON pointer (RFC 6901), e.g. `/layers/3/thickness`.
     pub fn pointer(&self, pointer: &str) -> Option<&Node> {
@@ -70,7 +82,7 @@ impl Node {
         }
         let mut node = self;
         for raw in pointer.strip_prefix('/')?.split('/') {
-            let token = raw.replace("~1", "/").replace("~0", "~");
+            let token = unescape_token(raw);
             node = match &node.value {
                 Value::Map(entries) => &entries.iter().find(|e| e.key == token)?.value,
                 Value::Seq(items) => items.get(token.parse::<usize>().ok()?)?,
@@ -87,7 +99,7 @@ impl Node {
             Some(i) => (&pointer[..i], &pointer[i + 1..]),
             None => return self.pointer(pointer).map(|n| n.span.clone()),
         };
-        let token = last.replace("~1", "/").replace("~0", "~");
+        let token = unescape_token(last);
         match &self.pointer(parent)?.value {
             Value::Map(entries) => entries
                 .iter()
@@ -289,6 +301,10 @@ struct Builder<'o, 'a> {
     nodes: usize,
 }
 
+/// Mappings with more keys than this find duplicate keys through a hash
+/// map instead of a scan.
+const SMALL_MAP: usize = 16;
+
 impl Builder<'_, '_> {
     fn count(&mut self, n: usize, span: &Range<usize>) -> Result<(), YamlError> {
         self.nodes = self.nodes.saturating_add(n);
@@ -376,9 +392,11 @@ impl Builder<'_, '_> {
             Event::MappingStart(anchor, _) => {
                 self.count(1, &range)?;
                 let mut entries: Vec<Entry> = Vec::new();
-                // Key -> index in `entries`: a linear search per key made a
-                // 100 000-key mapping take minutes.
-                let mut seen: HashMap<String, usize> = HashMap::new();
+                // Key -> index in `entries`, built once the mapping passes
+                // `SMALL_MAP` keys: a linear search per key made a 100 000-key
+                // mapping take minutes, but for the few keys of a real
+                // mapping a scan is cheaper than hashing and copying keys.
+                let mut seen: Option<HashMap<String, usize>> = None;
                 let mut end = range.end;
                 loop {
                     let (ev, sp) = self.next_in(parser, &range, '}')?;
@@ -404,7 +422,11 @@ impl Builder<'_, '_> {
                     };
                     let (ev, sp) = self.next_in(parser, &range, '}')?;
                     let value = self.node(parser, ev, sp, depth + 1)?;
-                    if let Some(&first) = seen.get(&key) {
+                    let earlier = match &seen {
+                        Some(index) => index.get(&key).copied(),
+                        None => entries.iter().position(|e| e.key == key),
+                    };
+                    if let Some(first) = earlier {
                         let (line, _) = crate::source::line_col(
                             self.offsets.text,
                             entries[first].key_span.start,
@@ -417,7 +439,21 @@ impl Builder<'_, '_> {
                             span: key_node.span,
                         });
                     }
-                    seen.insert(key.clone(), entries.len());
+                    match &mut seen {
+                        Some(index) => {
+                            index.insert(key.clone(), entries.len());
+                        }
+                        None if entries.len() >= SMALL_MAP => {
+                            let mut index: HashMap<String, usize> = entries
+                                .iter()
+                                .enumerate()
+                                .map(|(i, e)| (e.key.clone(), i))
+                                .collect();
+                            index.insert(key.clone(), entries.len());
+                            seen = Some(index);
+                        }
+                        None => {}
+                    }
                     end = end.max(value.span.end);
                     entries.push(Entry {
                         key,
@@ -577,6 +613,38 @@ mod tests {
         parse(t, YamlLimits::default())
     }
 
+    /// The example document and pointers of RFC 6901, section 5, plus
+    /// `~01` (a key `~1`: `~1` is undone before `~0`, RFC 6901 section 4).
+    #[test]
+    fn json_pointers_follow_rfc_6901() {
+        let t = r#"{"foo": ["bar", "baz"], "": 0, "a/b": 1, "c%d": 2, "e^f": 3, "g|h": 4, 'i\j': 5, 'k"l': 6, " ": 7, "m~n": 8, "~1": 9}"#;
+        let n = p(t).unwrap();
+        let num = |ptr: &str| match n.pointer(ptr).map(|x| &x.value) {
+            Some(Value::Number(v)) => Some(*v),
+            _ => None,
+        };
+        assert_eq!(n.pointer("").unwrap().span, n.span);
+        assert_eq!(n.pointer("/foo/0").unwrap().as_str(), Some("bar"));
+        for (ptr, want) in [
+            ("/", 0.0),
+            ("/a~1b", 1.0),
+            ("/c%d", 2.0),
+            ("/e^f", 3.0),
+            ("/g|h", 4.0),
+            ("/i\\j", 5.0),
+            ("/k\"l", 6.0),
+            ("/ ", 7.0),
+            ("/m~0n", 8.0),
+            ("/~01", 9.0),
+        ] {
+            assert_eq!(num(ptr), Some(want), "{ptr}");
+        }
+        assert_eq!(num("/a/b"), None);
+        // The key's own span, found through an escaped token.
+        let key = n.key_span("/a~1b").unwrap();
+        assert_eq!(&t[key], "\"a/b\"");
+    }
+
     #[test]
     fn spans_point_at_values() {
         let t = "a:\n  b: 4 mil\n  c: [1, 2]\n";
@@ -661,6 +729,34 @@ mod tests {
     fn duplicate_key_message_names_the_first_line() {
         let e = p("a: 1\nb: 2\na: 3\n").unwrap_err();
         assert!(e.message.contains("first at line 1"), "{}", e.message);
+    }
+
+    /// Duplicates are found alike below and above the size where the
+    /// search switches from a scan to a hash map, whichever key repeats.
+    #[test]
+    fn duplicate_keys_are_found_in_small_and_large_mappings() {
+        for n in [1, 2, SMALL_MAP, SMALL_MAP + 1, SMALL_MAP + 2, 3 * SMALL_MAP] {
+            let keys: String = (0..n).map(|i| format!("k{i}: {i}\n")).collect();
+            let tree = p(&keys).unwrap();
+            match &tree.value {
+                Value::Map(entries) => {
+                    let names: Vec<&str> = entries.iter().map(|e| e.key.as_str()).collect();
+                    let want: Vec<String> = (0..n).map(|i| format!("k{i}")).collect();
+                    assert_eq!(names, want);
+                }
+                other => panic!("{other:?}"),
+            }
+            for j in [0, n / 2, n - 1] {
+                let t = format!("{keys}k{j}: again\n");
+                let e = p(&t).unwrap_err();
+                assert!(
+                    e.message.contains(&format!("first at line {}", j + 1)),
+                    "{n} keys, k{j}: {}",
+                    e.message
+                );
+                assert_eq!(e.span.start, keys.len(), "{n} keys, k{j}");
+            }
+        }
     }
 
     #[test]

@@ -21,7 +21,7 @@ use std::collections::HashMap;
 use serde::Serialize;
 
 use crate::finding::{fnv1a64, Finding, Severity, INVALID_INPUT};
-use crate::source::{line_col, SourceDb};
+use crate::source::{DbLines, SourceDb};
 
 #[derive(Serialize)]
 struct Lines {
@@ -59,13 +59,14 @@ pub fn severity(f: &Finding) -> &'static str {
 /// Render the unsuppressed, not baselined findings as a code quality report.
 pub fn render(findings: &[Finding], db: &SourceDb) -> String {
     let mut seen: HashMap<String, usize> = HashMap::new();
+    let lines = DbLines::new(db);
     let issues: Vec<Issue> = findings
         .iter()
         .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
         .map(|f| {
             let file = db.get(f.primary.file);
-            let (begin, _) = line_col(&file.text, f.primary.span.start);
-            let (end, _) = line_col(&file.text, f.primary.span.end);
+            let (begin, _) = lines.line_col(f.primary.file, f.primary.span.start);
+            let (end, _) = lines.line_col(f.primary.file, f.primary.span.end);
             let base = f.fingerprint(&file.display);
             let n = seen.entry(base.clone()).or_insert(0);
             let fingerprint = if *n == 0 {

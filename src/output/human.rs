@@ -2,18 +2,95 @@
 //! the same layout without colour when not a TTY or when NO_COLOR is set.
 
 use std::fmt;
-use std::sync::Arc;
+use std::sync::{Arc, OnceLock};
 
 use miette::{
-    Diagnostic, GraphicalReportHandler, GraphicalTheme, LabeledSpan, NamedSource, SourceCode,
+    Diagnostic, GraphicalReportHandler, GraphicalTheme, LabeledSpan, MietteError,
+    MietteSpanContents, NamedSource, SourceCode, SourceSpan, SpanContents,
 };
 
 use crate::finding::{Finding, Severity};
-use crate::source::{line_col, SourceDb};
+use crate::source::{LineIndex, SourceDb};
+
+/// A file's text for miette, with a line index.
+///
+/// miette's own reader of a text finds a span's lines by scanning from the
+/// first byte, so each snippet of a long file costs a pass over everything
+/// before it. This reader hands that same reader only the tail of the text
+/// that starts a few lines before the span, then moves its answer back to
+/// whole-file offsets and line numbers, so the contents are exactly those
+/// of a whole-text read (`tests` below compares the two at every offset).
+#[derive(Debug, Clone)]
+struct IndexedText {
+    text: Arc<str>,
+    lines: Arc<LineIndex>,
+    /// Line breaks as miette counts them (`\n`, `\r\n` and a lone `\r`)
+    /// before each line start of `lines`; `None` when the text has no lone
+    /// `\r`, so the count is the line's number.
+    breaks: Option<Arc<[usize]>>,
+}
+
+impl IndexedText {
+    fn new(text: &str) -> IndexedText {
+        let lines = LineIndex::new(text);
+        let bytes = text.as_bytes();
+        let lone_cr = |i: usize| bytes[i] == b'\r' && bytes.get(i + 1) != Some(&b'\n');
+        let breaks = (0..bytes.len()).any(lone_cr).then(|| {
+            let mut crs = 0;
+            let mut from = 0;
+            lines
+                .starts()
+                .iter()
+                .enumerate()
+                .map(|(line, &start)| {
+                    crs += (from..start).filter(|&i| lone_cr(i)).count();
+                    from = start;
+                    line + crs
+                })
+                .collect()
+        });
+        IndexedText {
+            text: Arc::from(text),
+            lines: Arc::new(lines),
+            breaks,
+        }
+    }
+}
+
+impl SourceCode for IndexedText {
+    fn read_span<'a>(
+        &'a self,
+        span: &SourceSpan,
+        context_lines_before: usize,
+        context_lines_after: usize,
+    ) -> Result<Box<dyn SpanContents<'a> + 'a>, MietteError> {
+        // Start two lines more than the context before the span's line: the
+        // scan then sees at least `context_lines_before + 2` line breaks
+        // before the span, as many as it keeps, and starts at a line start
+        // with nothing of the span seen yet, the state it would be in
+        // there after scanning from the first byte.
+        let first = self
+            .lines
+            .line_of(span.offset())
+            .saturating_sub(context_lines_before.saturating_add(2));
+        let start = self.lines.starts()[first];
+        let breaks_before = self.breaks.as_ref().map_or(first, |b| b[first]);
+        let tail = &self.text.as_bytes()[start..];
+        let local = SourceSpan::new((span.offset() - start).into(), span.len());
+        let c = tail.read_span(&local, context_lines_before, context_lines_after)?;
+        Ok(Box::new(MietteSpanContents::new(
+            c.data(),
+            SourceSpan::new((c.span().offset() + start).into(), c.span().len()),
+            c.line() + breaks_before,
+            c.column(),
+            c.line_count() + breaks_before,
+        )))
+    }
+}
 
 struct Rendered<'a> {
     finding: &'a Finding,
-    source: NamedSource<Arc<str>>,
+    source: NamedSource<IndexedText>,
     labels: Vec<LabeledSpan>,
     help: Option<String>,
     related: Vec<Related>,
@@ -23,7 +100,7 @@ struct Rendered<'a> {
 #[derive(Debug)]
 struct Related {
     message: String,
-    source: NamedSource<Arc<str>>,
+    source: NamedSource<IndexedText>,
     label: LabeledSpan,
 }
 
@@ -111,14 +188,13 @@ pub struct HumanOptions {
 }
 
 /// Render all findings (suppressed and baselined ones are left out) as
-/// terminal text.
+/// terminal text. Findings are rendered on the `--threads` workers and
+/// joined in order, so the text does not depend on the thread count.
 pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String {
-    // One shared copy of each file's text, however many findings point into it.
-    let texts: Vec<Arc<str>> = db
-        .files
-        .iter()
-        .map(|f| Arc::from(f.text.as_str()))
-        .collect();
+    // One shared copy of each file's text and line index, however many
+    // findings point into it, built when a finding first needs it.
+    let texts: Vec<OnceLock<IndexedText>> = db.files.iter().map(|_| OnceLock::new()).collect();
+    let text = |file: usize| texts[file].get_or_init(|| IndexedText::new(&db.get(file).text));
     let theme = if opts.color {
         GraphicalTheme::unicode()
     } else {
@@ -128,21 +204,25 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
         .with_width(opts.width)
         .with_links(false)
         .with_context_lines(1);
-    let mut out = String::new();
-    for f in findings
+    let shown: Vec<&Finding> = findings
         .iter()
         .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
-    {
+        .collect();
+    let parts = crate::analysis::in_parallel(&shown, |f| {
         let file = db.get(f.primary.file);
+        let primary = text(f.primary.file);
         let mut labels = vec![LabeledSpan::new_primary_with_span(
             Some(f.primary_label.clone()).filter(|l| !l.is_empty()),
             f.primary.span.clone(),
         )];
-        let (primary_line, _) = line_col(&file.text, f.primary.span.start);
+        let (primary_line, _) = primary.lines.line_col(&file.text, f.primary.span.start);
         let mut related = Vec::new();
         for l in &f.labels {
             let other = db.get(l.location.file);
-            let (line, _) = line_col(&other.text, l.location.span.start);
+            let other_text = text(l.location.file);
+            let (line, _) = other_text
+                .lines
+                .line_col(&other.text, l.location.span.start);
             if l.location.file == f.primary.file && line.abs_diff(primary_line) <= NEAR_LINES {
                 labels.push(LabeledSpan::new_with_span(
                     Some(l.message.clone()),
@@ -151,26 +231,89 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
             } else {
                 related.push(Related {
                     message: l.message.clone(),
-                    source: NamedSource::new(other.display.clone(), texts[l.location.file].clone()),
+                    source: NamedSource::new(other.display.clone(), other_text.clone()),
                     label: LabeledSpan::new_primary_with_span(None, l.location.span.clone()),
                 });
             }
         }
         let rendered = Rendered {
             finding: f,
-            source: NamedSource::new(file.display.clone(), texts[f.primary.file].clone()),
+            source: NamedSource::new(file.display.clone(), primary.clone()),
             labels,
             help: f.help.clone(),
             related,
         };
+        let mut out = String::new();
         if handler.render_report(&mut out, &rendered).is_err() {
-            let (line, col) = line_col(&file.text, f.primary.span.start);
+            let (line, col) = primary.lines.line_col(&file.text, f.primary.span.start);
             out.push_str(&format!(
                 "{}:{line}:{col}: {}[{}]: {}\n",
                 file.display, f.severity, f.rule, f.message
             ));
         }
         out.push('\n');
+        out
+    });
+    parts.concat()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// What a reader answers for `span`, as text to compare.
+    fn read(
+        source: &dyn SourceCode,
+        span: SourceSpan,
+        before: usize,
+        after: usize,
+    ) -> Option<String> {
+        let c = source.read_span(&span, before, after).ok()?;
+        Some(format!(
+            "{:?} {:?} line {} column {} lines {}",
+            String::from_utf8_lossy(c.data()),
+            c.span(),
+            c.line(),
+            c.column(),
+            c.line_count()
+        ))
     }
-    out
+
+    /// The windowed reader gives miette exactly what its whole-text reader
+    /// gives, for spans of every start and several lengths, with and
+    /// without context lines, across LF, CRLF and lone-CR line ends and
+    /// multibyte characters. (Spans past the end are left out: miette's
+    /// own reader panics on some of them, and findings never carry one.)
+    #[test]
+    fn windowed_reads_equal_whole_text_reads() {
+        let texts = [
+            String::new(),
+            "one line".to_string(),
+            "a\nb\nc\nd\ne\nf\ng\nh\n".to_string(),
+            "layers:\r\n  - name: L1\r\n    εr: 4.2 # ≈ µm\r\n\r\n  - name: 🙂\r\n".to_string(),
+            "x: 1\ry: 2\rz: Ω\n\nw: 3\r\nv: 4\n".to_string(),
+            (0..40)
+                .map(|i| format!("line {i}: µ{}\n", "é".repeat(i % 5)))
+                .collect(),
+        ];
+        for text in &texts {
+            let idx = IndexedText::new(text);
+            for offset in 0..=text.len() {
+                for len in [0, 1, 2, 7, 30]
+                    .into_iter()
+                    .filter(|l| offset + l <= text.len())
+                {
+                    for (before, after) in [(0, 0), (1, 1), (2, 3)] {
+                        let span = SourceSpan::new(offset.into(), len);
+                        assert_eq!(
+                            read(&idx, span, before, after),
+                            // miette's own reader of the whole text.
+                            read(&text.as_bytes(), span, before, after),
+                            "{text:?} offset {offset} len {len} context {before}/{after}"
+                        );
+                    }
+                }
+            }
+        }
+    }
 }

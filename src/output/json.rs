@@ -17,7 +17,7 @@ use serde::Serialize;
 
 use crate::finding::Finding;
 use crate::output::Summary;
-use crate::source::{line_col, SourceDb};
+use crate::source::{DbLines, SourceDb};
 
 #[derive(Serialize)]
 struct Report<'a> {
@@ -67,14 +67,15 @@ struct JsonFinding<'a> {
 /// Render the findings as the JSON report.
 pub fn render(findings: &[Finding], db: &SourceDb, files: usize) -> String {
     let s = Summary::of(findings, files);
+    let lines = DbLines::new(db);
     let report = Report {
         version: 1,
         findings: findings
             .iter()
             .map(|f| {
                 let file = db.get(f.primary.file);
-                let (line, column) = line_col(&file.text, f.primary.span.start);
-                let (end_line, end_column) = line_col(&file.text, f.primary.span.end);
+                let (line, column) = lines.line_col(f.primary.file, f.primary.span.start);
+                let (end_line, end_column) = lines.line_col(f.primary.file, f.primary.span.end);
                 JsonFinding {
                     rule: f.rule,
                     severity: f.severity.as_str(),
@@ -91,7 +92,8 @@ pub fn render(findings: &[Finding], db: &SourceDb, files: usize) -> String {
                         .iter()
                         .map(|l| {
                             let lf = db.get(l.location.file);
-                            let (line, column) = line_col(&lf.text, l.location.span.start);
+                            let (line, column) =
+                                lines.line_col(l.location.file, l.location.span.start);
                             JsonLabel {
                                 message: &l.message,
                                 file: &lf.display,

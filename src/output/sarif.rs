@@ -16,7 +16,7 @@ use serde_sarif::sarif::{
 
 use crate::finding::{Finding, Severity};
 use crate::rules::RuleMeta;
-use crate::source::{line_col, Location as SrcLocation, SourceDb};
+use crate::source::{DbLines, Location as SrcLocation, SourceDb};
 
 /// The SARIF 2.1.0 schema address written into `$schema`.
 pub const SCHEMA_URI: &str = "https://json.schemastore.org/sarif-2.1.0.json";
@@ -92,10 +92,9 @@ fn artifact(db: &SourceDb, file: usize) -> ArtifactLocation {
     }
 }
 
-fn region(db: &SourceDb, loc: &SrcLocation) -> Region {
-    let t = &db.get(loc.file).text;
-    let (sl, sc) = line_col(t, loc.span.start);
-    let (el, ec) = line_col(t, loc.span.end);
+fn region(lines: &DbLines, loc: &SrcLocation) -> Region {
+    let (sl, sc) = lines.line_col(loc.file, loc.span.start);
+    let (el, ec) = lines.line_col(loc.file, loc.span.end);
     Region::builder()
         .start_line(sl as i64)
         .start_column(sc as i64)
@@ -104,10 +103,10 @@ fn region(db: &SourceDb, loc: &SrcLocation) -> Region {
         .build()
 }
 
-fn location(db: &SourceDb, loc: &SrcLocation, message: Option<&str>) -> Location {
+fn location(lines: &DbLines, loc: &SrcLocation, message: Option<&str>) -> Location {
     let phys = PhysicalLocation::builder()
-        .artifact_location(artifact(db, loc.file))
-        .region(region(db, loc))
+        .artifact_location(artifact(lines.db(), loc.file))
+        .region(region(lines, loc))
         .build();
     match message {
         Some(m) => Location::builder()
@@ -121,6 +120,7 @@ fn location(db: &SourceDb, loc: &SrcLocation, message: Option<&str>) -> Location
 /// Build the SARIF log for `findings`.
 pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url: &str) -> Sarif {
     let index: BTreeMap<&str, usize> = rules.iter().enumerate().map(|(i, m)| (m.name, i)).collect();
+    let lines = DbLines::new(db);
     let results: Vec<SarifResult> = findings
         .iter()
         .map(|f| {
@@ -134,13 +134,13 @@ pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url:
             let related: Vec<Location> = f
                 .labels
                 .iter()
-                .map(|l| location(db, &l.location, Some(&l.message)))
+                .map(|l| location(&lines, &l.location, Some(&l.message)))
                 .collect();
             let base = SarifResult::builder()
                 .rule_id(f.rule.to_string())
                 .level(level(f.severity))
                 .message(text(message))
-                .locations(vec![location(db, &f.primary, None)])
+                .locations(vec![location(&lines, &f.primary, None)])
                 .partial_fingerprints(fp);
             let mut r = match index.get(f.rule) {
                 Some(&i) => base.rule_index(i as i64).build(),
