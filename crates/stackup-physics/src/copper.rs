@@ -51,10 +51,17 @@ pub fn skin_depth(f: f64, sigma: f64) -> Result<f64, InputError> {
 pub fn surface_resistance(f: f64, sigma: f64) -> Result<f64, InputError> {
     require_positive("frequency", f)?;
     require_positive("conductivity", sigma)?;
-    finite(
+    let rs = finite(
         "surface resistance",
         (std::f64::consts::PI * f * MU0 / sigma).sqrt(),
-    )
+    )?;
+    // A frequency or conductivity so small that the product underflows
+    // (subnormal input) would give a lossless conductor.
+    require_positive(
+        "surface resistance (frequency or conductivity too small)",
+        rs,
+    )?;
+    Ok(rs)
 }
 
 /// Surface impedance of smooth, thick copper, Zs = (1 + j) Rs (time

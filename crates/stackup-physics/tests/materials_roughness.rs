@@ -260,3 +260,16 @@ fn gradient_model_loss_never_below_smooth_sweep() {
         }
     }
 }
+
+/// A subnormal frequency (found by the `never_panics` property) underflows
+/// the surface resistance to 0: refused instead of giving a lossless
+/// conductor.
+#[test]
+fn subnormal_frequency_is_refused() {
+    assert!(surface_resistance(1.6202429153453e-311, SIGMA).is_err());
+    for d in [HeightDistribution::Normal, HeightDistribution::Rayleigh] {
+        assert!(
+            gradient_model_surface_impedance(0.0, d, 1.6202429153453e-311, SIGMA, 0.0).is_err()
+        );
+    }
+}
