@@ -149,7 +149,13 @@ impl DiskCache {
     /// The cached result for `section_key`, or `None` (missing, unreadable,
     /// damaged, or written for another key).
     pub fn get(&self, section_key: &str) -> Option<Result<SolvedLine, String>> {
-        let digest = self.digest(section_key);
+        self.read_entry(section_key, decode)
+    }
+
+    /// Read and decode the entry for `key`, refreshing its modification
+    /// time on a hit.
+    fn read_entry<T>(&self, key: &str, decode: impl Fn(&[u8], &[u8]) -> Option<T>) -> Option<T> {
+        let digest = self.digest(key);
         let path = self.path_of(&digest);
         // Open, size, one read: an entry is replaced by renaming a new file
         // over it, never written in place, so the opened file keeps the
@@ -170,8 +176,28 @@ impl DiskCache {
     /// blocks; 0 when it failed).
     pub fn put(&self, section_key: &str, value: &Result<SolvedLine, String>) -> u64 {
         let digest = self.digest(section_key);
-        let path = self.path_of(&digest);
         let bytes = encode(&digest, value);
+        self.write_entry(&digest, bytes)
+    }
+
+    /// Numbers derived from solves (such as a width for target) stored
+    /// under `key` by [`DiskCache::put_numbers`], or `None` (missing,
+    /// damaged, another key's entry, or a solver result).
+    pub fn get_numbers(&self, key: &str) -> Option<Vec<f64>> {
+        self.read_entry(key, decode_numbers)
+    }
+
+    /// Store numbers under `key`; returns the disk space charged (whole
+    /// 4 KiB blocks; 0 when it failed).
+    pub fn put_numbers(&self, key: &str, value: &[f64]) -> u64 {
+        let digest = self.digest(key);
+        let mut body = String::new();
+        push_floats(&mut body, "num", value);
+        self.write_entry(&digest, seal(&digest, body))
+    }
+
+    fn write_entry(&self, digest: &[u8], bytes: Vec<u8>) -> u64 {
+        let path = self.path_of(digest);
         let write = || -> std::io::Result<()> {
             let shard = path.parent().unwrap_or(&self.dir);
             std::fs::create_dir_all(shard)?;
@@ -321,7 +347,6 @@ fn push_floats(out: &mut String, name: &str, v: &[f64]) {
 /// SHA-256 of everything before the checksum line.
 fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u8> {
     let mut out = String::with_capacity(1024);
-    let _ = write!(out, "{MAGIC}\nkey {}\n", hex(digest));
     match value {
         Err(message) => {
             let _ = write!(out, "err {}\n{message}\n", message.len());
@@ -355,9 +380,46 @@ fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u8> {
             }
         }
     }
+    seal(digest, out)
+}
+
+/// The entry's bytes around a result `body`: magic line, the key's
+/// SHA-256, the body, then the SHA-256 of everything before that line.
+fn seal(digest: &[u8], body: String) -> Vec<u8> {
+    let mut out = String::with_capacity(body.len() + 160);
+    let _ = write!(out, "{MAGIC}\nkey {}\n", hex(digest));
+    out.push_str(&body);
     let sum = hex(&Sha256::digest(out.as_bytes()));
     let _ = writeln!(out, "sha256 {sum}");
     out.into_bytes()
+}
+
+/// The result body of a whole, intact entry for the key whose SHA-256 is
+/// `digest`; `None` for anything else.
+fn unseal<'a>(bytes: &'a [u8], digest: &[u8]) -> Option<&'a str> {
+    // Checksum line: the last 72 bytes ("sha256 " + 64 hex + "\n").
+    let body_len = bytes.len().checked_sub(72)?;
+    let (body, tail) = bytes.split_at(body_len);
+    let tail = std::str::from_utf8(tail).ok()?;
+    let sum = tail.strip_prefix("sha256 ")?.strip_suffix('\n')?;
+    if sum != hex(&Sha256::digest(body)) {
+        return None;
+    }
+    let body = std::str::from_utf8(body).ok()?;
+    let rest = body.strip_prefix(MAGIC)?.strip_prefix("\nkey ")?;
+    let (key, rest) = rest.split_once('\n')?;
+    (key == hex(digest)).then_some(rest)
+}
+
+/// Numbers stored by `put_numbers`, from an intact entry for `digest`.
+fn decode_numbers(bytes: &[u8], digest: &[u8]) -> Option<Vec<f64>> {
+    let line = unseal(bytes, digest)?.strip_suffix('\n')?;
+    let mut it = line.strip_prefix("num ")?.split(' ');
+    let count: usize = it.next()?.parse().ok()?;
+    let v = it
+        .map(|h| bits_of(h).map(f64::from_bits))
+        .collect::<Option<Vec<f64>>>()?;
+    (v.len() == count).then_some(v)
 }
 
 /// A 64-bit pattern written as exactly 16 lowercase hex digits.
@@ -378,20 +440,7 @@ fn bits_of(hex: &str) -> Option<u64> {
 /// Read an entry back; `None` for anything but a whole, intact entry for
 /// the key whose SHA-256 is `digest`.
 fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, String>> {
-    // Checksum line: the last 72 bytes ("sha256 " + 64 hex + "\n").
-    let body_len = bytes.len().checked_sub(72)?;
-    let (body, tail) = bytes.split_at(body_len);
-    let tail = std::str::from_utf8(tail).ok()?;
-    let sum = tail.strip_prefix("sha256 ")?.strip_suffix('\n')?;
-    if sum != hex(&Sha256::digest(body)) {
-        return None;
-    }
-    let body = std::str::from_utf8(body).ok()?;
-    let rest = body.strip_prefix(MAGIC)?.strip_prefix("\nkey ")?;
-    let (key, rest) = rest.split_once('\n')?;
-    if key != hex(digest) {
-        return None;
-    }
+    let rest = unseal(bytes, digest)?;
     if let Some(rest) = rest.strip_prefix("err ") {
         let (len, rest) = rest.split_once('\n')?;
         let len: usize = len.parse().ok()?;
@@ -622,6 +671,34 @@ mod tests {
         c.put("section 3", &err);
         assert_eq!(c.get("section 3"), Some(err));
         assert_eq!(c.get("section 4"), None);
+    }
+
+    /// Derived numbers (a width for target, or none) round trip bit for
+    /// bit; a number entry is never read as a solve and the other way
+    /// round; a damaged number entry is a miss.
+    #[test]
+    fn number_entries_round_trip_and_stay_apart() {
+        let dir = tempfile::tempdir().unwrap();
+        let c = cache(dir.path(), DEFAULT_MAX_BYTES, "engine A");
+        let w = [1.0478000000000001e-4];
+        assert!(c.put_numbers("width 1", &w) > 0);
+        let back = c.get_numbers("width 1").unwrap();
+        assert_eq!(back[0].to_bits(), w[0].to_bits());
+        c.put_numbers("width 2", &[]);
+        assert_eq!(c.get_numbers("width 2"), Some(vec![]));
+        assert_eq!(c.get("width 1"), None);
+        c.put("section", &Ok(sample()));
+        assert_eq!(c.get_numbers("section"), None);
+        let path = c.path_of(&c.digest("width 1"));
+        let mut bytes = std::fs::read(&path).unwrap();
+        let i = bytes.len() - 80;
+        bytes[i] ^= 1;
+        std::fs::write(&path, bytes).unwrap();
+        assert_eq!(c.get_numbers("width 1"), None);
+        assert_eq!(
+            cache(dir.path(), DEFAULT_MAX_BYTES, "engine B").get_numbers("width 2"),
+            None
+        );
     }
 
     #[test]

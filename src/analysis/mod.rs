@@ -21,7 +21,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use stackup_physics::consts::C0;
 use stackup_physics::copper::{surface_resistance, SIGMA_ANNEALED_COPPER};
 use stackup_physics::fieldsolver::{
-    self, solve, solve_coarse, solve_family, CoarseMesh, CrossSection, SolvedLine, SolverOptions,
+    self, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
 };
 use stackup_physics::loss;
 use stackup_physics::roughness::{hammerstad_factor, RoughLayerModel, RoughSurface};
@@ -194,29 +194,6 @@ impl Tally {
     }
 }
 
-/// The result stored under `k` in the disk cache, or `compute`'s (stored
-/// there) when there is none or no cache is in use.
-fn cached(
-    cache: Option<&cache::DiskCache>,
-    tally: &Tally,
-    k: &str,
-    compute: impl FnOnce() -> Result<SolvedLine, String>,
-) -> Result<SolvedLine, String> {
-    if let Some(c) = cache {
-        if let Some(v) = c.get(k) {
-            tally.add(1, 0);
-            return v;
-        }
-    }
-    tally.add(0, 1);
-    let v = compute();
-    if let Some(c) = cache {
-        let n = c.put(k, &v);
-        CACHE_PENDING.fetch_add(n, std::sync::atomic::Ordering::Relaxed);
-    }
-    v
-}
-
 /// Count what this process stored against the cache's bound (evicting if
 /// it is passed).
 fn settle_cache(cache: Option<&cache::DiskCache>) -> usize {
@@ -303,21 +280,30 @@ pub fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) ->
         std::thread::available_parallelism().map_or(1, |n| n.get())
     }
     .min(items.len().max(1));
-    if threads <= 1 {
+    // Nested calls (a file's analysis on a worker that analyses files)
+    // run on their caller's thread: the outer call already keeps every
+    // core busy, and spawning per file costs more than it gains.
+    if threads <= 1 || IN_WORKER.with(|w| w.get()) {
         return items.iter().map(&f).collect();
     }
     let f = &f;
+    // Items are handed out one at a time from a shared counter, so a few
+    // slow items do not leave the other workers idle; results are put back
+    // in item order, so the output does not depend on the schedule.
+    let next = AtomicUsize::new(0);
+    let next = &next;
     let mut parts: Vec<Vec<(usize, R)>> = std::thread::scope(|scope| {
         let handles: Vec<_> = (0..threads)
-            .map(|t| {
+            .map(|_| {
                 scope.spawn(move || {
-                    items
-                        .iter()
-                        .enumerate()
-                        .skip(t)
-                        .step_by(threads)
-                        .map(|(i, x)| (i, f(x)))
-                        .collect::<Vec<_>>()
+                    IN_WORKER.with(|w| w.set(true));
+                    let mut done = Vec::new();
+                    loop {
+                        let i = next.fetch_add(1, Ordering::Relaxed);
+                        let Some(x) = items.get(i) else { break };
+                        done.push((i, f(x)));
+                    }
+                    done
                 })
             })
             .collect();
@@ -329,6 +315,11 @@ pub fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) ->
     let mut out: Vec<(usize, R)> = parts.drain(..).flatten().collect();
     out.sort_by_key(|(i, _)| *i);
     out.into_iter().map(|(_, r)| r).collect()
+}
+
+thread_local! {
+    /// Set on the threads `in_parallel` spawns.
+    static IN_WORKER: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
 }
 
 /// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
@@ -594,43 +585,36 @@ fn width_for_target(
     };
     let opts = solver_options();
     let active = cache::active();
-    let mut solves = CachedSolves {
-        cache: active.as_deref(),
-        tally,
-        opts: &opts,
-    };
-    fieldsolver::width_for_target(
+    // The search's result is cached as a whole (one entry instead of one
+    // per coarse solve): it follows from the worst-case section at the
+    // current width, its accurate impedance and the target.
+    let k = format!(
+        "width for target {:016x} from {:016x} | {}",
+        target.to_bits(),
+        z_now.to_bits(),
+        key(&section(w0))
+    );
+    if let Some(c) = active.as_deref() {
+        if let Some(v) = c.get_numbers(&k) {
+            tally.add(1, 0);
+            return v.first().copied();
+        }
+    }
+    tally.add(0, 1);
+    let w = fieldsolver::width_for_target(
         section,
         |r| LineNumbers::from_solved(r).map(|n| n.z),
         w0,
         z_now,
         target,
         &opts,
-        &mut solves,
-    )
-}
-
-/// The width search's solves, through the disk cache.
-struct CachedSolves<'a> {
-    cache: Option<&'a cache::DiskCache>,
-    tally: &'a Tally,
-    opts: &'a SolverOptions,
-}
-
-impl fieldsolver::WidthSolves for CachedSolves<'_> {
-    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine> {
-        let k = format!("coarse mesh of {} | {}", key(mesh.reference()), key(cs));
-        cached(self.cache, self.tally, &k, || {
-            solve_coarse(cs, mesh).map_err(|e| e.message)
-        })
-        .ok()
+        &mut fieldsolver::DirectSolves(&opts),
+    );
+    if let Some(c) = active.as_deref() {
+        let n = c.put_numbers(&k, w.as_slice());
+        CACHE_PENDING.fetch_add(n, Ordering::Relaxed);
     }
-    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine> {
-        cached(self.cache, self.tally, &key(cs), || {
-            solve(cs, self.opts).map_err(|e| e.message)
-        })
-        .ok()
-    }
+    w
 }
 
 /// Loss per metre: dielectric loss from the filling-weighted loss tangent,
