@@ -2,12 +2,10 @@
 //! number of field-solver threads, and with a cold, a warm or no field-solver
 //! cache (terminal without colour, JSON, SARIF).
 
-use std::process::Command;
+mod common;
 
 fn run(threads: &str, format: &str, sarif: &std::path::Path) -> Vec<u8> {
-    let o = Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("NO_COLOR", "1")
+    let o = common::command(common::root())
         .args([
             "check",
             "examples/",
@@ -55,10 +53,8 @@ fn output_is_identical_across_thread_counts() {
 
 /// `check examples/` with the field-solver cache in `cache` (or `--no-cache`).
 fn run_cached(cache: Option<&std::path::Path>, format: &str, sarif: &std::path::Path) -> Vec<u8> {
-    let mut c = Command::new(env!("CARGO_BIN_EXE_stackup-lint"));
-    c.current_dir(env!("CARGO_MANIFEST_DIR"))
-        .env("NO_COLOR", "1")
-        .env_remove("STACKUP_LINT_NO_CACHE")
+    let mut c = common::command(common::root());
+    c.env_remove("STACKUP_LINT_NO_CACHE")
         .args([
             "check",
             "examples/",

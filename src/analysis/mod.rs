@@ -608,7 +608,6 @@ fn width_for_target(
         z_now,
         target,
         &opts,
-        &mut fieldsolver::DirectSolves(&opts),
     );
     if let Some(c) = active.as_deref() {
         let n = c.put_numbers(&k, w.as_slice());

@@ -192,16 +192,8 @@ fn width_for_target_matches_inverse_of_cohn_stripline() {
         );
         for w0 in [0.05e-3, want * 1.05, 1.2e-3] {
             let z0 = solve(&section(w0), &opt).unwrap().single.unwrap().z0;
-            let got = width_for_target(
-                section,
-                |r| r.single.map(|s| s.z0),
-                w0,
-                z0,
-                target,
-                &opt,
-                &mut DirectSolves(&opt),
-            )
-            .unwrap();
+            let got = width_for_target(section, |r| r.single.map(|s| s.z0), w0, z0, target, &opt)
+                .unwrap();
             assert!(
                 rel(got, want) < 4e-3,
                 "{target} ohm from {w0}: {got} vs Cohn {want}"
@@ -235,7 +227,6 @@ fn width_for_target_matches_inverse_of_cohn_coupled_stripline() {
         z0,
         100.0,
         &opt,
-        &mut DirectSolves(&opt),
     )
     .unwrap();
     assert!(rel(got, want) < 6e-3, "{got} vs Cohn {want}");
@@ -267,7 +258,6 @@ fn width_for_target_matches_inverse_of_hammerstad_jensen() {
         z0,
         50.0,
         &opt,
-        &mut DirectSolves(&opt),
     )
     .unwrap();
     assert!(rel(got, want) < 6e-3, "{got} vs HJ {want}");

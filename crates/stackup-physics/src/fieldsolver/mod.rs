@@ -1343,16 +1343,8 @@ pub fn solve_vacuum_pair(
 /// lines, the lines moving with the geometry.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CoarseMesh {
-    reference: CrossSection,
     topology: Topology,
     options: SolverOptions,
-}
-
-impl CoarseMesh {
-    /// The section the mesh was made for.
-    pub fn reference(&self) -> &CrossSection {
-        &self.reference
-    }
 }
 
 /// The coarse mesh of `cs` under `opt` (no solve; cheap).
@@ -1366,7 +1358,6 @@ pub fn coarse_mesh(cs: &CrossSection, opt: &SolverOptions) -> Result<CoarseMesh,
     let (_, ux) = level_lines(&p.xspec, m, p.tol, None)?;
     let (_, uy) = level_lines(&p.yspec, m, p.tol, None)?;
     Ok(CoarseMesh {
-        reference: cs.clone(),
         topology: vec![(ux, uy)],
         options,
     })
@@ -1435,27 +1426,6 @@ pub fn secant_width(
     Some(wb)
 }
 
-/// How [`width_for_target`] gets its solves (the caller may route them
-/// through a cache).
-pub trait WidthSolves {
-    /// A coarse solve of `cs` on `mesh` ([`solve_coarse`]).
-    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine>;
-    /// A full, extrapolated solve of `cs` ([`solve`]).
-    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine>;
-}
-
-/// [`WidthSolves`] calling the solver directly.
-pub struct DirectSolves<'a>(pub &'a SolverOptions);
-
-impl WidthSolves for DirectSolves<'_> {
-    fn coarse(&mut self, cs: &CrossSection, mesh: &CoarseMesh) -> Option<SolvedLine> {
-        solve_coarse(cs, mesh).ok()
-    }
-    fn full(&mut self, cs: &CrossSection) -> Option<SolvedLine> {
-        solve(cs, self.0).ok()
-    }
-}
-
 /// Width at which the line `section_at(w)` has impedance `target`, where
 /// `z_of` reads the impedance of interest (Z0, or Z_diff of a pair) from a
 /// result, and `z0` is the accurate impedance at the current width `w0`.
@@ -1476,15 +1446,15 @@ pub fn width_for_target(
     z0: f64,
     target: f64,
     opt: &SolverOptions,
-    solves: &mut dyn WidthSolves,
 ) -> Option<f64> {
     let (mut wa, mut za) = (w0, z0);
     for anchors_left in (0..3).rev() {
         let reference = section_at(wa);
         let mesh = coarse_mesh(&reference, opt).ok()?;
-        let z_ref = z_of(&solves.coarse(&reference, &mesh)?)?;
+        let coarse_z = |cs: &CrossSection| z_of(&solve_coarse(cs, &mesh).ok()?);
+        let z_ref = coarse_z(&reference)?;
         let w = secant_width(
-            |w| Some(za * z_of(&solves.coarse(&section_at(w), &mesh)?)? / z_ref),
+            |w| Some(za * coarse_z(&section_at(w))? / z_ref),
             wa,
             za,
             target,
@@ -1492,7 +1462,7 @@ pub fn width_for_target(
         if (w / wa - 1.0).abs() <= 0.1 || anchors_left == 0 {
             return Some(w);
         }
-        za = z_of(&solves.full(&section_at(w))?)?;
+        za = z_of(&solve(&section_at(w), opt).ok()?)?;
         wa = w;
         if (za - target).abs() < 0.001 * target {
             return Some(w);
