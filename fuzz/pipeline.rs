@@ -56,7 +56,9 @@ pub fn load_bytes(data: &[u8]) {
             std::fs::create_dir_all(&dir).expect("temporary directory");
             let path = dir.join("fuzz.stackup.yaml");
             std::fs::write(&path, data).expect("temporary file");
-            load::load(&[path], &dir, &limits)
+            let conf = stackup_lint::input::files::Confinement::new(None, &dir)
+                .expect("the temporary directory exists");
+            load::load(&[path], &limits, &conf)
         }
     };
     if loaded.stackups.is_empty() {
@@ -69,6 +71,7 @@ pub fn load_bytes(data: &[u8]) {
         files: 1,
         findings: loaded.problems,
         db: loaded.db,
+        ..CheckOutcome::default()
     };
     render_all(&outcome);
 }

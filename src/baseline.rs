@@ -53,6 +53,9 @@ pub struct Baseline {
     pub findings: Vec<Entry>,
 }
 
+/// Largest baseline file read (about 100,000 findings).
+pub const MAX_BASELINE_BYTES: u64 = 64 * 1024 * 1024;
+
 impl Baseline {
     /// Record the findings of a run (not invalid-input, not suppressed).
     pub fn record(outcome: &CheckOutcome) -> Baseline {
@@ -88,30 +91,52 @@ impl Baseline {
 
     /// Parse a baseline file's text; the error says what is wrong.
     pub fn parse(text: &str) -> Result<Baseline, String> {
-        let b: Baseline =
-            serde_json::from_str(text).map_err(|e| format!("not a stackup-lint baseline: {e}"))?;
+        // serde's own message can quote the file (an unexpected string, an
+        // unknown key): say only where and what kind of problem.
+        let b: Baseline = serde_json::from_str(text).map_err(|e| {
+            let kind = match e.classify() {
+                serde_json::error::Category::Io => "cannot be read",
+                serde_json::error::Category::Syntax => "is not JSON",
+                serde_json::error::Category::Data => "does not have the baseline's fields",
+                serde_json::error::Category::Eof => "ends too early",
+            };
+            format!(
+                "not a stackup-lint baseline: the file {kind} (line {}, column {})",
+                e.line(),
+                e.column()
+            )
+        })?;
         if b.version != FORMAT_VERSION {
             return Err(format!(
                 "baseline format version {} is not supported (this build reads version {FORMAT_VERSION})",
                 b.version
             ));
         }
-        if let Some(e) = b.findings.iter().find(|e| {
+        if let Some(i) = b.findings.iter().position(|e| {
             e.fingerprint.len() != 16 || !e.fingerprint.bytes().all(|c| c.is_ascii_hexdigit())
         }) {
             return Err(format!(
-                "fingerprint `{}` of a `{}` finding is not 16 hexadecimal digits",
-                e.fingerprint, e.rule
+                "the fingerprint of finding {} is not 16 hexadecimal digits",
+                i + 1
             ));
         }
         Ok(b)
     }
 
     /// Read and parse a baseline file.
+    /// Only a regular file is read, at most [`MAX_BASELINE_BYTES`].
     pub fn read(path: &Path) -> Result<Baseline, String> {
-        let text = std::fs::read_to_string(path)
-            .map_err(|e| format!("cannot read the baseline {}: {e}", path.display()))?;
-        Baseline::parse(&text).map_err(|e| format!("{}: {e}", path.display()))
+        let shown = crate::output::escape::controls(&path.to_string_lossy()).into_owned();
+        let bytes = crate::input::files::read_regular(path, MAX_BASELINE_BYTES).map_err(|e| {
+            format!(
+                "cannot read the baseline {shown}: {}",
+                e.message().replace("for one stackup", "for a baseline")
+            )
+        })?;
+        let text = String::from_utf8(bytes).map_err(|_| {
+            format!("{shown}: not a stackup-lint baseline: the file is not UTF-8 text")
+        })?;
+        Baseline::parse(&text).map_err(|e| format!("{shown}: {e}"))
     }
 
     /// Mark every finding of `outcome` as baselined (`Some(true)`) or new

@@ -4,16 +4,21 @@ use std::path::{Path, PathBuf};
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, INVALID_INPUT};
+use crate::input::files::Confinement;
 use crate::load::{self, InputLimits};
 use crate::model::Stackup;
+use crate::output::escape;
 use crate::rules;
 use crate::source::{Location, SourceDb, SourceFile};
-use crate::walk::{self, WalkOptions};
+use crate::walk::{self, Skipped, WalkOptions};
 
 #[derive(Debug, Clone, Default)]
 pub struct CheckOptions {
     pub walk: WalkOptions,
     pub limits: InputLimits,
+    /// `--root`: the project root every file read must lie in (default:
+    /// each file's enclosing git work tree).
+    pub root: Option<PathBuf>,
 }
 
 /// The result of a run: every file read and every finding, sorted.
@@ -23,6 +28,8 @@ pub struct CheckOutcome {
     pub findings: Vec<Finding>,
     /// Number of stackup files checked.
     pub files: usize,
+    /// What the directory walk left out.
+    pub skipped: Skipped,
 }
 
 impl CheckOutcome {
@@ -80,9 +87,38 @@ fn lint_inner(loaded: load::Loaded, keep: bool) -> (CheckOutcome, Vec<(Stackup, 
         db: loaded.db,
         findings,
         files,
+        skipped: Skipped::default(),
     };
     sort_findings(&mut out.findings, &out.db);
+    escape_outcome(&mut out);
     (out, kept)
+}
+
+/// Escape control and invisible characters in everything a finding says
+/// and in the file names, once, so no output can carry them raw (source
+/// text is escaped by the terminal renderer, which shows it).
+pub fn escape_outcome(out: &mut CheckOutcome) {
+    let fix = |s: &mut String| {
+        if let std::borrow::Cow::Owned(e) = escape::controls(s) {
+            *s = e;
+        }
+    };
+    for f in &mut out.findings {
+        fix(&mut f.message);
+        fix(&mut f.primary_label);
+        if let Some(h) = &mut f.help {
+            fix(h);
+        }
+        for l in &mut f.labels {
+            fix(&mut l.message);
+        }
+        if let Some(r) = &mut f.suppressed {
+            fix(r);
+        }
+    }
+    for file in &mut out.db.files {
+        fix(&mut file.display);
+    }
 }
 
 /// Check the files and directories in `paths`. Display paths are relative
@@ -92,9 +128,10 @@ pub fn check_paths(
     base: &Path,
     opts: &CheckOptions,
 ) -> Result<CheckOutcome, String> {
-    let (loaded, files) = load_paths(paths, base, opts)?;
+    let (loaded, files, skipped) = load_paths(paths, base, opts)?;
     let mut outcome = lint(loaded);
     outcome.files = files;
+    outcome.skipped = skipped;
     Ok(outcome)
 }
 
@@ -105,22 +142,26 @@ pub fn check_paths_analysed(
     base: &Path,
     opts: &CheckOptions,
 ) -> Result<(CheckOutcome, Vec<(Stackup, Analysis)>), String> {
-    let (loaded, files) = load_paths(paths, base, opts)?;
+    let (loaded, files, skipped) = load_paths(paths, base, opts)?;
     let (mut outcome, kept) = lint_inner(loaded, true);
     outcome.files = files;
+    outcome.skipped = skipped;
     Ok((outcome, kept))
 }
 
-/// Walk and load; walk problems become input findings.
-fn load_paths(
+/// Walk and load; walk problems become input findings. Returns the loaded
+/// files, the number of stackup files and what the walk left out.
+pub fn load_paths(
     paths: &[PathBuf],
     base: &Path,
     opts: &CheckOptions,
-) -> Result<(load::Loaded, usize), String> {
-    let (files, problems) = walk::collect(paths, &opts.walk).map_err(|e| e.message)?;
-    let mut loaded = load::load(&files, base, &opts.limits);
+) -> Result<(load::Loaded, usize, Skipped), String> {
+    let conf = Confinement::new(opts.root.as_deref(), base)?;
+    let walked = walk::collect(paths, &opts.walk, &conf).map_err(|e| e.message)?;
+    let files = walked.files;
+    let mut loaded = load::load(&files, &opts.limits, &conf);
     loaded.stackups.sort_by_key(|s| s.file);
-    for p in problems {
+    for p in walked.problems {
         let display = p
             .path
             .as_deref()
@@ -144,5 +185,5 @@ fn load_paths(
             .label("cannot read"),
         );
     }
-    Ok((loaded, files.len()))
+    Ok((loaded, files.len(), walked.skipped))
 }

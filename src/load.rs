@@ -7,6 +7,7 @@ use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
 use crate::finding::{Finding, INVALID_INPUT};
+use crate::input::files::{self, Confinement, ReadError, Refusal};
 use crate::input::schema::{self, FileKind};
 use crate::input::yaml::{self, YamlLimits};
 use crate::model::{self, LibraryData, Stackup};
@@ -73,9 +74,55 @@ struct Prepared {
     ok: bool,
 }
 
+/// Why a path named by the user or a stackup is not read, as a sentence,
+/// or `None` when it resolves inside `root` to a regular file (its
+/// canonical path is returned then).
+pub(crate) fn refuse(
+    conf: &Confinement,
+    path: &Path,
+    root: &Path,
+) -> Result<PathBuf, (String, &'static str)> {
+    match conf.resolve(path, root) {
+        Ok(canonical) => match std::fs::metadata(&canonical) {
+            Ok(m) if m.is_file() => Ok(canonical),
+            Ok(m) => Err((
+                ReadError::NotRegular(files::kind_of(&m.file_type()).unwrap_or("a special file"))
+                    .message(),
+                "point it at a regular file inside the project",
+            )),
+            Err(_) => Err((
+                ReadError::Missing.message(),
+                "check the path and its permissions",
+            )),
+        },
+        Err(Refusal::Missing) => Err((
+            ReadError::Missing.message(),
+            "check the path and its permissions",
+        )),
+        Err(Refusal::Outside { through_link }) => Err((
+            format!(
+                "the path resolves outside the project root ({}){}; nothing outside it is read",
+                conf.shown(root),
+                if through_link {
+                    " through a symbolic link"
+                } else {
+                    ""
+                }
+            ),
+            "keep stackups and libraries inside the repository (or widen the root with --root DIR)",
+        )),
+    }
+}
+
 /// Read a file; on failure the problem is recorded and the file is kept
 /// with empty text so findings can still name it.
-fn prepare(path: &Path, base: &Path, limits: &InputLimits, kind: FileKind) -> Prepared {
+fn prepare(
+    path: &Path,
+    base: &Path,
+    limits: &InputLimits,
+    kind: FileKind,
+    conf: &Confinement,
+) -> Prepared {
     let display = display_path(path, base);
     let mut file = SourceFile {
         path: path.to_path_buf(),
@@ -83,39 +130,34 @@ fn prepare(path: &Path, base: &Path, limits: &InputLimits, kind: FileKind) -> Pr
         text: String::new(),
         tree: None,
     };
-    let problem = |msg: String, help: &str| (msg, help.to_string());
-    let bytes = match std::fs::metadata(path) {
-        Ok(m) if m.len() > limits.max_file_bytes => Err(problem(
-            format!(
-                "the file is {} bytes, above the {} byte limit for one stackup",
-                m.len(),
-                limits.max_file_bytes
-            ),
-            "raise the limit with --max-file-size if this file is genuine",
-        )),
-        Ok(_) => std::fs::read(path).map_err(|e| {
-            problem(
-                format!("cannot read the file: {e}"),
-                "check the path and its permissions",
-            )
-        }),
-        Err(e) => Err(problem(
-            format!("cannot read the file: {e}"),
-            "check the path and its permissions",
-        )),
-    };
+    let root = conf.root_of(path);
+    let bytes = refuse(conf, path, &root).and_then(|canonical| {
+        files::read_regular(&canonical, limits.max_file_bytes).map_err(|e| {
+            let help = match e {
+                ReadError::TooLarge { .. } => {
+                    "raise the limit with --max-file-size if this file is genuine"
+                }
+                _ => "check the path and its permissions",
+            };
+            (e.message(), help)
+        })
+    });
     // For text that is not UTF-8, keep a lossy copy so the finding can
-    // point at the bad byte (shown as U+FFFD) instead of the file start.
+    // point at the bad byte (shown as U+FFFD) instead of the file start;
+    // only when the text before it is ours (a stackup), never for another
+    // kind of file.
     let mut bad_span = 0..0;
     let text = bytes.and_then(|b| {
         String::from_utf8(b).map_err(|e| {
             let at = e.utf8_error().valid_up_to();
             let byte = e.as_bytes().get(at).copied().unwrap_or(0);
             let lossy = String::from_utf8_lossy(e.as_bytes()).into_owned();
-            // The text before `at` is valid, so it is the same in the lossy copy.
-            bad_span = at..at + char::REPLACEMENT_CHARACTER.len_utf8();
-            file.text = lossy;
-            problem(
+            if header_line(&lossy[..at], kind) {
+                // The text before `at` is valid, so it is the same in the lossy copy.
+                bad_span = at..at + char::REPLACEMENT_CHARACTER.len_utf8();
+                file.text = lossy;
+            }
+            (
                 format!("the file is not valid UTF-8 (byte 0x{byte:02x} at offset {at})"),
                 "save the file as UTF-8",
             )
@@ -140,9 +182,93 @@ fn prepare(path: &Path, base: &Path, limits: &InputLimits, kind: FileKind) -> Pr
     }
 }
 
-/// Parse and schema-check a file whose text is already read.
+/// The key that marks a file of `kind` as ours.
+fn header_key(kind: FileKind) -> &'static str {
+    match kind {
+        FileKind::Stackup => "stackup-lint",
+        FileKind::Library => "stackup-lint-materials",
+    }
+}
+
+/// True when some line of `text` starts (after indentation, a list dash,
+/// a brace or a quote) with the header key of `kind` followed by a colon:
+/// the file means to be a stackup (or library) even if it does not parse.
+fn header_line(text: &str, kind: FileKind) -> bool {
+    let key = header_key(kind);
+    text.lines().any(|line| {
+        let l = line.trim_start_matches([' ', '-', '{', '"', '\'', '\u{feff}']);
+        l.strip_prefix(key).is_some_and(|rest| {
+            rest.trim_start_matches(['"', '\''])
+                .trim_start()
+                .starts_with(':')
+        })
+    })
+}
+
+/// Longest excerpt of a file that is not ours quoted in a message.
+pub const EXCERPT_CHARS: usize = 20;
+
+/// The first characters of the first line of `text` that is neither
+/// blank nor a `#` comment (else of the first non-blank line), escaped
+/// (control and invisible characters as `\u{..}`), at most
+/// [`EXCERPT_CHARS`] of them: enough to recognise the wrong file, too
+/// little to quote a secret.
+pub fn excerpt(text: &str) -> String {
+    let mut lines = text.lines().map(str::trim).filter(|l| !l.is_empty());
+    let line = lines
+        .clone()
+        .find(|l| !l.starts_with('#'))
+        .or_else(|| lines.next())
+        .unwrap_or("");
+    let mut out: String = line.chars().take(EXCERPT_CHARS).collect();
+    if line.chars().count() > EXCERPT_CHARS {
+        out.push('…');
+    }
+    crate::output::escape::controls(&out).into_owned()
+}
+
+/// Parse and schema-check a file whose text is already read. A file that
+/// is not ours (no `stackup-lint:` or `stackup-lint-materials:` key) gets
+/// one finding with a short escaped excerpt, and its text is dropped so no
+/// output can show more of it.
 fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> Prepared {
-    match yaml::parse(&file.text, limits.yaml) {
+    let parsed = yaml::parse(&file.text, limits.yaml);
+    let is_empty = matches!(&parsed, Ok(t) if t.value == yaml::Value::Null);
+    let ours = match &parsed {
+        Ok(t) if t.as_map().is_some() => t.get(header_key(kind)).is_some(),
+        _ => header_line(&file.text, kind),
+    };
+    if !ours && !is_empty {
+        let what = match kind {
+            FileKind::Stackup => "a stackup",
+            FileKind::Library => "a material library",
+        };
+        let quote = excerpt(&file.text);
+        file.text = String::new();
+        let problem = Finding::new(
+            INVALID_INPUT,
+            whole_file(0),
+            format!(
+                "this is not {what}: it has no `{}:` key (it starts with \"{quote}\"); nothing more of it is read or shown",
+                header_key(kind)
+            ),
+        )
+        .label("not a stackup-lint file")
+        .with_help(format!(
+            "a {} file starts with `{}: 1`; if this is one, add that line",
+            match kind {
+                FileKind::Stackup => "stackup",
+                FileKind::Library => "material library",
+            },
+            header_key(kind)
+        ));
+        return Prepared {
+            file,
+            problems: vec![problem],
+            ok: false,
+        };
+    }
+    match parsed {
         Ok(tree) => file.tree = Some(tree),
         Err(e) => {
             let problem = Finding::new(
@@ -199,9 +325,11 @@ pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
 /// Reading, YAML and schema run on the `--threads` workers, then libraries
 /// are loaded once each in file order, then the models are built on the
 /// workers again; problems keep the order of a one-file-at-a-time load.
-pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
-    let prepared =
-        crate::analysis::in_parallel(paths, |path| prepare(path, base, limits, FileKind::Stackup));
+pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement) -> Loaded {
+    let base = conf.cwd();
+    let prepared = crate::analysis::in_parallel(paths, |path| {
+        prepare(path, base, limits, FileKind::Stackup, conf)
+    });
     let mut loaded = Loaded::default();
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
     // Per stackup, in order: where its problems so far end, and the model
@@ -211,6 +339,7 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
         let Some(id) = admit(&mut loaded, prepared) else {
             continue;
         };
+        let root = conf.root_of(path);
         let mut libs = Vec::new();
         let mut libs_ok = true;
         let lib_entries: Vec<(usize, String)> = loaded
@@ -235,25 +364,51 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
             } else {
                 path.parent().unwrap_or(Path::new(".")).join(&rel)
             };
-            if !builtin && !lib_path.is_file() {
-                loaded.problems.push(
-                    Finding::new(
-                        INVALID_INPUT,
-                        loaded.db.locate(id, &format!("/libraries/{i}")),
-                        format!(
-                            "material library `{rel}` does not exist (looked for {})",
-                            display_path(&lib_path, base)
-                        ),
-                    )
-                    .label("no such file")
-                    .with_help(format!(
-                        "library paths are relative to the stackup file; `{BUILTIN_GENERIC_NAME}` is the built-in generic library"
-                    )),
-                );
-                libs_ok = false;
-                continue;
-            }
-            let key = std::fs::canonicalize(&lib_path).unwrap_or(lib_path.clone());
+            let key = if builtin {
+                lib_path.clone()
+            } else {
+                // Absolute paths, `..` escapes and links leading out of the
+                // project root are refused here, at the entry, before any
+                // byte of the file is read.
+                let refusal = if Path::new(&rel).is_absolute() {
+                    Err((
+                        "an absolute path; library paths are relative to the stackup file and stay inside the project".to_string(),
+                        "give the path relative to the stackup file",
+                    ))
+                } else {
+                    refuse(conf, &lib_path, &root)
+                };
+                match refusal {
+                    Ok(canonical) => canonical,
+                    Err((why, help)) => {
+                        let missing = why == ReadError::Missing.message();
+                        let message = if missing {
+                            format!(
+                                "material library `{rel}` does not exist (looked for {})",
+                                display_path(&lib_path, base)
+                            )
+                        } else {
+                            format!("material library `{rel}` is not read: {why}")
+                        };
+                        let help = if missing {
+                            format!("library paths are relative to the stackup file; `{BUILTIN_GENERIC_NAME}` is the built-in generic library")
+                        } else {
+                            help.to_string()
+                        };
+                        loaded.problems.push(
+                            Finding::new(
+                                INVALID_INPUT,
+                                loaded.db.locate(id, &format!("/libraries/{i}")),
+                                message,
+                            )
+                            .label(if missing { "no such file" } else { "not read" })
+                            .with_help(help),
+                        );
+                        libs_ok = false;
+                        continue;
+                    }
+                }
+            };
             if !libraries.contains_key(&key) {
                 let lid = if builtin {
                     let file = SourceFile {
@@ -266,7 +421,7 @@ pub fn load(paths: &[PathBuf], base: &Path, limits: &InputLimits) -> Loaded {
                 } else {
                     admit(
                         &mut loaded,
-                        prepare(&lib_path, base, limits, FileKind::Library),
+                        prepare(&lib_path, base, limits, FileKind::Library, conf),
                     )
                 };
                 let data = lid.and_then(|lid| {

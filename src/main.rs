@@ -40,6 +40,10 @@ struct Cli {
     /// Do not read or write the on-disk cache of field-solver results
     #[arg(long, global = true)]
     no_cache: bool,
+    /// Project root: every file read (stackups, libraries) must lie inside
+    /// it, links followed [default: each file's enclosing git work tree]
+    #[arg(long, global = true, value_name = "DIR")]
+    root: Option<PathBuf>,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -97,6 +101,12 @@ enum Command {
         /// Most YAML nodes a file may expand to (aliases included)
         #[arg(long, default_value_t = 200_000, value_name = "NODES")]
         max_yaml_nodes: usize,
+        /// Most bytes of text a file's YAML may expand to (aliases included)
+        #[arg(long, default_value_t = stackup_lint::input::yaml::DEFAULT_MAX_YAML_BYTES, value_name = "BYTES")]
+        max_yaml_bytes: usize,
+        /// Exit 0 instead of 2 when the paths hold no stackup file
+        #[arg(long)]
+        allow_empty: bool,
         /// Threads for field solves (0 = one per core); output does not depend on it
         #[arg(long, default_value_t = 0, value_name = "N")]
         threads: usize,
@@ -192,9 +202,28 @@ enum BaselineAction {
     },
 }
 
+/// Most solver threads accepted per available core; more only costs
+/// memory and scheduling.
+const THREADS_PER_CORE: usize = 4;
+
+/// `--threads`, clamped to a sane maximum (said on standard error).
+fn clamp_threads(n: usize) -> usize {
+    let cores = std::thread::available_parallelism().map_or(1, |c| c.get());
+    let max = (cores * THREADS_PER_CORE).max(THREADS_PER_CORE);
+    if n > max {
+        eprintln!(
+            "note: --threads {n} is more than this machine can use; using {max} ({THREADS_PER_CORE} per core)"
+        );
+        max
+    } else {
+        n
+    }
+}
+
 fn main() -> ExitCode {
     let cli = Cli::parse();
     stackup_lint::analysis::cache::from_env(cli.no_cache);
+    let root = cli.root;
     match cli.command {
         Command::Baseline {
             action:
@@ -203,7 +232,7 @@ fn main() -> ExitCode {
                     output,
                     walk,
                 },
-        } => baseline_write(paths, &output, walk.options()),
+        } => baseline_write(paths, &output, walk.options(), root),
         Command::Impedance {
             paths,
             format,
@@ -213,7 +242,7 @@ fn main() -> ExitCode {
                 Ok(l) => l,
                 Err(code) => return code,
             };
-            impedance(paths, format, length)
+            impedance(paths, format, length, root)
         }
         Command::Report {
             file,
@@ -229,6 +258,7 @@ fn main() -> ExitCode {
                 &file,
                 &output,
                 output::report::ReportOptions { to_scale, length },
+                root,
             )
         }
         Command::Rules => {
@@ -241,18 +271,15 @@ fn main() -> ExitCode {
                     m.summary
                 ));
             }
-            print(&out);
-            ExitCode::SUCCESS
+            print_or(&out, ExitCode::SUCCESS)
         }
         Command::Explain { rule } => match rules::find_meta(&rule) {
-            Some(m) => {
-                print(m.doc);
-                ExitCode::SUCCESS
-            }
+            Some(m) => print_or(m.doc, ExitCode::SUCCESS),
             None => {
                 let names: Vec<_> = rules::all_meta().iter().map(|m| m.name).collect();
                 eprintln!(
-                    "error: there is no rule named `{rule}`; rules: {}",
+                    "error: there is no rule named `{}`; rules: {}",
+                    output::escape::controls(&rule),
                     names.join(", ")
                 );
                 ExitCode::from(2)
@@ -268,12 +295,14 @@ fn main() -> ExitCode {
             max_file_size,
             max_yaml_depth,
             max_yaml_nodes,
+            max_yaml_bytes,
+            allow_empty,
             rule_docs_url,
             baseline,
             threads,
             max_mesh_nodes,
         } => {
-            stackup_lint::analysis::set_solver_threads(threads);
+            stackup_lint::analysis::set_solver_threads(clamp_threads(threads));
             stackup_lint::analysis::set_max_mesh_nodes(max_mesh_nodes);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
@@ -295,8 +324,10 @@ fn main() -> ExitCode {
                     yaml: YamlLimits {
                         max_depth: max_yaml_depth,
                         max_nodes: max_yaml_nodes,
+                        max_bytes: max_yaml_bytes,
                     },
                 },
+                root,
             };
             let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
             let mut outcome = match engine::check_paths(&paths, &base, &opts) {
@@ -306,6 +337,7 @@ fn main() -> ExitCode {
                     return ExitCode::from(2);
                 }
             };
+            let empty = outcome.files == 0 && !outcome.has_input_errors();
             if let Some(b) = &baseline {
                 b.apply(&mut outcome);
             }
@@ -316,19 +348,20 @@ fn main() -> ExitCode {
                     &rules::all_meta(),
                     &rule_docs_url,
                 );
-                if let Err(e) = output::write_atomic(path, log.as_bytes()) {
+                let inputs = output::input_paths(&outcome.db);
+                if let Err(e) = output::write_output(path, log.as_bytes(), &inputs) {
                     eprintln!(
                         "error: cannot write the SARIF log to {}: {e}",
-                        path.display()
+                        output::escape::controls(&path.to_string_lossy())
                     );
                     return ExitCode::from(2);
                 }
             }
             let summary = Summary::of(&outcome.findings, outcome.files);
-            match format {
-                Format::Json => print(&json::render(&outcome.findings, &outcome.db, outcome.files)),
-                Format::Github => print(&github::render(&outcome.findings, &outcome.db)),
-                Format::Gitlab => print(&gitlab::render(&outcome.findings, &outcome.db)),
+            let text = match format {
+                Format::Json => json::render(&outcome.findings, &outcome.db, outcome.files),
+                Format::Github => github::render(&outcome.findings, &outcome.db),
+                Format::Gitlab => gitlab::render(&outcome.findings, &outcome.db),
                 Format::Human => {
                     let use_color = match color {
                         Color::Always => true,
@@ -347,12 +380,27 @@ fn main() -> ExitCode {
                             width,
                         },
                     );
-                    text.push_str(&summary.line());
+                    text.push_str(&summary.line_with(&outcome.skipped));
                     text.push('\n');
-                    print(&text);
+                    text
+                }
+            };
+            if let Err(code) = print(&text) {
+                return code;
+            }
+            if !matches!(format, Format::Human) {
+                if let Some(p) = outcome.skipped.phrase() {
+                    eprintln!("note: {p}");
                 }
             }
             if outcome.has_input_errors() {
+                return ExitCode::from(2);
+            }
+            if empty && !allow_empty {
+                eprintln!(
+                    "warning: no stackup file found (files ending in {} and .yml); pass --allow-empty if that is expected",
+                    opts.walk.suffix
+                );
                 return ExitCode::from(2);
             }
             let threshold = match fail_on {
@@ -372,32 +420,56 @@ fn main() -> ExitCode {
     }
 }
 
-fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCode {
+fn impedance(
+    paths: Vec<PathBuf>,
+    format: Format,
+    length: Option<f64>,
+    root: Option<PathBuf>,
+) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
         paths
     };
+    if matches!(format, Format::Github | Format::Gitlab) {
+        eprintln!("error: --format github and gitlab apply to `check` only");
+        return ExitCode::from(2);
+    }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
-    let (files, _) = match stackup_lint::walk::collect(&paths, &WalkOptions::default()) {
+    let opts = CheckOptions {
+        root,
+        ..CheckOptions::default()
+    };
+    let (loaded, files, _) = match engine::load_paths(&paths, &base, &opts) {
         Ok(x) => x,
         Err(e) => {
-            eprintln!("error: {}", e.message);
+            eprintln!("error: {e}");
             return ExitCode::from(2);
         }
     };
-    let loaded = stackup_lint::load::load(&files, &base, &InputLimits::default());
     if !loaded.problems.is_empty() {
-        let mut problems = loaded.problems.clone();
-        engine::sort_findings(&mut problems, &loaded.db);
-        print(&human::render(
-            &problems,
-            &loaded.db,
+        let mut outcome = engine::CheckOutcome {
+            findings: loaded.problems,
+            db: loaded.db,
+            files,
+            ..engine::CheckOutcome::default()
+        };
+        engine::sort_findings(&mut outcome.findings, &outcome.db);
+        engine::escape_outcome(&mut outcome);
+        let text = human::render(
+            &outcome.findings,
+            &outcome.db,
             human::HumanOptions {
                 color: false,
                 width: 100,
             },
-        ));
+        );
+        let _ = print(&text);
+        eprintln!("error: the stackups have input errors; no numbers printed");
+        return ExitCode::from(2);
+    }
+    if loaded.stackups.is_empty() {
+        eprintln!("error: no stackup file found in the paths given");
         return ExitCode::from(2);
     }
     let analyses: Vec<_> = loaded
@@ -415,26 +487,27 @@ fn impedance(paths: Vec<PathBuf>, format: Format, length: Option<f64>) -> ExitCo
         .zip(&analyses)
         .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
         .collect();
-    match format {
-        Format::Json => print(&output::impedance::json(&items, length)),
-        Format::Github | Format::Gitlab => {
-            eprintln!("error: --format github and gitlab apply to `check` only");
-            return ExitCode::from(2);
-        }
-        Format::Human => {
+    let text = match format {
+        Format::Json => output::impedance::json(&items, length),
+        _ => {
             let text: Vec<String> = items
                 .iter()
                 .map(|(n, s, a)| output::impedance::table(n, s, a, length))
                 .collect();
-            print(&text.join("\n"));
+            text.join("\n")
         }
-    }
-    ExitCode::SUCCESS
+    };
+    print_or(&text, ExitCode::SUCCESS)
 }
 
 /// `baseline write`: check with default options, record the findings.
 /// Input errors are never baselined: they are printed and nothing is written.
-fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path, walk: WalkOptions) -> ExitCode {
+fn baseline_write(
+    paths: Vec<PathBuf>,
+    output: &std::path::Path,
+    walk: WalkOptions,
+    root: Option<PathBuf>,
+) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
@@ -443,6 +516,7 @@ fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path, walk: WalkOptio
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let opts = CheckOptions {
         walk,
+        root,
         ..CheckOptions::default()
     };
     let outcome = match engine::check_paths(&paths, &base, &opts) {
@@ -458,18 +532,16 @@ fn baseline_write(paths: Vec<PathBuf>, output: &std::path::Path, walk: WalkOptio
         return ExitCode::from(2);
     }
     let b = Baseline::record(&outcome);
-    if let Err(e) = output::write_atomic(output, b.to_json().as_bytes()) {
-        eprintln!(
-            "error: cannot write the baseline to {}: {e}",
-            output.display()
-        );
+    let inputs = output::input_paths(&outcome.db);
+    let shown = output::escape::controls(&output.to_string_lossy()).into_owned();
+    if let Err(e) = output::write_output(output, b.to_json().as_bytes(), &inputs) {
+        eprintln!("error: cannot write the baseline to {shown}: {e}");
         return ExitCode::from(2);
     }
     eprintln!(
-        "wrote {} finding(s) from {} file(s) to {}",
+        "wrote {} finding(s) from {} file(s) to {shown}",
         b.findings.len(),
         outcome.files,
-        output.display()
     );
     ExitCode::SUCCESS
 }
@@ -486,7 +558,7 @@ fn print_input_errors(outcome: &engine::CheckOutcome) {
         color: false,
         width: 100,
     };
-    print(&human::render(&errors, &outcome.db, opts));
+    let _ = print(&human::render(&errors, &outcome.db, opts));
 }
 
 /// `--length`: a positive length with its unit.
@@ -500,23 +572,32 @@ fn parse_length(text: Option<&str>) -> Result<Option<f64>, ExitCode> {
             Err(ExitCode::from(2))
         }
         Some(Err(e)) => {
-            eprintln!("error: --length: {e}");
+            eprintln!(
+                "error: --length: {}",
+                output::escape::controls(&e.to_string())
+            );
             Err(ExitCode::from(2))
         }
     }
 }
 
-/// `report`: check one stackup, then write its report files (each one
-/// atomically). Input errors are printed and nothing is written.
+/// `report`: check one stackup, then write its report files, all or
+/// nothing. Input errors are printed and nothing is written.
 fn report(
     file: &std::path::Path,
     dir: &std::path::Path,
     opts: output::report::ReportOptions,
+    root: Option<PathBuf>,
 ) -> ExitCode {
+    let shown = |p: &std::path::Path| output::escape::controls(&p.to_string_lossy()).into_owned();
+    if !file.exists() {
+        eprintln!("error: {} does not exist", shown(file));
+        return ExitCode::from(2);
+    }
     if !file.is_file() {
         eprintln!(
             "error: {} is not a file; `report` takes one stackup file",
-            file.display()
+            shown(file)
         );
         return ExitCode::from(2);
     }
@@ -524,16 +605,16 @@ fn report(
     if name.is_some_and(|n| n.ends_with(".materials.yaml") || n.ends_with(".materials.yml")) {
         eprintln!(
             "error: {} is a materials library; `report` takes one stackup file",
-            file.display()
+            shown(file)
         );
         return ExitCode::from(2);
     }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
-    let (outcome, kept) = match engine::check_paths_analysed(
-        &[file.to_path_buf()],
-        &base,
-        &CheckOptions::default(),
-    ) {
+    let check = CheckOptions {
+        root,
+        ..CheckOptions::default()
+    };
+    let (outcome, kept) = match engine::check_paths_analysed(&[file.to_path_buf()], &base, &check) {
         Ok(x) => x,
         Err(e) => {
             eprintln!("error: {e}");
@@ -548,37 +629,54 @@ fn report(
     let Some((s, a)) = kept.first() else {
         eprintln!(
             "error: {} holds no stackup (a materials library?); no report written",
-            file.display()
+            shown(file)
         );
         return ExitCode::from(2);
     };
     let display = outcome.db.get(s.file).display.clone();
     let doc = output::report::document(&display, s, a, &outcome.findings, &outcome.db, &opts);
     let files = output::report::render(&doc);
-    if let Err(e) = std::fs::create_dir_all(dir) {
-        eprintln!("error: cannot create {}: {e}", dir.display());
+    let contents: Vec<(String, Vec<u8>)> = files
+        .iter()
+        .map(|f| (f.name.clone(), f.contents.clone().into_bytes()))
+        .collect();
+    let inputs = output::input_paths(&outcome.db);
+    if let Err(e) = output::write_dir_atomic(dir, &contents, &inputs) {
+        eprintln!(
+            "error: cannot write the report into {}: {e} (nothing written)",
+            shown(dir)
+        );
         return ExitCode::from(2);
-    }
-    for f in &files {
-        let path = dir.join(&f.name);
-        if let Err(e) = output::write_atomic(&path, f.contents.as_bytes()) {
-            eprintln!("error: cannot write {}: {e}", path.display());
-            return ExitCode::from(2);
-        }
     }
     eprintln!(
         "wrote {} and {} with {} drawing(s) to {}",
         files[0].name,
         files[1].name,
         files.len() - 2,
-        dir.display()
+        shown(dir)
     );
     ExitCode::SUCCESS
 }
 
-/// Print to standard output, ignoring a closed pipe (`| head`).
-fn print(text: &str) {
+/// Print to standard output. A reader that stops early (`| head`) is the
+/// ordinary end of a pipe, not an error; any other failure to write (a
+/// full disk, `/dev/full`) is exit code 2 with a message.
+fn print(text: &str) -> Result<(), ExitCode> {
     let mut out = std::io::stdout().lock();
-    let _ = out.write_all(text.as_bytes());
-    let _ = out.flush();
+    match out.write_all(text.as_bytes()).and_then(|()| out.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => {
+            eprintln!("error: cannot write to standard output: {e}");
+            Err(ExitCode::from(2))
+        }
+    }
+}
+
+/// Print, then exit with `code` (or 2 when the write failed).
+fn print_or(text: &str, code: ExitCode) -> ExitCode {
+    match print(text) {
+        Ok(()) => code,
+        Err(c) => c,
+    }
 }

@@ -4,6 +4,7 @@
 
 use std::process::Command;
 
+use stackup_lint::input::files::Confinement;
 use stackup_lint::load::{load, load_text, InputLimits};
 use stackup_lint::model::LayerKind;
 
@@ -28,7 +29,8 @@ layers:
 fn builtin_generic_library_loads_and_user_values_win() {
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "a.stackup.yaml", BUILTIN_BOARD);
-    let loaded = load(&[p], dir.path(), &InputLimits::default());
+    let conf = Confinement::new(None, dir.path()).unwrap();
+    let loaded = load(&[p], &InputLimits::default(), &conf);
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     assert_eq!(s.materials["generic-fr4"].dk(), 4.2);
@@ -39,7 +41,8 @@ fn builtin_generic_library_loads_and_user_values_win() {
         "materials:\n  generic-fr4: {dk: 4.05, df: 0.015, frequency: 1 GHz}\nlayers:",
     );
     let p = write(dir.path(), "b.stackup.yaml", &own);
-    let loaded = load(&[p], dir.path(), &InputLimits::default());
+    let conf = Confinement::new(None, dir.path()).unwrap();
+    let loaded = load(&[p], &InputLimits::default(), &conf);
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     assert_eq!(loaded.stackups[0].materials["generic-fr4"].dk(), 4.05);
 }
@@ -83,7 +86,8 @@ layers:
 ";
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "r.stackup.yaml", text);
-    let loaded = load(&[p], dir.path(), &InputLimits::default());
+    let conf = Confinement::new(None, dir.path()).unwrap();
+    let loaded = load(&[p], &InputLimits::default(), &conf);
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     let LayerKind::Dielectric(d) = &s.layers[1].kind else {

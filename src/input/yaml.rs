@@ -18,13 +18,21 @@ pub struct YamlLimits {
     pub max_depth: usize,
     /// Most nodes the document may expand to, aliases included.
     pub max_nodes: usize,
+    /// Most bytes of scalar text (keys and values) the document may
+    /// expand to, aliases included: one long string aliased a thousand
+    /// times is refused before it is copied.
+    pub max_bytes: usize,
 }
+
+/// Default of [`YamlLimits::max_bytes`]: twice the default file-size limit.
+pub const DEFAULT_MAX_YAML_BYTES: usize = 8 * 1024 * 1024;
 
 impl Default for YamlLimits {
     fn default() -> Self {
         YamlLimits {
             max_depth: 64,
             max_nodes: 200_000,
+            max_bytes: DEFAULT_MAX_YAML_BYTES,
         }
     }
 }
@@ -211,6 +219,7 @@ pub fn parse(text: &str, limits: YamlLimits) -> Result<Node, YamlError> {
         limits,
         anchors: HashMap::new(),
         nodes: 0,
+        bytes: 0,
     };
     let mut parser = Parser::new_from_str(text);
     let mut root: Option<Node> = None;
@@ -297,8 +306,11 @@ fn next<'i>(
 struct Builder<'o, 'a> {
     offsets: &'o Offsets<'a>,
     limits: YamlLimits,
-    anchors: HashMap<usize, Node>,
+    /// Anchored nodes with the nodes and scalar bytes an alias to them
+    /// materialises.
+    anchors: HashMap<usize, (Node, usize, usize)>,
     nodes: usize,
+    bytes: usize,
 }
 
 /// Mappings with more keys than this find duplicate keys through a hash
@@ -321,6 +333,30 @@ impl Builder<'_, '_> {
         Ok(())
     }
 
+    /// Count `n` bytes of scalar text against the byte budget.
+    fn count_bytes(&mut self, n: usize, span: &Range<usize>) -> Result<(), YamlError> {
+        self.bytes = self.bytes.saturating_add(n);
+        if self.bytes > self.limits.max_bytes {
+            return Err(YamlError {
+                message: format!(
+                    "the YAML expands to more than {} bytes of text (alias expansion bomb or oversized file); \
+                     raise the limit with --max-yaml-bytes if this file is genuine",
+                    self.limits.max_bytes
+                ),
+                span: span.clone(),
+            });
+        }
+        Ok(())
+    }
+
+    /// Remember an anchored node with what an alias to it costs.
+    fn anchor(&mut self, anchor: usize, node: &Node) {
+        if anchor > 0 {
+            let cost = (count_nodes(node), count_bytes(node));
+            self.anchors.insert(anchor, (node.clone(), cost.0, cost.1));
+        }
+    }
+
     fn node<'i>(
         &mut self,
         parser: &mut Parser<'i, saphyr_parser::StrInput<'i>>,
@@ -341,26 +377,31 @@ impl Builder<'_, '_> {
         }
         match event {
             Event::Alias(id) => {
-                let target = self.anchors.get(&id).cloned().ok_or_else(|| YamlError {
-                    message: "this alias refers to an anchor that is not defined before it".into(),
-                    span: range.clone(),
-                })?;
-                self.count(count_nodes(&target), &range)?;
+                // Count what the alias materialises before copying it.
+                let (nodes, bytes) = match self.anchors.get(&id) {
+                    Some((_, n, b)) => (*n, *b),
+                    None => {
+                        return Err(YamlError {
+                            message: "this alias refers to an anchor that is not defined before it"
+                                .into(),
+                            span: range.clone(),
+                        })
+                    }
+                };
+                self.count(nodes, &range)?;
+                self.count_bytes(bytes, &range)?;
+                let value = self.anchors[&id].0.value.clone();
                 // The alias takes the anchored value but reports at the alias.
-                Ok(Node {
-                    value: target.value,
-                    span: range,
-                })
+                Ok(Node { value, span: range })
             }
             Event::Scalar(text, style, anchor, tag) => {
                 self.count(1, &range)?;
+                self.count_bytes(text.len(), &range)?;
                 let value = resolve_scalar(&text, style, tag.is_some());
                 // Quoted scalars: the span saphyr gives covers the content; widen to quotes.
                 let range = self.widen_quotes(range, style);
                 let node = Node { value, span: range };
-                if anchor > 0 {
-                    self.anchors.insert(anchor, node.clone());
-                }
+                self.anchor(anchor, &node);
                 Ok(node)
             }
             Event::SequenceStart(anchor, _) => {
@@ -384,9 +425,7 @@ impl Builder<'_, '_> {
                     value: Value::Seq(items),
                     span: range.start..end,
                 };
-                if anchor > 0 {
-                    self.anchors.insert(anchor, node.clone());
-                }
+                self.anchor(anchor, &node);
                 Ok(node)
             }
             Event::MappingStart(anchor, _) => {
@@ -466,9 +505,7 @@ impl Builder<'_, '_> {
                     value: Value::Map(entries),
                     span: range.start..end,
                 };
-                if anchor > 0 {
-                    self.anchors.insert(anchor, node.clone());
-                }
+                self.anchor(anchor, &node);
                 Ok(node)
             }
             other => Err(YamlError {
@@ -555,6 +592,19 @@ fn count_nodes(node: &Node) -> usize {
                 .sum::<usize>()
         }
         _ => 1,
+    }
+}
+
+/// Bytes of scalar text (keys and values) in `node`.
+fn count_bytes(node: &Node) -> usize {
+    match &node.value {
+        Value::String(s) => s.len(),
+        Value::Seq(items) => items.iter().map(count_bytes).sum(),
+        Value::Map(entries) => entries
+            .iter()
+            .map(|e| e.key.len() + count_bytes(&e.value))
+            .sum(),
+        _ => 8,
     }
 }
 
@@ -692,6 +742,30 @@ mod tests {
         }
         let e = p(&t).unwrap_err();
         assert!(e.message.contains("expands to more than"), "{}", e.message);
+    }
+
+    /// One 1 MiB string aliased 3,000 times would be 3 GB of text: refused
+    /// by the byte budget at the alias that crosses it, before any copy.
+    #[test]
+    fn aliased_long_string_is_rejected_by_bytes() {
+        let mut t = format!("a: &big \"{}\"\nb: [", "x".repeat(1 << 20));
+        for _ in 0..3000 {
+            t.push_str("*big, ");
+        }
+        t.push_str("]\n");
+        let started = std::time::Instant::now();
+        let e = p(&t).unwrap_err();
+        assert!(
+            e.message.contains("more than 8388608 bytes"),
+            "{}",
+            e.message
+        );
+        assert_eq!(&t[e.span.clone()], "*big");
+        // The anchored string counts once, the keys `a` and `b` one byte
+        // each, so the seventh alias crosses 8 MiB by those two bytes.
+        let seventh = t.match_indices("*big").nth(6).unwrap().0;
+        assert_eq!(e.span.start, seventh);
+        assert!(started.elapsed().as_secs() < 5);
     }
 
     #[test]

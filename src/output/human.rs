@@ -194,7 +194,11 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
     // One shared copy of each file's text and line index, however many
     // findings point into it, built when a finding first needs it.
     let texts: Vec<OnceLock<IndexedText>> = db.files.iter().map(|_| OnceLock::new()).collect();
-    let text = |file: usize| texts[file].get_or_init(|| IndexedText::new(&db.get(file).text));
+    let text = |file: usize| {
+        texts[file].get_or_init(|| {
+            IndexedText::new(&crate::output::escape::source_text(&db.get(file).text))
+        })
+    };
     let theme = if opts.color {
         GraphicalTheme::unicode()
     } else {
