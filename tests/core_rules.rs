@@ -368,8 +368,12 @@ layers:
 net-classes:
   - {name: y, structure: coplanar-grounded, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}}
 ";
-    let f = findings(text, "roughness-impedance-drift");
+    // An uncheckable class is an error of its own (not a warning of the
+    // roughness rule, which a project may suppress).
+    assert!(findings(text, "roughness-impedance-drift").is_empty());
+    let f = findings(text, "net-class-not-computed");
     assert_eq!(f.len(), 1, "{f:#?}");
+    assert_eq!(f[0].severity, stackup_lint::Severity::Error);
     assert!(
         f[0].message.contains("could not be computed") && f[0].message.contains("smallest feature"),
         "{}",

@@ -289,28 +289,37 @@ pub fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) ->
     let f = &f;
     // Items are handed out one at a time from a shared counter, so a few
     // slow items do not leave the other workers idle; results are put back
-    // in item order, so the output does not depend on the schedule.
+    // in item order, so the output does not depend on the schedule. The
+    // calling thread is one of the workers; a thread that cannot be
+    // spawned (a process or memory limit) only leaves fewer workers.
     let next = AtomicUsize::new(0);
     let next = &next;
+    let work = move || {
+        let was = IN_WORKER.with(|w| w.replace(true));
+        let mut done = Vec::new();
+        loop {
+            let i = next.fetch_add(1, Ordering::Relaxed);
+            let Some(x) = items.get(i) else { break };
+            done.push((i, f(x)));
+        }
+        IN_WORKER.with(|w| w.set(was));
+        done
+    };
     let mut parts: Vec<Vec<(usize, R)>> = std::thread::scope(|scope| {
-        let handles: Vec<_> = (0..threads)
-            .map(|_| {
-                scope.spawn(move || {
-                    IN_WORKER.with(|w| w.set(true));
-                    let mut done = Vec::new();
-                    loop {
-                        let i = next.fetch_add(1, Ordering::Relaxed);
-                        let Some(x) = items.get(i) else { break };
-                        done.push((i, f(x)));
-                    }
-                    done
-                })
-            })
-            .collect();
-        handles
-            .into_iter()
-            .map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e)))
-            .collect()
+        let mut handles = Vec::new();
+        for _ in 1..threads {
+            match std::thread::Builder::new().spawn_scoped(scope, work) {
+                Ok(h) => handles.push(h),
+                Err(_) => break,
+            }
+        }
+        let mut parts = vec![work()];
+        parts.extend(
+            handles
+                .into_iter()
+                .map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e))),
+        );
+        parts
     });
     let mut out: Vec<(usize, R)> = parts.drain(..).flatten().collect();
     out.sort_by_key(|(i, _)| *i);

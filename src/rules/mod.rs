@@ -192,11 +192,50 @@ pub static UNUSED_SUPPRESSION_META: RuleMeta = RuleMeta {
 
 pub const UNUSED_SUPPRESSION: &str = "unused-suppression";
 
+/// Metadata of the pseudo-rule reporting net classes whose numbers could
+/// not be computed (an uncheckable class must never pass).
+pub static NOT_COMPUTED_META: RuleMeta = RuleMeta {
+    name: NOT_COMPUTED,
+    summary: "a net class's cross-section was built but its numbers could not be computed, so nothing about it is checked",
+    default_severity: Severity::Error,
+    doc: include_str!("../../rules/net-class-not-computed.md"),
+    options: &[],
+};
+
+pub const NOT_COMPUTED: &str = "net-class-not-computed";
+
+/// One finding per net class whose section was built but not solved (a
+/// section too extreme to mesh, a mesh budget too small): every rule that
+/// reads its numbers skips it, so it must not pass in silence.
+fn not_computed(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding> {
+    let mut out = Vec::new();
+    for (nc, ca) in stackup.net_classes.iter().zip(&analysis.classes) {
+        if let (Ok(_), Err(why)) = (&ca.geometry, &ca.smooth) {
+            out.push(
+                Finding::new(
+                    NOT_COMPUTED,
+                    db.locate(stackup.file, &format!("{}/name", nc.pointer)),
+                    format!(
+                        "the numbers of net class `{}` could not be computed, so none of its checks ran: {why}",
+                        nc.name
+                    ),
+                )
+                .label("not checked")
+                .with_help(
+                    "check the class's width, spacing and gap against its layer and planes (or raise --max-mesh-nodes if the section is genuine)",
+                ),
+            );
+        }
+    }
+    out
+}
+
 /// All rule metadata, the pseudo-rules included (SARIF lists them all).
 pub fn all_meta() -> Vec<&'static RuleMeta> {
     let mut v: Vec<&'static RuleMeta> = registry().iter().map(|r| r.meta()).collect();
     v.push(&INVALID_INPUT_META);
     v.push(&UNUSED_SUPPRESSION_META);
+    v.push(&NOT_COMPUTED_META);
     v
 }
 
@@ -256,6 +295,19 @@ pub fn run(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding
                 .label("unknown rule"),
             );
         }
+    }
+    let level = stackup
+        .settings
+        .rules
+        .get(NOT_COMPUTED)
+        .and_then(|r| r.level)
+        .unwrap_or(Level::On(NOT_COMPUTED_META.default_severity));
+    if let Level::On(severity) = level {
+        out.extend(
+            not_computed(stackup, analysis, db)
+                .into_iter()
+                .map(|f| f.with_severity(severity)),
+        );
     }
     for rule in registry() {
         let meta = rule.meta();

@@ -26,21 +26,7 @@ impl Rule for RoughnessImpedanceDrift {
         let mut out = Vec::new();
         for (nc, ca) in s.net_classes.iter().zip(&cx.analysis.classes) {
             let Some(t) = nc.impedance else { continue };
-            // A section that was built but could not be solved must not pass
-            // silently (a missing plane is `missing-reference-plane`'s finding).
-            if let (Ok(_), Err(why)) = (&ca.geometry, &ca.smooth) {
-                out.push(
-                    Finding::new(
-                        META.name,
-                        cx.at(&format!("{}/impedance/target", nc.pointer)),
-                        format!("the impedance of net class `{}` could not be computed: {why}", nc.name),
-                    )
-                    .with_severity(Severity::Warning)
-                    .label("not checked")
-                    .with_help("check the class's geometry (width, spacing, gap) against its layer and planes"),
-                );
-                continue;
-            }
+            // A section built but not solved is `net-class-not-computed`'s.
             let (Ok(sm), Some(best), Some(worst)) = (&ca.smooth, ca.rough_best, ca.rough_worst)
             else {
                 continue;
