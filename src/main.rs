@@ -561,12 +561,23 @@ fn print_input_errors(outcome: &engine::CheckOutcome) {
     let _ = print(&human::render(&errors, &outcome.db, opts));
 }
 
+/// Longest `--length` accepted, m: longer than any board trace (a
+/// backplane run is about a metre), short enough that no loss overflows.
+const MAX_LENGTH: f64 = 10.0;
+
 /// `--length`: a positive length with its unit.
 fn parse_length(text: Option<&str>) -> Result<Option<f64>, ExitCode> {
     use stackup_lint::input::units::{parse_quantity, Dimension};
     match text.map(|l| parse_quantity(l, Dimension::Length)) {
         None => Ok(None),
-        Some(Ok(v)) if v > 0.0 && v.is_finite() => Ok(Some(v)),
+        Some(Ok(v)) if v > 0.0 && v <= MAX_LENGTH => Ok(Some(v)),
+        Some(Ok(v)) if v > MAX_LENGTH => {
+            eprintln!(
+                "error: --length {} is longer than any board trace (the limit is {MAX_LENGTH} m); check the unit",
+                output::escape::controls(text.unwrap_or_default())
+            );
+            Err(ExitCode::from(2))
+        }
         Some(Ok(_)) => {
             eprintln!("error: --length must be positive");
             Err(ExitCode::from(2))

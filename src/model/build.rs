@@ -274,6 +274,121 @@ fn read_materials_and_foils(r: &mut Reader<'_>) -> LibraryData {
     out
 }
 
+/// Highest Dk accepted for a board dielectric (or a modelled Dk): laminates
+/// lie between about 2 and 12 and ceramic-filled embedded-capacitance
+/// layers reach a few tens (common practice, no source); 100 leaves room
+/// for any real material and catches a percentage or a capacitance typed
+/// as a Dk.
+pub const MAX_BOARD_DK: f64 = 100.0;
+
+/// Highest Df accepted: FR-4 class epoxy/glass reaches about 0.02 and
+/// solder mask about 0.03 (common practice, no source); only absorbers and
+/// ferrite-loaded materials reach 0.1.
+pub const MAX_BOARD_DF: f64 = 0.1;
+
+/// Largest impedance tolerance, as a fraction of the target.
+pub const MAX_IMPEDANCE_TOLERANCE: f64 = 0.5;
+
+/// Largest misfit of a causal Djordjevic-Sarkar model to a material's
+/// points accepted as measurement scatter: 2 % of Dk (and 0.03 absolute,
+/// for Dk read off a plot), and for Df the larger of 0.002 and 30 % of the
+/// point's Df (data sheets round Df to one significant digit). A table that
+/// misses by more cannot come from one passive, causal material (common
+/// practice, no source; the tests show real tables fit well inside it).
+pub const FIT_DK_RELATIVE: f64 = 0.02;
+pub const FIT_DK_ABSOLUTE: f64 = 0.03;
+pub const FIT_DF_ABSOLUTE: f64 = 0.002;
+pub const FIT_DF_RELATIVE: f64 = 0.3;
+
+/// Check a material's points against each other: no frequency given twice
+/// with different values, and a causal Djordjevic-Sarkar model (the one
+/// the analysis fits) that reproduces every point within the stated
+/// scatter ([`FIT_DK_RELATIVE`] and friends). Contradictory data are an
+/// input error at the point that misses most, never silently fitted.
+fn plausible_points(r: &mut Reader<'_>, ptr: &str, name: &str, points: &[DkPoint]) -> bool {
+    let point_ptr = |i: usize| {
+        if r.node(&format!("{ptr}/points")).is_some() {
+            format!("{ptr}/points/{i}")
+        } else {
+            ptr.to_string()
+        }
+    };
+    for (j, b) in points.iter().enumerate() {
+        if let Some(a) = points[..j].iter().find(|a| a.frequency == b.frequency) {
+            if a.dk != b.dk || a.df != b.df {
+                let at = point_ptr(j);
+                r.error(
+                    &format!("{at}/frequency"),
+                    format!(
+                        "material `{name}` gives two different points at {}: Dk {} / Df {} and Dk {} / Df {}",
+                        fmt_freq(b.frequency),
+                        a.dk,
+                        a.df,
+                        b.dk,
+                        b.df
+                    ),
+                    "frequency given twice",
+                    Some("keep one measurement per frequency".into()),
+                );
+                return false;
+            }
+        }
+    }
+    if points.len() < 2 {
+        return true;
+    }
+    use stackup_physics::dispersion::{DielectricPoint, DjordjevicSarkar, DEFAULT_F1, DEFAULT_F2};
+    let data: Vec<DielectricPoint> = points
+        .iter()
+        .map(|p| DielectricPoint {
+            f: p.frequency,
+            dk: p.dk,
+            df: p.df,
+        })
+        .collect();
+    let misfit = |ds: &DjordjevicSarkar| -> Option<(usize, f64, f64)> {
+        // The point that misses by most, relative to what is accepted.
+        let mut worst: Option<(usize, f64, f64, f64)> = None;
+        for (i, p) in points.iter().enumerate() {
+            let m = ds.eval(p.frequency).ok()?;
+            let dk_ok = (FIT_DK_RELATIVE * p.dk).max(FIT_DK_ABSOLUTE);
+            let df_ok = (FIT_DF_RELATIVE * p.df).max(FIT_DF_ABSOLUTE);
+            let badness = ((m.dk - p.dk).abs() / dk_ok).max((m.df - p.df).abs() / df_ok);
+            if worst.is_none_or(|w| badness > w.1) {
+                worst = Some((i, badness, m.dk, m.df));
+            }
+        }
+        worst.filter(|w| w.1 > 1.0).map(|w| (w.0, w.2, w.3))
+    };
+    let problem = match DjordjevicSarkar::fit_table(&data, DEFAULT_F1, DEFAULT_F2) {
+        Ok((ds, _)) => misfit(&ds).map(|(i, dk, df)| {
+            let p = points[i];
+            (
+                i,
+                format!(
+                    "material `{name}`: no causal dielectric model fits its points; the best (Djordjevic-Sarkar) fit gives Dk {dk:.2} / Df {df:.4} at {} where the data say Dk {} / Df {} (accepted scatter: 2 % of Dk, 30 % of Df)",
+                    fmt_freq(p.frequency),
+                    p.dk,
+                    p.df
+                ),
+            )
+        }),
+        Err(e) => Some((0, format!("material `{name}`: no causal dielectric model fits its points ({e})"))),
+    };
+    match problem {
+        None => true,
+        Some((i, message)) => {
+            r.error(
+                &point_ptr(i),
+                message,
+                "contradicts the other points",
+                Some("a passive dielectric's Dk falls slowly with frequency and its Df changes little; check each point's value and frequency".into()),
+            );
+            false
+        }
+    }
+}
+
 fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> {
     let mut points = Vec::new();
     let mut ok = true;
@@ -293,12 +408,21 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
             Some(0.0)
         };
         if let Some(dk) = dk {
-            if !(1.0..=200.0).contains(&dk) {
+            if dk < 1.0 {
                 r.error(
                     &dkp,
                     format!("material `{name}` has Dk {dk}, which is not physical for a dielectric (it must be at least 1, the Dk of vacuum)"),
                     "Dk below 1",
                     Some("give the relative permittivity, e.g. 3.5".into()),
+                );
+                return None;
+            }
+            if dk > MAX_BOARD_DK {
+                r.error(
+                    &dkp,
+                    format!("material `{name}` has Dk {dk}, above any board dielectric (laminates lie between about 2 and 12, ceramic-filled capacitance layers reach a few tens; {MAX_BOARD_DK} is the limit here)"),
+                    "above any board dielectric",
+                    Some("give the relative permittivity, e.g. 3.5 (not a percentage or a capacitance)".into()),
                 );
                 return None;
             }
@@ -312,6 +436,17 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
                     ),
                     "not a loss tangent",
                     Some("give the loss tangent as a plain number, e.g. 0.002".into()),
+                );
+                return None;
+            }
+            if df > MAX_BOARD_DF {
+                r.error(
+                    &dfp,
+                    format!(
+                        "material `{name}` has Df {df}, above {MAX_BOARD_DF}: no board dielectric is that lossy (FR-4 class epoxy/glass reaches about 0.02, solder mask about 0.03; only absorbers and ferrite-loaded materials reach 0.1 and more)"
+                    ),
+                    "implausibly lossy",
+                    Some("give the loss tangent as a plain number, e.g. 0.002 (not a percentage)".into()),
                 );
                 return None;
             }
@@ -415,7 +550,34 @@ fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option<Material> 
         _ => MeasurementMethod::Unknown,
     };
     let dk_tolerance = r.number(&format!("{ptr}/dk-tolerance"), "Dk tolerance");
+    if let Some(t) = dk_tolerance {
+        if t < 0.0 {
+            r.error(
+                &format!("{ptr}/dk-tolerance"),
+                format!(
+                    "material `{name}` has a negative Dk tolerance ({t}); a tolerance is a ± width"
+                ),
+                "negative",
+                Some("give the tolerance as a positive number, e.g. 0.05".into()),
+            );
+            ok = false;
+        } else if let Some(p) = points.first().filter(|p| t > p.dk - 1.0) {
+            r.error(
+                &format!("{ptr}/dk-tolerance"),
+                format!(
+                    "material `{name}` has Dk tolerance ±{t} on a Dk of {}, which would reach below the Dk of vacuum",
+                    p.dk
+                ),
+                "too wide",
+                Some("give the absolute ± tolerance of Dk, e.g. 0.05".into()),
+            );
+            ok = false;
+        }
+    }
     if !ok || points.is_empty() {
+        return None;
+    }
+    if !plausible_points(r, ptr, name, &points) {
         return None;
     }
     points.sort_by(|a, b| a.frequency.total_cmp(&b.frequency));
@@ -942,6 +1104,14 @@ fn read_dielectric(
                 None,
             );
             ok = false;
+        } else if dk > MAX_BOARD_DK {
+            r.error(
+                &format!("{ptr}/modelled-dk"),
+                format!("modelled Dk {dk} is above any board dielectric ({MAX_BOARD_DK} is the limit here)"),
+                "above any board dielectric",
+                Some("give the Dk the impedance model uses for this layer, e.g. 3.6".into()),
+            );
+            ok = false;
         }
     }
     let (pressed, nominal) = (pressed?, nominal?);
@@ -1125,6 +1295,19 @@ fn read_net_class(r: &mut Reader<'_>, s: &Stackup, ptr: &str, name: String) -> O
         } else {
             0.10 * target
         };
+        if tolerance > MAX_IMPEDANCE_TOLERANCE * target {
+            r.error(
+                &tolp,
+                format!(
+                    "impedance tolerance ±{tolerance:.1} Ω is {:.0} % of the {target:.1} Ω target; above {:.0} % a class is not impedance-controlled",
+                    100.0 * tolerance / target,
+                    100.0 * MAX_IMPEDANCE_TOLERANCE
+                ),
+                "not a controlled impedance",
+                Some("controlled impedance is usually held to ±5 % to ±10 %; remove `impedance:` if the class has no target".into()),
+            );
+            return None;
+        }
         Some(ImpedanceTarget { target, tolerance })
     } else {
         None
