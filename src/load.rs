@@ -208,11 +208,11 @@ fn header_line(text: &str, kind: FileKind) -> bool {
 /// Longest excerpt of a file that is not ours quoted in a message.
 pub const EXCERPT_CHARS: usize = 20;
 
-/// The first characters of the first line of `text` that is neither
-/// blank nor a `#` comment (else of the first non-blank line), escaped
-/// (control and invisible characters as `\u{..}`), at most
-/// [`EXCERPT_CHARS`] of them: enough to recognise the wrong file, too
-/// little to quote a secret.
+/// The start of the first line of `text` that is neither blank nor a `#`
+/// comment (else of the first non-blank line), up to its first `=`, `:` or
+/// space and at most [`EXCERPT_CHARS`] characters, escaped (control and
+/// invisible characters as `\u{..}`): enough to recognise the wrong file
+/// (`DEPLOY_KEY…`, `{"type"…`, `-----BEGIN…`), never a value.
 pub fn excerpt(text: &str) -> String {
     let mut lines = text.lines().map(str::trim).filter(|l| !l.is_empty());
     let line = lines
@@ -220,8 +220,15 @@ pub fn excerpt(text: &str) -> String {
         .find(|l| !l.starts_with('#'))
         .or_else(|| lines.next())
         .unwrap_or("");
-    let mut out: String = line.chars().take(EXCERPT_CHARS).collect();
-    if line.chars().count() > EXCERPT_CHARS {
+    // Up to the first separator of a key from its value (`=`, `:`) or a
+    // space: a key's name identifies the file, its value may be a secret.
+    let head: String = line
+        .chars()
+        .take_while(|c| !matches!(c, '=' | ':' | ' ' | '\t'))
+        .take(EXCERPT_CHARS)
+        .collect();
+    let mut out = head.clone();
+    if head.chars().count() < line.chars().count() {
         out.push('…');
     }
     crate::output::escape::controls(&out).into_owned()

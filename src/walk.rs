@@ -238,7 +238,9 @@ pub fn collect(
         s.outside_links += outside_links.get();
     }
     files.sort();
+    let named = files.len();
     files.dedup();
+    out.skipped.duplicates += named - files.len();
     // The same file under two spellings (`a/../b.yaml`, a link): once.
     let mut seen = HashSet::new();
     for f in files {

@@ -79,6 +79,81 @@ pub struct DiskCache {
     /// SHA-256 state after the engine identity and a newline, the prefix
     /// of every key text; a key's digest continues from a copy of it.
     engine: Sha256,
+    /// The user the program runs as (owner of files it makes).
+    owner: Option<u32>,
+    /// Whether each shard directory (`00` to `ff`) may be read: a real
+    /// directory of ours that nobody else may write, checked once per run.
+    shards: Arc<[std::sync::OnceLock<bool>; 256]>,
+}
+
+/// Owner of a file (`None` where the platform has no such notion).
+fn owner_of(meta: &std::fs::Metadata) -> Option<u32> {
+    #[cfg(unix)]
+    {
+        Some(std::os::unix::fs::MetadataExt::uid(meta))
+    }
+    #[cfg(not(unix))]
+    {
+        let _ = meta;
+        None
+    }
+}
+
+/// `Ok` when `dir` (not followed if a link) is a directory owned by the
+/// owner of `mine` and not writable by group or others; else why not.
+fn private(dir: &std::fs::Metadata, mine: &std::fs::Metadata) -> Result<(), String> {
+    if !dir.is_dir() {
+        return Err("is not a directory (a link or a file)".into());
+    }
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::{MetadataExt, PermissionsExt};
+        if dir.uid() != mine.uid() {
+            return Err(format!(
+                "is owned by user {}, not by the user running stackup-lint ({})",
+                dir.uid(),
+                mine.uid()
+            ));
+        }
+        let mode = dir.permissions().mode();
+        if mode & 0o022 != 0 {
+            return Err(format!(
+                "is writable by its group or by others (mode {:o}); run `chmod go-w` on it",
+                mode & 0o7777
+            ));
+        }
+    }
+    #[cfg(not(unix))]
+    let _ = mine;
+    Ok(())
+}
+
+/// Create `dir` (and missing parents) private to the user: 0700 on Unix.
+fn make_private_dir(dir: &Path) -> std::io::Result<()> {
+    let mut b = std::fs::DirBuilder::new();
+    b.recursive(true);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::DirBuilderExt;
+        b.mode(0o700);
+    }
+    b.create(dir)
+}
+
+/// Open a cache file for reading if it is a regular file: a link is not
+/// followed (O_NOFOLLOW) and a FIFO or device does not block the open
+/// (O_NONBLOCK); the handle's own type is checked.
+fn open_regular(path: &Path) -> Option<(std::fs::File, std::fs::Metadata)> {
+    let mut o = std::fs::OpenOptions::new();
+    o.read(true);
+    #[cfg(unix)]
+    {
+        use std::os::unix::fs::OpenOptionsExt;
+        o.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK | libc::O_NOCTTY);
+    }
+    let file = o.open(path).ok()?;
+    let meta = file.metadata().ok()?;
+    meta.is_file().then_some((file, meta))
 }
 
 /// What one lookup-and-store pass did (for `STACKUP_LINT_CACHE_DEBUG`).
@@ -114,11 +189,19 @@ impl DiskCache {
     /// A cache in `dir` (created when missing) bounded by `max_bytes`, for
     /// results of the engine `engine`. Fails when the directory cannot be
     /// created or written.
+    ///
+    /// The directory must be ours alone: owned by the user running the
+    /// program and not writable by its group or by others (a new one is
+    /// made so). Anyone else who can write there could plant results.
     pub fn open(dir: &Path, max_bytes: u64, engine: String) -> std::io::Result<DiskCache> {
-        std::fs::create_dir_all(dir)?;
-        // Prove it is writable now rather than failing on every store.
+        make_private_dir(dir)?;
+        // Prove it is writable now rather than failing on every store; the
+        // probe is ours, so its owner is who we are.
         let probe = tempfile::NamedTempFile::new_in(dir)?;
+        let mine = probe.as_file().metadata()?;
         drop(probe);
+        private(&std::fs::symlink_metadata(dir)?, &mine)
+            .map_err(|why| std::io::Error::other(format!("the directory {why}")))?;
         let mut prefix = Sha256::new();
         prefix.update(engine.as_bytes());
         prefix.update(b"\n");
@@ -126,11 +209,47 @@ impl DiskCache {
             dir: dir.to_path_buf(),
             max_bytes,
             engine: prefix,
+            owner: owner_of(&mine),
+            shards: Arc::new(std::array::from_fn(|_| std::sync::OnceLock::new())),
         })
     }
 
     pub fn dir(&self) -> &Path {
         &self.dir
+    }
+
+    /// True when the shard directory of first digest byte `b` may be
+    /// read: missing (nothing to read), or a real directory of ours that
+    /// nobody else may write. Checked once per run.
+    fn shard_ok(&self, b: u8) -> bool {
+        *self.shards[usize::from(b)].get_or_init(|| {
+            let shard = self.dir.join(format!("{b:02x}"));
+            match std::fs::symlink_metadata(&shard) {
+                Err(_) => true,
+                Ok(m) => {
+                    let ok = m.is_dir()
+                        && self.owner.is_none_or(|o| Some(o) == owner_of(&m))
+                        && {
+                            #[cfg(unix)]
+                            {
+                                use std::os::unix::fs::PermissionsExt;
+                                m.permissions().mode() & 0o022 == 0
+                            }
+                            #[cfg(not(unix))]
+                            {
+                                true
+                            }
+                        };
+                    if !ok && debug() {
+                        eprintln!(
+                            "cache: {} is not a private directory of this user; its entries are not read",
+                            shard.display()
+                        );
+                    }
+                    ok
+                }
+            }
+        })
     }
 
     /// SHA-256 of the key text: the engine identity, a newline, the
@@ -156,12 +275,15 @@ impl DiskCache {
     /// time on a hit.
     fn read_entry<T>(&self, key: &str, decode: impl Fn(&[u8], &[u8]) -> Option<T>) -> Option<T> {
         let digest = self.digest(key);
+        if !self.shard_ok(digest[0]) {
+            return None;
+        }
         let path = self.path_of(&digest);
         // Open, size, one read: an entry is replaced by renaming a new file
         // over it, never written in place, so the opened file keeps the
-        // size it was seen with (a shorter read is a miss).
-        let mut file = std::fs::File::open(&path).ok()?;
-        let meta = file.metadata().ok()?;
+        // size it was seen with (a shorter read is a miss). Anything but a
+        // regular file is a miss, without blocking.
+        let (mut file, meta) = open_regular(&path)?;
         if meta.len() > MAX_ENTRY {
             return None;
         }
@@ -198,9 +320,12 @@ impl DiskCache {
 
     fn write_entry(&self, digest: &[u8], bytes: Vec<u8>) -> u64 {
         let path = self.path_of(digest);
+        if !self.shard_ok(digest[0]) {
+            return 0;
+        }
         let write = || -> std::io::Result<()> {
             let shard = path.parent().unwrap_or(&self.dir);
-            std::fs::create_dir_all(shard)?;
+            make_private_dir(shard)?;
             let mut tmp = tempfile::NamedTempFile::new_in(shard)?;
             tmp.write_all(&bytes)?;
             tmp.persist(&path).map_err(|e| e.error)?;
@@ -220,8 +345,12 @@ impl DiskCache {
             return 0;
         }
         let usage = self.dir.join(USAGE_FILE);
-        let estimate = std::fs::read_to_string(&usage)
-            .ok()
+        let estimate = open_regular(&usage)
+            .and_then(|(f, _)| {
+                let mut t = String::new();
+                std::io::Read::read_to_string(&mut std::io::Read::take(f, 32), &mut t).ok()?;
+                Some(t)
+            })
             .and_then(|t| t.trim().parse::<u64>().ok());
         let (total, evicted) = match estimate {
             Some(e) if e.saturating_add(added) <= self.max_bytes => (e + added, 0),
@@ -252,7 +381,12 @@ impl DiskCache {
                 continue;
             };
             for f in files.flatten() {
+                // Not followed: a link or a special file is never counted
+                // as an entry (removing one only unlinks it).
                 let Ok(meta) = f.metadata() else { continue };
+                if !meta.is_file() {
+                    continue;
+                }
                 let modified = meta.modified().unwrap_or(SystemTime::UNIX_EPOCH);
                 let fname = f.file_name();
                 let fname = fname.to_string_lossy();
@@ -319,8 +453,17 @@ fn touch(file: &std::fs::File, meta: &std::fs::Metadata, path: &Path) {
         .and_then(|t| now.duration_since(t).ok())
         .is_some_and(|age| age < TOUCH_AFTER);
     if !fresh && file.set_modified(now).is_err() {
-        if let Ok(f) = std::fs::OpenOptions::new().write(true).open(path) {
-            let _ = f.set_modified(now);
+        let mut o = std::fs::OpenOptions::new();
+        o.write(true);
+        #[cfg(unix)]
+        {
+            use std::os::unix::fs::OpenOptionsExt;
+            o.custom_flags(libc::O_NOFOLLOW | libc::O_NONBLOCK | libc::O_NOCTTY);
+        }
+        if let Ok(f) = o.open(path) {
+            if f.metadata().is_ok_and(|m| m.is_file()) {
+                let _ = f.set_modified(now);
+            }
         }
     }
 }

@@ -21,7 +21,7 @@ use std::sync::atomic::{AtomicUsize, Ordering};
 use stackup_physics::consts::C0;
 use stackup_physics::copper::{surface_resistance, SIGMA_ANNEALED_COPPER};
 use stackup_physics::fieldsolver::{
-    self, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
+    self, estimate, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
 };
 use stackup_physics::loss;
 use stackup_physics::roughness::{hammerstad_factor, RoughLayerModel, RoughSurface};
@@ -185,6 +185,8 @@ static CACHE_PENDING: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU6
 struct Tally {
     hits: AtomicUsize,
     solved: AtomicUsize,
+    /// Cached results that failed the plausibility check (solved again).
+    rejected: AtomicUsize,
 }
 
 impl Tally {
@@ -222,8 +224,22 @@ fn solve_family_cached(
             .map(|i| c.get(&member_key(family, i)))
             .collect();
         if let Some(v) = hits {
-            tally.add(members.len(), 0);
-            return v;
+            // A cache directory may have been written by someone else (a CI
+            // cache restored from an earlier job): a cached number is used
+            // only if it passes the checks a fresh one would, and a cached
+            // error is never believed (solving again costs little when the
+            // section is refused early).
+            let trusted = v.iter().zip(members).all(|(r, cs)| match r {
+                Ok(s) => estimate::check_solution(cs, s).is_ok(),
+                Err(_) => false,
+            });
+            if trusted {
+                tally.add(members.len(), 0);
+                return v;
+            }
+            if v.iter().any(Result::is_ok) {
+                tally.rejected.fetch_add(1, Ordering::Relaxed);
+            }
         }
     }
     tally.add(0, members.len());
@@ -353,6 +369,17 @@ fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
     }
 }
 
+/// The sections of a class at frequency `f`: smooth copper, and the
+/// declared roughness at its best and worst case (equal when every face is
+/// known).
+pub fn family_sections(g: &LineGeometry, f: f64) -> [CrossSection; 3] {
+    [
+        section::cross_section(g, None),
+        section::cross_section(g, Some(&rough_layers(g, f, false))),
+        section::cross_section(g, Some(&rough_layers(g, f, true))),
+    ]
+}
+
 struct Pending {
     geometry: LineGeometry,
     /// Why the section is not solved (outside the solver's range).
@@ -395,9 +422,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
                 }));
             }
             Ok(g) => {
-                let smooth = section::cross_section(&g, None);
-                let best = section::cross_section(&g, Some(&rough_layers(&g, f, false)));
-                let worst = section::cross_section(&g, Some(&rough_layers(&g, f, true)));
+                let [smooth, best, worst] = family_sections(&g, f);
                 let mut members: Vec<CrossSection> = vec![smooth];
                 let mut index_of = |cs: CrossSection| match members.iter().position(|m| *m == cs) {
                     Some(i) => i,
@@ -525,10 +550,11 @@ pub fn analyze(s: &Stackup) -> Analysis {
     let active = cache::active();
     if let (Some(c), true) = (active.as_deref(), cache::debug()) {
         eprintln!(
-            "cache: {}: {} hits, {} solved and stored",
+            "cache: {}: {} hits, {} solved and stored, {} cached results rejected by the plausibility check",
             c.dir().display(),
             tally.hits.load(Ordering::Relaxed),
-            tally.solved.load(Ordering::Relaxed)
+            tally.solved.load(Ordering::Relaxed),
+            tally.rejected.load(Ordering::Relaxed)
         );
     }
     let evicted = settle_cache(active.as_deref());
@@ -605,8 +631,11 @@ fn width_for_target(
     );
     if let Some(c) = active.as_deref() {
         if let Some(v) = c.get_numbers(&k) {
-            tally.add(1, 0);
-            return v.first().copied();
+            if plausible_width(&v, w0, z_now, target, &section) {
+                tally.add(1, 0);
+                return v.first().copied();
+            }
+            tally.rejected.fetch_add(1, Ordering::Relaxed);
         }
     }
     tally.add(0, 1);
@@ -623,6 +652,59 @@ fn width_for_target(
         CACHE_PENDING.fetch_add(n, Ordering::Relaxed);
     }
     w
+}
+
+/// Largest ratio between a proposed width and the current one that a
+/// cached width for target may have.
+const MAX_WIDTH_STEP: f64 = 20.0;
+
+/// Accepted misfit of a cached width for target: the closed-form estimate
+/// at that width, scaled by the solved impedance at the current width, must
+/// come within this fraction of the target (the forms' own errors largely
+/// cancel in the ratio).
+const WIDTH_CHECK: f64 = 0.15;
+
+/// Check a cached width for target (`[]` for none, or one width) before
+/// it is used: a finite, positive width within [`MAX_WIDTH_STEP`] of the
+/// current one, at which the closed-form estimate, scaled by the solved
+/// impedance at the current width `w0`, comes within [`WIDTH_CHECK`] of
+/// the target.
+fn plausible_width(
+    v: &[f64],
+    w0: f64,
+    z_now: f64,
+    target: f64,
+    section: &dyn Fn(f64) -> CrossSection,
+) -> bool {
+    let w = match v {
+        [] => return true,
+        [w] => *w,
+        _ => return false,
+    };
+    if !(w.is_finite() && w > w0 / MAX_WIDTH_STEP && w < w0 * MAX_WIDTH_STEP) {
+        return false;
+    }
+    let z_of = |cs: &CrossSection| {
+        // The signal mode's impedance at the middle of the estimate's
+        // air and permittivity ranges (the top of the air range for a
+        // bound); the ratio of two of them is what is compared.
+        estimate::estimate(cs).map(|e| {
+            let m = e.signal;
+            let z_air = if m.z_air_low > 0.0 {
+                (m.z_air_low * m.z_air_high).sqrt()
+            } else {
+                m.z_air_high
+            };
+            z_air / (m.eps_low * m.eps_high).sqrt().sqrt()
+        })
+    };
+    match (z_of(&section(w)), z_of(&section(w0))) {
+        (Some(at_w), Some(at_w0)) => {
+            let predicted = z_now * at_w / at_w0;
+            (predicted / target - 1.0).abs() <= WIDTH_CHECK
+        }
+        _ => true,
+    }
 }
 
 /// Loss per metre: dielectric loss from the filling-weighted loss tangent,

@@ -6,11 +6,37 @@ use std::fmt::Write as _;
 
 use super::{Block, Document, Table, CAUTION};
 
-/// Escape a table cell: pipes, and line breaks as spaces.
+/// Escape text for Markdown: control and invisible characters as visible
+/// `\u{..}`, and outside code spans (text between backticks, which
+/// Markdown shows literally) `<`, `>` and `&` as HTML entities, so a name
+/// never becomes raw HTML. A backtick in a name only ends a code span
+/// early; what follows is escaped as ordinary text.
+fn text(s: &str) -> String {
+    let s = crate::output::escape::controls(s);
+    let mut out = String::with_capacity(s.len());
+    let mut in_code = false;
+    for c in s.chars() {
+        match c {
+            '`' => {
+                in_code = !in_code;
+                out.push(c);
+            }
+            '<' if !in_code => out.push_str("&lt;"),
+            '>' if !in_code => out.push_str("&gt;"),
+            '&' if !in_code => out.push_str("&amp;"),
+            c => out.push(c),
+        }
+    }
+    // An unclosed code span would swallow the rest of the line: close it.
+    if in_code {
+        out.push('`');
+    }
+    out
+}
+
+/// Escape a table cell: as [`text`], and pipes.
 fn cell(s: &str) -> String {
-    s.replace('\\', "\\\\")
-        .replace('|', "\\|")
-        .replace(['\n', '\r'], " ")
+    text(s).replace('\\', "\\\\").replace('|', "\\|")
 }
 
 fn table(out: &mut String, t: &Table) {
@@ -36,11 +62,11 @@ fn table(out: &mut String, t: &Table) {
 /// The Markdown text.
 pub fn render(doc: &Document) -> String {
     let mut out = String::new();
-    let _ = writeln!(out, "# {}\n", doc.title);
+    let _ = writeln!(out, "# {}\n", text(&doc.title));
     let _ = writeln!(
         out,
-        "Source: `{}` · stackup-lint {}\n",
-        doc.source,
+        "Source: {} · stackup-lint {}\n",
+        text(&format!("`{}`", doc.source.replace('`', "'"))),
         env!("CARGO_PKG_VERSION")
     );
     let _ = writeln!(out, "> {CAUTION}\n");
@@ -49,17 +75,17 @@ pub fn render(doc: &Document) -> String {
         for b in &s.blocks {
             match b {
                 Block::Paragraph(p) => {
-                    let _ = writeln!(out, "{p}\n");
+                    let _ = writeln!(out, "{}\n", text(p));
                 }
                 Block::Note(p) => {
-                    let _ = writeln!(out, "_{}_\n", p.replace('_', "\\_"));
+                    let _ = writeln!(out, "_{}_\n", text(p).replace('_', "\\_"));
                 }
                 Block::Heading(h) => {
-                    let _ = writeln!(out, "### {h}\n");
+                    let _ = writeln!(out, "### {}\n", text(h));
                 }
                 Block::Table(t) => table(&mut out, t),
                 Block::Figure(f) => {
-                    let _ = writeln!(out, "![{}]({})\n", f.caption, f.file);
+                    let _ = writeln!(out, "![{}]({})\n", text(&f.caption), f.file);
                 }
                 Block::CrossSection {
                     readable,
@@ -71,8 +97,13 @@ pub fn render(doc: &Document) -> String {
                     } else {
                         (readable, scaled)
                     };
-                    let _ = writeln!(out, "![{}]({})\n", shown.caption, shown.file);
-                    let _ = writeln!(out, "Also drawn: [{}]({}).\n", other.caption, other.file);
+                    let _ = writeln!(out, "![{}]({})\n", text(&shown.caption), shown.file);
+                    let _ = writeln!(
+                        out,
+                        "Also drawn: [{}]({}).\n",
+                        text(&other.caption),
+                        other.file
+                    );
                 }
             }
         }

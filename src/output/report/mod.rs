@@ -138,8 +138,11 @@ pub fn stem(display: &str) -> String {
     slug(name)
 }
 
-/// Escape text for HTML and SVG.
+/// Escape text for HTML and SVG: markup characters as entities, control
+/// and invisible formatting characters as visible `\u{..}` (they are not
+/// even valid XML).
 pub(crate) fn esc(s: &str) -> String {
+    let s = crate::output::escape::controls(s);
     let mut out = String::with_capacity(s.len());
     for c in s.chars() {
         match c {

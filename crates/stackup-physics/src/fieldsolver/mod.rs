@@ -40,6 +40,7 @@
 //! The sparse symmetric positive-definite systems are solved by a sparse
 //! Cholesky factorisation (faer), sequential and deterministic.
 
+pub mod estimate;
 mod fv;
 mod mesh;
 
