@@ -106,14 +106,16 @@ const DK: Field = Field {
     lo: 1.0,
     hi: 12.0,
     min: 1.0,
-    max: 1e3,
+    // The model's limit for a board dielectric (`MAX_BOARD_DK`).
+    max: 100.0,
     unit: "",
 };
 const DF: Field = Field {
     lo: 0.0,
     hi: 0.05,
     min: 0.0,
-    max: 1.0,
+    // The model's limit (`MAX_BOARD_DF`).
+    max: 0.1,
     unit: "",
 };
 const FREQ: Field = Field {

@@ -349,6 +349,7 @@ fn main() -> ExitCode {
                     &rule_docs_url,
                 );
                 let inputs = output::input_paths(&outcome.db);
+                let log = output::escape::json_text(&log);
                 if let Err(e) = output::write_output(path, log.as_bytes(), &inputs) {
                     eprintln!(
                         "error: cannot write the SARIF log to {}: {e}",
@@ -359,9 +360,17 @@ fn main() -> ExitCode {
             }
             let summary = Summary::of(&outcome.findings, outcome.files);
             let text = match format {
-                Format::Json => json::render(&outcome.findings, &outcome.db, outcome.files),
+                Format::Json => output::escape::json_text(&json::render(
+                    &outcome.findings,
+                    &outcome.db,
+                    outcome.files,
+                ))
+                .into_owned(),
                 Format::Github => github::render(&outcome.findings, &outcome.db),
-                Format::Gitlab => gitlab::render(&outcome.findings, &outcome.db),
+                Format::Gitlab => {
+                    output::escape::json_text(&gitlab::render(&outcome.findings, &outcome.db))
+                        .into_owned()
+                }
                 Format::Human => {
                     let use_color = match color {
                         Color::Always => true,
@@ -487,14 +496,17 @@ fn impedance(
         .zip(&analyses)
         .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
         .collect();
+    // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
-        Format::Json => output::impedance::json(&items, length),
+        Format::Json => {
+            output::escape::json_text(&output::impedance::json(&items, length)).into_owned()
+        }
         _ => {
             let text: Vec<String> = items
                 .iter()
                 .map(|(n, s, a)| output::impedance::table(n, s, a, length))
                 .collect();
-            text.join("\n")
+            output::escape::controls_keep_lines(&text.join("\n")).into_owned()
         }
     };
     print_or(&text, ExitCode::SUCCESS)

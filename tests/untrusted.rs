@@ -598,6 +598,15 @@ fn control_characters_and_markup_are_escaped_everywhere() {
             }
         }
     }
+    for format in ["human", "json"] {
+        let out = run(
+            &p.root,
+            &["impedance", "--format", format, "boards/esc.stackup.yaml"],
+        );
+        assert_eq!(out.status.code(), Some(0));
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(!raw(&text), "impedance {format}: {text:?}");
+    }
     let out = run(
         &p.root,
         &["report", "boards/esc.stackup.yaml", "-o", "report"],
@@ -619,12 +628,32 @@ fn control_characters_and_markup_are_escaped_everywhere() {
 fn sarif_targets_are_never_replaced() {
     use std::os::unix::fs::FileTypeExt;
     let p = Project::new();
+    // A null device of our own where we may make one (as root: a build
+    // that regressed would replace this one, not the machine's /dev/null,
+    // as the build before this test did); else /dev/null, which a user
+    // who may not make devices cannot replace either.
+    let own = p.outer.join("null");
+    let device = if Command::new("mknod")
+        .args([own.to_str().unwrap(), "c", "1", "3"])
+        .stderr(Stdio::null())
+        .status()
+        .is_ok_and(|s| s.success())
+    {
+        own
+    } else {
+        PathBuf::from("/dev/null")
+    };
     let out = run(
         &p.root,
-        &["check", "--sarif", "/dev/null", "boards/a.stackup.yaml"],
+        &[
+            "check",
+            "--sarif",
+            device.to_str().unwrap(),
+            "boards/a.stackup.yaml",
+        ],
     );
     assert_eq!(out.status.code(), Some(1));
-    assert!(std::fs::metadata("/dev/null")
+    assert!(std::fs::metadata(&device)
         .unwrap()
         .file_type()
         .is_char_device());

@@ -37,6 +37,39 @@ pub fn controls(s: &str) -> Cow<'_, str> {
     Cow::Owned(out)
 }
 
+/// As [`controls`], but line breaks (`\n`) stay: for whole rendered
+/// texts (a table) whose lines are ours and whose names may not be.
+pub fn controls_keep_lines(s: &str) -> Cow<'_, str> {
+    if !s.chars().any(|c| is_unsafe(c) && c != '\n') {
+        return Cow::Borrowed(s);
+    }
+    let lines: Vec<Cow<'_, str>> = s.split('\n').map(controls).collect();
+    Cow::Owned(lines.join("\n"))
+}
+
+/// A JSON text with every unsafe character that JSON allows raw inside a
+/// string (DEL, C1 controls, invisible formatting) written as a `\uXXXX`
+/// escape: the same JSON value, nothing raw for a terminal or a viewer.
+/// (The JSON writer already escapes the C0 controls; outside strings a
+/// JSON text has only ASCII structure and white space.)
+pub fn json_text(s: &str) -> Cow<'_, str> {
+    if !s.chars().any(|c| is_unsafe(c) && !c.is_ascii_whitespace()) {
+        return Cow::Borrowed(s);
+    }
+    let mut out = String::with_capacity(s.len() + 16);
+    for c in s.chars() {
+        if is_unsafe(c) && !c.is_ascii_whitespace() {
+            let mut units = [0u16; 2];
+            for u in c.encode_utf16(&mut units) {
+                out.push_str(&format!("\\u{u:04x}"));
+            }
+        } else {
+            out.push(c);
+        }
+    }
+    Cow::Owned(out)
+}
+
 /// Source text for a snippet: every unsafe character other than the line
 /// ends `\n` and `\r\n` becomes `?` repeated over its UTF-8 bytes, so every
 /// byte offset (and so every span and line number) stays where it was.
@@ -71,6 +104,19 @@ mod tests {
         // Trojan-source style reordering and invisible characters.
         assert_eq!(controls("a\u{202e}b\u{200b}c"), "a\\u{202e}b\\u{200b}c");
         assert_eq!(controls("\u{feff}k"), "\\u{feff}k");
+    }
+
+    #[test]
+    fn json_keeps_its_value() {
+        let v = serde_json::json!({"name": "a\u{7f}b\u{9b}c\u{202e}d\u{1b}e"});
+        let text = serde_json::to_string_pretty(&v).unwrap();
+        let safe = json_text(&text);
+        assert!(!safe
+            .chars()
+            .any(|c| is_unsafe(c) && !c.is_ascii_whitespace()));
+        let back: serde_json::Value = serde_json::from_str(&safe).unwrap();
+        assert_eq!(back, v);
+        assert_eq!(controls_keep_lines("a\u{1b}\nb"), "a\\u{1b}\nb");
     }
 
     #[test]
