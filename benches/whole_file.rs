@@ -10,14 +10,18 @@
 use std::path::{Path, PathBuf};
 
 use criterion::{criterion_group, criterion_main, Criterion};
-use stackup_lint::analysis::{self, cache};
+use stackup_lint::analysis::{cache, AnalysisOptions};
 use stackup_lint::engine::{check_paths, CheckOptions};
+use stackup_lint::pool::Pool;
 use std::hint::black_box;
 
-fn check(file: &Path) -> usize {
+fn check(file: &Path, analysis: &AnalysisOptions) -> usize {
     let root = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let outcome = check_paths(&[file.to_path_buf()], root, &CheckOptions::default())
-        .expect("the bench file loads");
+    let opts = CheckOptions {
+        analysis: analysis.clone(),
+        ..CheckOptions::default()
+    };
+    let outcome = check_paths(&[file.to_path_buf()], root, &opts).expect("the bench file loads");
     assert!(!outcome.has_input_errors(), "the bench file is valid");
     outcome.findings.len()
 }
@@ -34,28 +38,32 @@ fn whole_file(c: &mut Criterion) {
             root.join("examples/line-card-10l/board.stackup.yaml"),
         ),
     ];
-    analysis::set_solver_threads(1);
+    let cold = AnalysisOptions {
+        pool: Pool::single(),
+        ..AnalysisOptions::default()
+    };
     let mut g = c.benchmark_group("check");
     g.sample_size(10);
     for (name, file) in &files {
-        cache::set(None);
         g.bench_function(format!("{name}/cold"), |b| {
-            b.iter(|| black_box(check(file)))
+            b.iter(|| black_box(check(file, &cold)))
         });
         let dir = tempfile::tempdir().unwrap();
-        cache::set(Some(
-            cache::DiskCache::open(
-                dir.path(),
-                cache::DEFAULT_MAX_BYTES,
-                cache::engine_identity(),
-            )
-            .unwrap(),
-        ));
-        check(file);
+        let warm = AnalysisOptions {
+            cache: Some(std::sync::Arc::new(
+                cache::DiskCache::open(
+                    dir.path(),
+                    cache::DEFAULT_MAX_BYTES,
+                    cache::engine_identity(),
+                )
+                .unwrap(),
+            )),
+            ..cold.clone()
+        };
+        check(file, &warm);
         g.bench_function(format!("{name}/warm"), |b| {
-            b.iter(|| black_box(check(file)))
+            b.iter(|| black_box(check(file, &warm)))
         });
-        cache::set(None);
     }
     g.finish();
 }

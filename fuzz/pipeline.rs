@@ -21,6 +21,7 @@ pub fn render_all(outcome: &CheckOutcome) {
         human::HumanOptions {
             color: false,
             width: 100,
+            pool: stackup_lint::pool::Pool::single(),
         },
     );
     let _ = Summary::of(&outcome.findings, outcome.files).line();
@@ -56,9 +57,9 @@ pub fn load_bytes(data: &[u8]) {
             std::fs::create_dir_all(&dir).expect("temporary directory");
             let path = dir.join("fuzz.stackup.yaml");
             std::fs::write(&path, data).expect("temporary file");
-            let conf = stackup_lint::input::files::Confinement::new(None, &dir)
+            let conf = stackup_lint::files::Confinement::new(None, &dir)
                 .expect("the temporary directory exists");
-            load::load(&[path], &limits, &conf)
+            load::load(&[path], &limits, &conf, stackup_lint::pool::Pool::single())
         }
     };
     if loaded.stackups.is_empty() {
@@ -81,13 +82,15 @@ pub fn load_bytes(data: &[u8]) {
 /// field solver, rules), then every renderer.
 #[allow(dead_code)]
 pub fn check_text(text: &str) -> CheckOutcome {
-    stackup_lint::analysis::set_solver_threads(1);
-    // Solve every section: no on-disk solver cache, so an input behaves the
-    // same whatever ran before it.
-    std::env::set_var("STACKUP_LINT_NO_CACHE", "1");
+    // One thread, and no on-disk solver cache: every section is solved, so
+    // an input behaves the same whatever ran before it.
+    let opts = stackup_lint::analysis::AnalysisOptions {
+        pool: stackup_lint::pool::Pool::single(),
+        ..Default::default()
+    };
     let loaded = load::load_text("fuzz.stackup.yaml", text, &InputLimits::default());
     let loaded_ok = !loaded.stackups.is_empty();
-    let outcome = engine::lint(loaded);
+    let outcome = engine::lint(loaded, &opts);
     if !loaded_ok {
         assert!(
             outcome.has_input_errors(),

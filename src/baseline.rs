@@ -127,7 +127,7 @@ impl Baseline {
     /// Only a regular file is read, at most [`MAX_BASELINE_BYTES`].
     pub fn read(path: &Path) -> Result<Baseline, String> {
         let shown = crate::output::escape::controls(&path.to_string_lossy()).into_owned();
-        let bytes = crate::input::files::read_regular(path, MAX_BASELINE_BYTES).map_err(|e| {
+        let bytes = crate::files::read_regular(path, MAX_BASELINE_BYTES).map_err(|e| {
             format!(
                 "cannot read the baseline {shown}: {}",
                 e.message().replace("for one stackup", "for a baseline")

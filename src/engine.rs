@@ -2,9 +2,9 @@
 
 use std::path::{Path, PathBuf};
 
-use crate::analysis::Analysis;
+use crate::analysis::{Analysis, AnalysisOptions};
+use crate::files::Confinement;
 use crate::finding::{Finding, INVALID_INPUT};
-use crate::input::files::Confinement;
 use crate::load::{self, InputLimits};
 use crate::model::Stackup;
 use crate::output::escape;
@@ -19,6 +19,9 @@ pub struct CheckOptions {
     /// `--root`: the project root every file read must lie in (default:
     /// each file's enclosing git work tree).
     pub root: Option<PathBuf>,
+    /// How to solve (mesh budget, cache) and the run's workers, which also
+    /// read the files.
+    pub analysis: AnalysisOptions,
 }
 
 /// The result of a run: every file read and every finding, sorted.
@@ -55,19 +58,23 @@ pub fn sort_findings(findings: &mut [Finding], db: &SourceDb) {
 }
 
 /// Lint already-loaded stackups.
-pub fn lint(loaded: load::Loaded) -> CheckOutcome {
-    lint_inner(loaded, false).0
+pub fn lint(loaded: load::Loaded, opts: &AnalysisOptions) -> CheckOutcome {
+    lint_inner(loaded, opts, false).0
 }
 
 /// Lint, and keep each stackup with its analysis when `keep` is set.
-fn lint_inner(loaded: load::Loaded, keep: bool) -> (CheckOutcome, Vec<(Stackup, Analysis)>) {
+fn lint_inner(
+    loaded: load::Loaded,
+    opts: &AnalysisOptions,
+    keep: bool,
+) -> (CheckOutcome, Vec<(Stackup, Analysis)>) {
     let mut findings = loaded.problems;
     let mut kept = Vec::new();
     // Files are independent: analyse and lint them on the solver threads,
     // results taken back in file order.
     let db = &loaded.db;
-    let done = crate::analysis::in_parallel(&loaded.stackups, |s| {
-        let analysis = crate::analysis::analyze(s);
+    let done = opts.pool.map(&loaded.stackups, |s| {
+        let analysis = crate::analysis::analyze(s, opts);
         let found = rules::run(s, &analysis, db);
         (analysis, found)
     });
@@ -129,7 +136,7 @@ pub fn check_paths(
     opts: &CheckOptions,
 ) -> Result<CheckOutcome, String> {
     let (loaded, files, skipped) = load_paths(paths, base, opts)?;
-    let mut outcome = lint(loaded);
+    let mut outcome = lint(loaded, &opts.analysis);
     outcome.files = files;
     outcome.skipped = skipped;
     Ok(outcome)
@@ -143,7 +150,7 @@ pub fn check_paths_analysed(
     opts: &CheckOptions,
 ) -> Result<(CheckOutcome, Vec<(Stackup, Analysis)>), String> {
     let (loaded, files, skipped) = load_paths(paths, base, opts)?;
-    let (mut outcome, kept) = lint_inner(loaded, true);
+    let (mut outcome, kept) = lint_inner(loaded, &opts.analysis, true);
     outcome.files = files;
     outcome.skipped = skipped;
     Ok((outcome, kept))
@@ -159,7 +166,7 @@ pub fn load_paths(
     let conf = Confinement::new(opts.root.as_deref(), base)?;
     let walked = walk::collect(paths, &opts.walk, &conf).map_err(|e| e.message)?;
     let files = walked.files;
-    let mut loaded = load::load(&files, &opts.limits, &conf);
+    let mut loaded = load::load(&files, &opts.limits, &conf, opts.analysis.pool);
     loaded.stackups.sort_by_key(|s| s.file);
     for p in walked.problems {
         let display = p

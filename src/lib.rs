@@ -7,13 +7,16 @@
 pub mod analysis;
 pub mod baseline;
 pub mod engine;
+pub mod files;
 pub mod finding;
 pub mod input;
 pub mod load;
 pub mod model;
 pub mod output;
+pub mod pool;
 pub mod rules;
 pub mod source;
+pub mod units;
 pub mod walk;
 
 pub use finding::{Finding, Severity};

@@ -6,11 +6,12 @@
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
 
+use crate::files::{self, Confinement, ReadError, Refusal};
 use crate::finding::{Finding, INVALID_INPUT};
-use crate::input::files::{self, Confinement, ReadError, Refusal};
 use crate::input::schema::{self, FileKind};
 use crate::input::yaml::{self, YamlLimits};
 use crate::model::{self, LibraryData, Stackup};
+use crate::pool::Pool;
 use crate::source::{FileId, Location, SourceDb, SourceFile};
 
 /// Budgets for reading input files.
@@ -329,12 +330,12 @@ pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
 
 /// Load stackup files (and the libraries they reference).
 ///
-/// Reading, YAML and schema run on the `--threads` workers, then libraries
+/// Reading, YAML and schema run on the `pool`, then libraries
 /// are loaded once each in file order, then the models are built on the
 /// workers again; problems keep the order of a one-file-at-a-time load.
-pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement) -> Loaded {
+pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement, pool: Pool) -> Loaded {
     let base = conf.cwd();
-    let prepared = crate::analysis::in_parallel(paths, |path| {
+    let prepared = pool.map(paths, |path| {
         prepare(path, base, limits, FileKind::Stackup, conf)
     });
     let mut loaded = Loaded::default();
@@ -450,8 +451,7 @@ pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement) -> Load
         builds.push((loaded.problems.len(), id, libs));
     }
     let db = &loaded.db;
-    let built =
-        crate::analysis::in_parallel(&builds, |(_, id, libs)| model::build_stackup(db, *id, libs));
+    let built = pool.map(&builds, |(_, id, libs)| model::build_stackup(db, *id, libs));
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
     let mut earlier = std::mem::take(&mut loaded.problems).into_iter();

@@ -7,6 +7,7 @@ use std::process::ExitCode;
 
 use clap::{Args, Parser, Subcommand, ValueEnum};
 
+use stackup_lint::analysis::AnalysisOptions;
 use stackup_lint::baseline::Baseline;
 
 /// A warm run is mostly small allocations on two or more threads (YAML
@@ -19,6 +20,7 @@ use stackup_lint::finding::Severity;
 use stackup_lint::input::yaml::YamlLimits;
 use stackup_lint::load::InputLimits;
 use stackup_lint::output::{self, github, gitlab, human, json, sarif, Summary};
+use stackup_lint::pool::Pool;
 use stackup_lint::rules;
 use stackup_lint::walk::WalkOptions;
 
@@ -222,7 +224,12 @@ fn clamp_threads(n: usize) -> usize {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    stackup_lint::analysis::cache::from_env(cli.no_cache);
+    // What every command solves with: the disk cache (if any) and, for
+    // `check`, the mesh budget and threads given.
+    let run = AnalysisOptions {
+        cache: stackup_lint::analysis::cache::from_env(cli.no_cache),
+        ..AnalysisOptions::default()
+    };
     let root = cli.root;
     match cli.command {
         Command::Baseline {
@@ -232,7 +239,7 @@ fn main() -> ExitCode {
                     output,
                     walk,
                 },
-        } => baseline_write(paths, &output, walk.options(), root),
+        } => baseline_write(paths, &output, walk.options(), root, run),
         Command::Impedance {
             paths,
             format,
@@ -242,7 +249,7 @@ fn main() -> ExitCode {
                 Ok(l) => l,
                 Err(code) => return code,
             };
-            impedance(paths, format, length, root)
+            impedance(paths, format, length, root, run)
         }
         Command::Report {
             file,
@@ -259,6 +266,7 @@ fn main() -> ExitCode {
                 &output,
                 output::report::ReportOptions { to_scale, length },
                 root,
+                run,
             )
         }
         Command::Rules => {
@@ -302,8 +310,11 @@ fn main() -> ExitCode {
             threads,
             max_mesh_nodes,
         } => {
-            stackup_lint::analysis::set_solver_threads(clamp_threads(threads));
-            stackup_lint::analysis::set_max_mesh_nodes(max_mesh_nodes);
+            let run = AnalysisOptions {
+                max_mesh_nodes,
+                pool: Pool::new(clamp_threads(threads)),
+                ..run
+            };
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
                 Some(Ok(b)) => Some(b),
@@ -328,6 +339,7 @@ fn main() -> ExitCode {
                     },
                 },
                 root,
+                analysis: run,
             };
             let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
             let mut outcome = match engine::check_paths(&paths, &base, &opts) {
@@ -348,9 +360,9 @@ fn main() -> ExitCode {
                     &rules::all_meta(),
                     &rule_docs_url,
                 );
-                let inputs = output::input_paths(&outcome.db);
+                let inputs = stackup_lint::files::input_paths(&outcome.db);
                 let log = output::escape::json_text(&log);
-                if let Err(e) = output::write_output(path, log.as_bytes(), &inputs) {
+                if let Err(e) = stackup_lint::files::write_output(path, log.as_bytes(), &inputs) {
                     eprintln!(
                         "error: cannot write the SARIF log to {}: {e}",
                         output::escape::controls(&path.to_string_lossy())
@@ -387,6 +399,7 @@ fn main() -> ExitCode {
                         human::HumanOptions {
                             color: use_color,
                             width,
+                            pool: opts.analysis.pool,
                         },
                     );
                     text.push_str(&summary.line_with(&outcome.skipped));
@@ -434,6 +447,7 @@ fn impedance(
     format: Format,
     length: Option<f64>,
     root: Option<PathBuf>,
+    run: AnalysisOptions,
 ) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
@@ -447,6 +461,7 @@ fn impedance(
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let opts = CheckOptions {
         root,
+        analysis: run,
         ..CheckOptions::default()
     };
     let (loaded, files, _) = match engine::load_paths(&paths, &base, &opts) {
@@ -471,6 +486,7 @@ fn impedance(
             human::HumanOptions {
                 color: false,
                 width: 100,
+                pool: opts.analysis.pool,
             },
         );
         let _ = print(&text);
@@ -484,7 +500,7 @@ fn impedance(
     let analyses: Vec<_> = loaded
         .stackups
         .iter()
-        .map(stackup_lint::analysis::analyze)
+        .map(|s| stackup_lint::analysis::analyze(s, &opts.analysis))
         .collect();
     let items: Vec<(
         &str,
@@ -519,6 +535,7 @@ fn baseline_write(
     output: &std::path::Path,
     walk: WalkOptions,
     root: Option<PathBuf>,
+    run: AnalysisOptions,
 ) -> ExitCode {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
@@ -529,6 +546,7 @@ fn baseline_write(
     let opts = CheckOptions {
         walk,
         root,
+        analysis: run,
         ..CheckOptions::default()
     };
     let outcome = match engine::check_paths(&paths, &base, &opts) {
@@ -544,9 +562,9 @@ fn baseline_write(
         return ExitCode::from(2);
     }
     let b = Baseline::record(&outcome);
-    let inputs = output::input_paths(&outcome.db);
+    let inputs = stackup_lint::files::input_paths(&outcome.db);
     let shown = output::escape::controls(&output.to_string_lossy()).into_owned();
-    if let Err(e) = output::write_output(output, b.to_json().as_bytes(), &inputs) {
+    if let Err(e) = stackup_lint::files::write_output(output, b.to_json().as_bytes(), &inputs) {
         eprintln!("error: cannot write the baseline to {shown}: {e}");
         return ExitCode::from(2);
     }
@@ -569,6 +587,7 @@ fn print_input_errors(outcome: &engine::CheckOutcome) {
     let opts = human::HumanOptions {
         color: false,
         width: 100,
+        pool: Pool::default(),
     };
     let _ = print(&human::render(&errors, &outcome.db, opts));
 }
@@ -579,7 +598,7 @@ const MAX_LENGTH: f64 = 10.0;
 
 /// `--length`: a positive length with its unit.
 fn parse_length(text: Option<&str>) -> Result<Option<f64>, ExitCode> {
-    use stackup_lint::input::units::{parse_quantity, Dimension};
+    use stackup_lint::units::{parse_quantity, Dimension};
     match text.map(|l| parse_quantity(l, Dimension::Length)) {
         None => Ok(None),
         Some(Ok(v)) if v > 0.0 && v <= MAX_LENGTH => Ok(Some(v)),
@@ -611,6 +630,7 @@ fn report(
     dir: &std::path::Path,
     opts: output::report::ReportOptions,
     root: Option<PathBuf>,
+    run: AnalysisOptions,
 ) -> ExitCode {
     let shown = |p: &std::path::Path| output::escape::controls(&p.to_string_lossy()).into_owned();
     if !file.exists() {
@@ -635,6 +655,7 @@ fn report(
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let check = CheckOptions {
         root,
+        analysis: run,
         ..CheckOptions::default()
     };
     let (outcome, kept) = match engine::check_paths_analysed(&[file.to_path_buf()], &base, &check) {
@@ -663,8 +684,8 @@ fn report(
         .iter()
         .map(|f| (f.name.clone(), f.contents.clone().into_bytes()))
         .collect();
-    let inputs = output::input_paths(&outcome.db);
-    if let Err(e) = output::write_dir_atomic(dir, &contents, &inputs) {
+    let inputs = stackup_lint::files::input_paths(&outcome.db);
+    if let Err(e) = stackup_lint::files::write_dir_atomic(dir, &contents, &inputs) {
         eprintln!(
             "error: cannot write the report into {}: {e} (nothing written)",
             shown(dir)

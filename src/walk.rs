@@ -8,7 +8,7 @@ use std::path::{Path, PathBuf};
 use globset::{Glob, GlobSet, GlobSetBuilder};
 use walkdir::WalkDir;
 
-use crate::input::files::Confinement;
+use crate::files::Confinement;
 
 /// How to pick files out of directories.
 #[derive(Debug, Clone)]
@@ -244,7 +244,7 @@ pub fn collect(
     // The same file under two spellings (`a/../b.yaml`, a link): once.
     let mut seen = HashSet::new();
     for f in files {
-        let abs = crate::input::files::lexical_absolute(&f, conf.cwd());
+        let abs = crate::files::lexical_absolute(&f, conf.cwd());
         let id = std::fs::canonicalize(&abs).unwrap_or(abs);
         if seen.insert(id) {
             out.files.push(f);

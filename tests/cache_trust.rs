@@ -248,7 +248,7 @@ fn survey(stackups: &[Stackup], seen: &mut BTreeMap<&'static str, Seen>) {
     for s in stackups {
         let name = s.board.clone().unwrap_or_default();
         {
-            let a = analyze(s);
+            let a = analyze(s, &Default::default());
             for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
                 let (Ok(g), Ok(_)) = (&ca.geometry, &ca.smooth) else {
                     continue;

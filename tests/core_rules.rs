@@ -15,7 +15,7 @@ fn stackup(text: &str) -> Stackup {
 
 fn findings(text: &str, rule: &str) -> Vec<Finding> {
     let loaded = load_text("t.stackup.yaml", text, &InputLimits::default());
-    engine::lint(loaded)
+    engine::lint(loaded, &Default::default())
         .findings
         .into_iter()
         .filter(|f| f.rule == rule)
@@ -52,7 +52,7 @@ fn trade_fact_foil_changes_apparent_dk_of_thin_laminate_by_about_0_3() {
     // roughness layers, apparent Dk by inverting the filling factor.
     let app = |rq: f64| {
         let s = stackup(&laminate(101.6, 2.95, rq, 230.0, 30.0));
-        let a = analyze(&s);
+        let a = analyze(&s, &Default::default());
         let z = a.classes[0].smooth.as_ref().unwrap().z;
         assert!((z - 50.0).abs() < 4.0, "a ~50 ohm line: {z}");
         a.classes[0].apparent_dk().unwrap().1
@@ -73,7 +73,7 @@ fn trade_fact_apparent_dk_falls_towards_bulk_with_thickness() {
     // foil taken as Rq 2.25 um (Rz about 9 um).
     let at = |h_um: f64| {
         let s = stackup(&laminate(h_um, 3.0, 2.25, 300.0, 50.0));
-        let a = analyze(&s);
+        let a = analyze(&s, &Default::default());
         let c = dielectric_contact(&s, &a, 1, 50e9).unwrap();
         c.apparent_worst
     };
@@ -178,7 +178,7 @@ matched-groups:
       - {name: n2, segments: [{layer: S2, length: 100 mm}]}
 ";
     let s = stackup(text);
-    let a = analyze(&s);
+    let a = analyze(&s, &Default::default());
     for (k, eps) in [(0, 2.9), (1, 3.6)] {
         let e = a.classes[k].smooth.as_ref().unwrap().eps_eff;
         assert!(

@@ -4,9 +4,10 @@
 
 use std::process::Command;
 
-use stackup_lint::input::files::Confinement;
+use stackup_lint::files::Confinement;
 use stackup_lint::load::{load, load_text, InputLimits};
 use stackup_lint::model::LayerKind;
+use stackup_lint::pool::Pool;
 
 fn write(dir: &std::path::Path, name: &str, text: &str) -> std::path::PathBuf {
     let p = dir.join(name);
@@ -30,7 +31,7 @@ fn builtin_generic_library_loads_and_user_values_win() {
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "a.stackup.yaml", BUILTIN_BOARD);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf);
+    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     assert_eq!(s.materials["generic-fr4"].dk(), 4.2);
@@ -42,7 +43,7 @@ fn builtin_generic_library_loads_and_user_values_win() {
     );
     let p = write(dir.path(), "b.stackup.yaml", &own);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf);
+    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     assert_eq!(loaded.stackups[0].materials["generic-fr4"].dk(), 4.05);
 }
@@ -87,7 +88,7 @@ layers:
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "r.stackup.yaml", text);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf);
+    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     let LayerKind::Dielectric(d) = &s.layers[1].kind else {

@@ -22,7 +22,7 @@ fn blocks<'a>(doc: &'a str, label: &str) -> Vec<&'a str> {
 
 fn rules_fired(text: &str) -> Vec<&'static str> {
     let loaded = load_text("example.stackup.yaml", text, &InputLimits::default());
-    let outcome = engine::lint(loaded);
+    let outcome = engine::lint(loaded, &Default::default());
     outcome
         .findings
         .iter()

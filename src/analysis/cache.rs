@@ -35,7 +35,7 @@
 use std::fmt::Write as _;
 use std::io::Write as _;
 use std::path::{Path, PathBuf};
-use std::sync::{Arc, RwLock};
+use std::sync::Arc;
 use std::time::{Duration, SystemTime};
 
 use sha2::digest::Output;
@@ -655,22 +655,6 @@ fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, String>> {
     }))
 }
 
-/// The cache this process uses (`None`: no cache). Library users get none
-/// unless they call [`set`]; the command line calls [`from_env`].
-static ACTIVE: RwLock<Option<Arc<DiskCache>>> = RwLock::new(None);
-
-/// Use `cache` for field solves from now on (`None` turns it off).
-pub fn set(cache: Option<DiskCache>) {
-    if let Ok(mut a) = ACTIVE.write() {
-        *a = cache.map(Arc::new);
-    }
-}
-
-/// The cache in use, if any.
-pub fn active() -> Option<Arc<DiskCache>> {
-    ACTIVE.read().ok().and_then(|a| a.clone())
-}
-
 /// True when `STACKUP_LINT_CACHE_DEBUG` asks for notes on standard error.
 pub fn debug() -> bool {
     std::env::var_os("STACKUP_LINT_CACHE_DEBUG").is_some_and(|v| !v.is_empty() && v != "0")
@@ -710,16 +694,15 @@ pub fn default_dir() -> Option<PathBuf> {
     var("HOME").map(|h| h.join(".cache").join("stackup-lint"))
 }
 
-/// Set up the cache the command line uses: off when `no_cache` or
+/// The cache the command line uses: none when `no_cache` or
 /// `STACKUP_LINT_NO_CACHE` is set (non-empty, not `0`), else the default
 /// directory bounded by `STACKUP_LINT_CACHE_SIZE` (default 1 GiB). Any
 /// problem leaves the cache off; the run goes on.
-pub fn from_env(no_cache: bool) {
+pub fn from_env(no_cache: bool) -> Option<Arc<DiskCache>> {
     let off = no_cache
         || std::env::var_os("STACKUP_LINT_NO_CACHE").is_some_and(|v| !v.is_empty() && v != "0");
     if off {
-        set(None);
-        return;
+        return None;
     }
     let max_bytes = match std::env::var("STACKUP_LINT_CACHE_SIZE") {
         Ok(t) => match parse_size(&t) {
@@ -740,11 +723,10 @@ pub fn from_env(no_cache: bool) {
                 "cache: no cache directory (set STACKUP_LINT_CACHE_DIR or HOME); running without"
             );
         }
-        set(None);
-        return;
+        return None;
     };
     match DiskCache::open(&dir, max_bytes, engine_identity()) {
-        Ok(c) => set(Some(c)),
+        Ok(c) => Some(Arc::new(c)),
         Err(e) => {
             if debug() {
                 eprintln!(
@@ -752,7 +734,7 @@ pub fn from_env(no_cache: bool) {
                     dir.display()
                 );
             }
-            set(None);
+            None
         }
     }
 }

@@ -12,23 +12,24 @@
 
 pub mod cache;
 pub mod delay;
+mod loss;
 pub mod materials;
 pub mod section;
+mod solve;
+
+pub use solve::{family_sections, AnalysisOptions, DEFAULT_MAX_MESH_NODES, MAX_FEATURE_RATIO};
+use solve::{solvable, Solver};
 
 use std::collections::{BTreeMap, HashMap};
-use std::sync::atomic::{AtomicUsize, Ordering};
 
 use stackup_physics::consts::C0;
-use stackup_physics::copper::{surface_resistance, SIGMA_ANNEALED_COPPER};
-use stackup_physics::fieldsolver::{
-    self, estimate, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
-};
-use stackup_physics::loss;
-use stackup_physics::roughness::{hammerstad_factor, RoughLayerModel, RoughSurface};
+use stackup_physics::copper::SIGMA_ANNEALED_COPPER;
+use stackup_physics::fieldsolver::{CrossSection, SolvedLine};
+use stackup_physics::roughness::{RoughLayerModel, RoughSurface};
 
-use crate::model::{Stackup, Structure};
+use crate::model::Stackup;
 use materials::{DkAt, MaterialModel};
-use section::{FaceRoughness, LineGeometry, RoughLayers};
+use section::{FaceRoughness, LineGeometry};
 
 /// Electrical numbers of one solved section.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -135,251 +136,6 @@ pub const FIELD_SOLVER: &str = "2-D field solver (finite volume, Richardson-extr
 /// Copper conductivity used for skin depth and loss (annealed copper).
 pub const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
 
-/// Cache key text of a section. The engine identity (`cache.rs`) holds
-/// the default solver options; the run's mesh budget is added here, since
-/// a section refused under one budget may be solved under another.
-fn key(cs: &CrossSection) -> String {
-    format!(
-        "mesh budget {} | {cs:?}",
-        MAX_MESH_NODES.load(Ordering::Relaxed)
-    )
-}
-
-/// Threads used for field solves; 0 = one per available core. Results do
-/// not depend on it (each section is solved alone, results keyed by
-/// geometry); `tests/determinism.rs` checks that.
-static SOLVER_THREADS: std::sync::atomic::AtomicUsize = std::sync::atomic::AtomicUsize::new(0);
-
-/// Set the number of threads for field solves (0 = automatic).
-pub fn set_solver_threads(n: usize) {
-    SOLVER_THREADS.store(n, std::sync::atomic::Ordering::Relaxed);
-}
-
-/// Default of [`set_max_mesh_nodes`].
-pub const DEFAULT_MAX_MESH_NODES: usize = 400_000;
-
-static MAX_MESH_NODES: AtomicUsize = AtomicUsize::new(DEFAULT_MAX_MESH_NODES);
-
-/// Set the largest field-solver mesh (nodes of one grid,
-/// `SolverOptions::max_mesh_nodes`); a section that needs more is reported
-/// as not solved. Part of the solver options, so of the cache key.
-pub fn set_max_mesh_nodes(n: usize) {
-    MAX_MESH_NODES.store(n, Ordering::Relaxed);
-}
-
-/// The solver options of this run.
-fn solver_options() -> SolverOptions {
-    SolverOptions {
-        max_mesh_nodes: MAX_MESH_NODES.load(Ordering::Relaxed),
-        ..SolverOptions::default()
-    }
-}
-
-/// Bytes this process stored in the disk cache and has not yet counted
-/// against its size bound (see `cache::DiskCache::account`).
-static CACHE_PENDING: std::sync::atomic::AtomicU64 = std::sync::atomic::AtomicU64::new(0);
-
-/// Cache entries one analysis read (`hits`) and solved (`solved`), for
-/// `STACKUP_LINT_CACHE_DEBUG`.
-#[derive(Default)]
-struct Tally {
-    hits: AtomicUsize,
-    solved: AtomicUsize,
-    /// Cached results that failed the plausibility check (solved again).
-    rejected: AtomicUsize,
-}
-
-impl Tally {
-    fn add(&self, hits: usize, solved: usize) {
-        self.hits.fetch_add(hits, Ordering::Relaxed);
-        self.solved.fetch_add(solved, Ordering::Relaxed);
-    }
-}
-
-/// Count what this process stored against the cache's bound (evicting if
-/// it is passed).
-fn settle_cache(cache: Option<&cache::DiskCache>) -> usize {
-    let added = CACHE_PENDING.swap(0, std::sync::atomic::Ordering::Relaxed);
-    cache.map_or(0, |c| c.account(added))
-}
-
-/// Cache key of member `i` of a family.
-fn member_key(family: &str, i: usize) -> String {
-    format!("{family}#{i}")
-}
-
-/// Solve one family (sections differing only in their dielectrics) on one
-/// shared mesh, through the disk cache when one is in use. If the family
-/// cannot be solved as one, each member is solved alone so that each gets
-/// its own result or reason.
-fn solve_family_cached(
-    cache: Option<&cache::DiskCache>,
-    tally: &Tally,
-    family: &str,
-    members: &[CrossSection],
-    opts: &SolverOptions,
-) -> Vec<Result<SolvedLine, String>> {
-    if let Some(c) = cache {
-        let hits: Option<Vec<_>> = (0..members.len())
-            .map(|i| c.get(&member_key(family, i)))
-            .collect();
-        if let Some(v) = hits {
-            // A cache directory may have been written by someone else (a CI
-            // cache restored from an earlier job): a cached number is used
-            // only if it passes the checks a fresh one would, and a cached
-            // error is never believed (solving again costs little when the
-            // section is refused early).
-            let trusted = v.iter().zip(members).all(|(r, cs)| match r {
-                Ok(s) => estimate::check_solution(cs, s).is_ok(),
-                Err(_) => false,
-            });
-            if trusted {
-                tally.add(members.len(), 0);
-                return v;
-            }
-            if v.iter().any(Result::is_ok) {
-                tally.rejected.fetch_add(1, Ordering::Relaxed);
-            }
-        }
-    }
-    tally.add(0, members.len());
-    let v: Vec<Result<SolvedLine, String>> = match solve_family(members, opts) {
-        Ok(v) => v.into_iter().map(Ok).collect(),
-        Err(_) => members
-            .iter()
-            .map(|cs| solve(cs, opts).map_err(|e| e.message))
-            .collect(),
-    };
-    if let Some(c) = cache {
-        for (i, r) in v.iter().enumerate() {
-            let n = c.put(&member_key(family, i), r);
-            CACHE_PENDING.fetch_add(n, std::sync::atomic::Ordering::Relaxed);
-        }
-    }
-    v
-}
-
-/// A family's key: its members' keys in order.
-fn family_key(members: &[CrossSection]) -> String {
-    members.iter().map(key).collect::<Vec<_>>().join(" & ")
-}
-
-/// Solve distinct families, in parallel, deterministically (results keyed
-/// by family). Cached results are read inside the workers; only misses are
-/// solved.
-fn solve_all(
-    families: Vec<Vec<CrossSection>>,
-    tally: &Tally,
-) -> HashMap<String, Vec<Result<SolvedLine, String>>> {
-    let cache = cache::active();
-    let cache = cache.as_deref();
-    let mut seen = std::collections::HashSet::new();
-    let unique: Vec<(String, Vec<CrossSection>)> = families
-        .into_iter()
-        .map(|f| (family_key(&f), f))
-        .filter(|(k, _)| seen.insert(k.clone()))
-        .collect();
-    let opts = solver_options();
-    let solved = in_parallel(&unique, |(k, f)| {
-        solve_family_cached(cache, tally, k, f, &opts)
-    });
-    unique.into_iter().map(|(k, _)| k).zip(solved).collect()
-}
-
-/// Map `f` over `items` on the solver threads (`--threads`); results in
-/// input order, so output does not depend on the thread count.
-pub fn in_parallel<T: Sync, R: Send>(items: &[T], f: impl Fn(&T) -> R + Sync) -> Vec<R> {
-    let wanted = SOLVER_THREADS.load(std::sync::atomic::Ordering::Relaxed);
-    let threads = if wanted > 0 {
-        wanted
-    } else {
-        std::thread::available_parallelism().map_or(1, |n| n.get())
-    }
-    .min(items.len().max(1));
-    // Nested calls (a file's analysis on a worker that analyses files)
-    // run on their caller's thread: the outer call already keeps every
-    // core busy, and spawning per file costs more than it gains.
-    if threads <= 1 || IN_WORKER.with(|w| w.get()) {
-        return items.iter().map(&f).collect();
-    }
-    let f = &f;
-    // Items are handed out one at a time from a shared counter, so a few
-    // slow items do not leave the other workers idle; results are put back
-    // in item order, so the output does not depend on the schedule. The
-    // calling thread is one of the workers; a thread that cannot be
-    // spawned (a process or memory limit) only leaves fewer workers.
-    let next = AtomicUsize::new(0);
-    let next = &next;
-    let work = move || {
-        let was = IN_WORKER.with(|w| w.replace(true));
-        let mut done = Vec::new();
-        loop {
-            let i = next.fetch_add(1, Ordering::Relaxed);
-            let Some(x) = items.get(i) else { break };
-            done.push((i, f(x)));
-        }
-        IN_WORKER.with(|w| w.set(was));
-        done
-    };
-    let mut parts: Vec<Vec<(usize, R)>> = std::thread::scope(|scope| {
-        let mut handles = Vec::new();
-        for _ in 1..threads {
-            match std::thread::Builder::new().spawn_scoped(scope, work) {
-                Ok(h) => handles.push(h),
-                Err(_) => break,
-            }
-        }
-        let mut parts = vec![work()];
-        parts.extend(
-            handles
-                .into_iter()
-                .map(|h| h.join().unwrap_or_else(|e| std::panic::resume_unwind(e))),
-        );
-        parts
-    });
-    let mut out: Vec<(usize, R)> = parts.drain(..).flatten().collect();
-    out.sort_by_key(|(i, _)| *i);
-    out.into_iter().map(|(_, r)| r).collect()
-}
-
-thread_local! {
-    /// Set on the threads `in_parallel` spawns.
-    static IN_WORKER: std::cell::Cell<bool> = const { std::cell::Cell::new(false) };
-}
-
-/// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
-fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
-    let model = RoughLayerModel::default();
-    // Faces are in the order plane below, trace bottom, trace top, [plane above].
-    let mut thickness = vec![0.0; 4];
-    for (k, face) in g.faces.iter().enumerate() {
-        let slot = if k == 3 || face.role == "plane above" {
-            3
-        } else {
-            k
-        };
-        thickness[slot] = model
-            .thickness(&face.roughness.surface(worst), f, SIGMA)
-            .unwrap_or(0.0);
-    }
-    let eps_factor = model.permittivity(1.0).unwrap_or(4.0);
-    RoughLayers {
-        thickness,
-        eps_factor,
-    }
-}
-
-/// The sections of a class at frequency `f`: smooth copper, and the
-/// declared roughness at its best and worst case (equal when every face is
-/// known).
-pub fn family_sections(g: &LineGeometry, f: f64) -> [CrossSection; 3] {
-    [
-        section::cross_section(g, None),
-        section::cross_section(g, Some(&rough_layers(g, f, false))),
-        section::cross_section(g, Some(&rough_layers(g, f, true))),
-    ]
-}
-
 struct Pending {
     geometry: LineGeometry,
     /// Why the section is not solved (outside the solver's range).
@@ -392,8 +148,9 @@ struct Pending {
     worst: usize,
 }
 
-/// Analyse every net class of `s`.
-pub fn analyze(s: &Stackup) -> Analysis {
+/// Analyse every net class of `s`, solving as `opts` says.
+pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
+    let solver = Solver::new(opts);
     let materials: BTreeMap<String, MaterialModel> = s
         .materials
         .iter()
@@ -433,7 +190,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
                 };
                 let (best, worst) = (index_of(best), index_of(worst));
                 let p = Pending {
-                    family: family_key(&members),
+                    family: solver.family_key(&members),
                     smooth: 0,
                     best,
                     worst,
@@ -446,8 +203,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
             Err(e) => pending.push(Err(e.0)),
         }
     }
-    let tally = Tally::default();
-    let solved = solve_all(families, &tally);
+    let solved = solver.solve_all(families);
     let numbers = |family: &str, i: usize| -> Result<LineNumbers, String> {
         match solved.get(family).and_then(|v| v.get(i)) {
             Some(Ok(s)) => LineNumbers::from_solved(s)
@@ -479,8 +235,8 @@ pub fn analyze(s: &Stackup) -> Analysis {
             ))
         })
         .collect();
-    let widths = in_parallel(&searches, |&(i, g, f, target, z)| {
-        (i, width_for_target(g, f, target, z, &tally))
+    let widths = solver.pool().map(&searches, |&(i, g, f, target, z)| {
+        (i, solver.width_for_target(g, f, target, z))
     });
     let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
     // Second pass: assemble each class.
@@ -531,7 +287,7 @@ pub fn analyze(s: &Stackup) -> Analysis {
         let loss = smooth
             .as_ref()
             .ok()
-            .map(|sm| line_loss(s, nc.structure, &g, &dk, f, sm, worst.unwrap_or(*sm)));
+            .map(|sm| loss::line_loss(&g, &dk, f, sm));
         classes.push(ClassAnalysis {
             frequency: f,
             geometry: Ok(g),
@@ -547,260 +303,8 @@ pub fn analyze(s: &Stackup) -> Analysis {
             notes,
         });
     }
-    let active = cache::active();
-    if let (Some(c), true) = (active.as_deref(), cache::debug()) {
-        eprintln!(
-            "cache: {}: {} hits, {} solved and stored, {} cached results rejected by the plausibility check",
-            c.dir().display(),
-            tally.hits.load(Ordering::Relaxed),
-            tally.solved.load(Ordering::Relaxed),
-            tally.rejected.load(Ordering::Relaxed)
-        );
-    }
-    let evicted = settle_cache(active.as_deref());
-    if evicted > 0 && cache::debug() {
-        eprintln!("cache: {evicted} least recently used entries removed");
-    }
+    solver.settle();
     Analysis { classes, materials }
-}
-
-/// Largest ratio of the section's overall size to its smallest feature that
-/// the field solver is asked to mesh. Real boards stay far below it (about
-/// 100); hostile input (a 1 µm trace beside a 19 mm gap) would need a mesh
-/// of billions of cells, so it is refused with a clear reason instead.
-pub const MAX_FEATURE_RATIO: f64 = 1000.0;
-
-fn solvable(g: &LineGeometry) -> Result<(), String> {
-    let w = g.width_bottom.max(g.width_top);
-    let mut features = vec![g.width_bottom.min(g.width_top).max(0.0), w];
-    features.extend(g.spacing);
-    features.extend(g.gap);
-    if g.thickness > 0.0 {
-        features.push(g.thickness);
-    }
-    features.extend(g.slabs.iter().map(|s| s.thickness));
-    let smallest = features
-        .iter()
-        .copied()
-        .filter(|v| *v > 0.0)
-        .fold(f64::INFINITY, f64::min);
-    let span = w * if g.spacing.is_some() { 2.0 } else { 1.0 }
-        + g.spacing.unwrap_or(0.0)
-        + 2.0 * g.gap.unwrap_or(0.0);
-    let largest = span.max(g.height());
-    let ratio = largest / smallest;
-    if !ratio.is_finite() || ratio > MAX_FEATURE_RATIO {
-        return Err(format!(
-            "the cross-section spans {:.0} times its smallest feature ({} against {}), beyond the {MAX_FEATURE_RATIO:.0}:1 the field solver meshes; check the widths, gaps and thicknesses",
-            ratio,
-            crate::input::units::fmt_length(largest),
-            crate::input::units::fmt_length(smallest)
-        ));
-    }
-    Ok(())
-}
-
-/// Width (base width, top width scaled alike) at which the worst-case rough
-/// section meets `target` (`fieldsolver::width_for_target`, its solves
-/// through the disk cache).
-fn width_for_target(
-    g: &LineGeometry,
-    f: f64,
-    target: f64,
-    z_now: f64,
-    tally: &Tally,
-) -> Option<f64> {
-    let w0 = g.width_bottom.max(g.width_top);
-    let section = |w: f64| {
-        let mut g2 = g.clone();
-        let scale = w / w0;
-        g2.width_bottom = g.width_bottom * scale;
-        g2.width_top = g.width_top * scale;
-        section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
-    };
-    let opts = solver_options();
-    let active = cache::active();
-    // The search's result is cached as a whole (one entry instead of one
-    // per coarse solve): it follows from the worst-case section at the
-    // current width, its accurate impedance and the target.
-    let k = format!(
-        "width for target {:016x} from {:016x} | {}",
-        target.to_bits(),
-        z_now.to_bits(),
-        key(&section(w0))
-    );
-    if let Some(c) = active.as_deref() {
-        if let Some(v) = c.get_numbers(&k) {
-            if plausible_width(&v, w0, z_now, target, &section) {
-                tally.add(1, 0);
-                return v.first().copied();
-            }
-            tally.rejected.fetch_add(1, Ordering::Relaxed);
-        }
-    }
-    tally.add(0, 1);
-    let w = fieldsolver::width_for_target(
-        section,
-        |r| LineNumbers::from_solved(r).map(|n| n.z),
-        w0,
-        z_now,
-        target,
-        &opts,
-    );
-    if let Some(c) = active.as_deref() {
-        let n = c.put_numbers(&k, w.as_slice());
-        CACHE_PENDING.fetch_add(n, Ordering::Relaxed);
-    }
-    w
-}
-
-/// Largest ratio between a proposed width and the current one that a
-/// cached width for target may have.
-const MAX_WIDTH_STEP: f64 = 20.0;
-
-/// Accepted misfit of a cached width for target: the closed-form estimate
-/// at that width, scaled by the solved impedance at the current width, must
-/// come within this fraction of the target (the forms' own errors largely
-/// cancel in the ratio).
-const WIDTH_CHECK: f64 = 0.15;
-
-/// Check a cached width for target (`[]` for none, or one width) before
-/// it is used: a finite, positive width within [`MAX_WIDTH_STEP`] of the
-/// current one, at which the closed-form estimate, scaled by the solved
-/// impedance at the current width `w0`, comes within [`WIDTH_CHECK`] of
-/// the target.
-fn plausible_width(
-    v: &[f64],
-    w0: f64,
-    z_now: f64,
-    target: f64,
-    section: &dyn Fn(f64) -> CrossSection,
-) -> bool {
-    let w = match v {
-        [] => return true,
-        [w] => *w,
-        _ => return false,
-    };
-    if !(w.is_finite() && w > w0 / MAX_WIDTH_STEP && w < w0 * MAX_WIDTH_STEP) {
-        return false;
-    }
-    let z_of = |cs: &CrossSection| {
-        // The signal mode's impedance at the middle of the estimate's
-        // air and permittivity ranges (the top of the air range for a
-        // bound); the ratio of two of them is what is compared.
-        estimate::estimate(cs).map(|e| {
-            let m = e.signal;
-            let z_air = if m.z_air_low > 0.0 {
-                (m.z_air_low * m.z_air_high).sqrt()
-            } else {
-                m.z_air_high
-            };
-            z_air / (m.eps_low * m.eps_high).sqrt().sqrt()
-        })
-    };
-    match (z_of(&section(w)), z_of(&section(w0))) {
-        (Some(at_w), Some(at_w0)) => {
-            let predicted = z_now * at_w / at_w0;
-            (predicted / target - 1.0).abs() <= WIDTH_CHECK
-        }
-        _ => true,
-    }
-}
-
-/// Loss per metre: dielectric loss from the filling-weighted loss tangent,
-/// conductor loss from the closed forms (Hammerstad-Jensen microstrip,
-/// Pozar stripline) with the Hammerstad-Bekkadal roughness factor averaged
-/// over the line's faces (common practice: equal weight to trace and planes).
-fn line_loss(
-    s: &Stackup,
-    structure: Structure,
-    g: &LineGeometry,
-    dk: &BTreeMap<usize, DkAt>,
-    f: f64,
-    smooth: &LineNumbers,
-    rough: LineNumbers,
-) -> LossNumbers {
-    let _ = s;
-    // Filling-weighted loss tangent of the dielectrics between the planes
-    // (weights h·eps: the share of electric energy in each, to first order).
-    let (mut num, mut den) = (0.0, 0.0);
-    for sl in &g.slabs {
-        if let Some(d) = dk.get(&sl.layer) {
-            num += sl.thickness * d.dk * d.df;
-            den += sl.thickness * d.dk;
-        }
-    }
-    let tand = if den > 0.0 { num / den } else { 0.0 };
-    let eps_bulk = if den > 0.0 {
-        den / g.slabs.iter().map(|s| s.thickness).sum::<f64>()
-    } else {
-        1.0
-    };
-    let alpha_d = if g.top_plane.is_some() {
-        // Homogeneous-equivalent stripline: pi f sqrt(eps_eff) tan(d) / c0.
-        loss::dielectric_loss_stripline(f, smooth.eps_eff, tand).unwrap_or(0.0)
-    } else {
-        loss::dielectric_loss_microstrip(
-            f,
-            eps_bulk.max(smooth.eps_eff + 1e-6),
-            smooth.eps_eff,
-            tand,
-        )
-        .unwrap_or(0.0)
-    };
-    let rs = surface_resistance(f, SIGMA).unwrap_or(0.0);
-    let delta = stackup_physics::copper::skin_depth(f, SIGMA).unwrap_or(1e-6);
-    // Hammerstad-Bekkadal factor from Rq (saturates at 2). The Cannonball-
-    // Huray factor with r = Rz/4.83 gives about 6 for standard ED foil at
-    // 14 GHz, well above the 2-3 usually measured (from memory), so it is not
-    // the default until calibrated; see DEVELOPERS.md.
-    let k_of = |r: RoughSurface| -> f64 {
-        let rq = r.rq().unwrap_or(0.0);
-        if rq <= 0.0 {
-            return 1.0;
-        }
-        hammerstad_factor(rq, delta).unwrap_or(1.0)
-    };
-    let mean = |v: Vec<f64>| {
-        if v.is_empty() {
-            1.0
-        } else {
-            v.iter().sum::<f64>() / v.len() as f64
-        }
-    };
-    let trace_k = mean(
-        g.faces
-            .iter()
-            .filter(|x| x.role.starts_with("trace"))
-            .map(|x| k_of(x.roughness.surface(true)))
-            .collect(),
-    );
-    let plane_k = mean(
-        g.faces
-            .iter()
-            .filter(|x| x.role.starts_with("plane"))
-            .map(|x| k_of(x.roughness.surface(true)))
-            .collect(),
-    );
-    let k_rough = 0.5 * (trace_k + plane_k);
-    let w = 0.5 * (g.width_bottom + g.width_top);
-    let z_line = smooth.z_odd.unwrap_or(smooth.z);
-    let alpha_c = |k: f64| -> f64 {
-        if let Some(_top) = g.top_plane {
-            let b = g.height();
-            let eps = smooth.eps_eff;
-            loss::conductor_loss_stripline_pozar(rs * k, eps, z_line, w, b, g.thickness)
-                .unwrap_or(0.0)
-        } else {
-            loss::conductor_loss_microstrip_hj(rs, z_line, w, k).unwrap_or(0.0)
-        }
-    };
-    let _ = (structure, rough);
-    LossNumbers {
-        dielectric: loss::np_per_m_to_db_per_m(alpha_d),
-        conductor_smooth: loss::np_per_m_to_db_per_m(alpha_c(1.0)),
-        conductor_rough: loss::np_per_m_to_db_per_m(alpha_c(k_rough)),
-    }
 }
 
 impl ClassAnalysis {

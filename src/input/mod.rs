@@ -1,6 +1,5 @@
-//! Input: YAML with positions, units, and JSON Schema validation.
+//! Input: YAML with positions and JSON Schema validation (units are
+//! [`crate::units`], file reading [`crate::files`]).
 
-pub mod files;
 pub mod schema;
-pub mod units;
 pub mod yaml;

@@ -8,9 +8,9 @@ use std::collections::{BTreeMap, BTreeSet};
 
 use super::*;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
-use crate::input::units::{self, Dimension};
 use crate::input::yaml::{Node, Value};
 use crate::source::{escape_token, SourceDb};
+use crate::units::{self, Dimension};
 
 /// Factor from the Nyquist frequency to the highest frequency a class must
 /// carry when only a data rate is given: the third harmonic (see

@@ -185,6 +185,8 @@ pub struct HumanOptions {
     pub color: bool,
     /// Wrap width in columns.
     pub width: usize,
+    /// Workers the findings are rendered on.
+    pub pool: crate::pool::Pool,
 }
 
 /// Render all findings (suppressed and baselined ones are left out) as
@@ -212,7 +214,7 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
         .iter()
         .filter(|f| f.suppressed.is_none() && f.baselined != Some(true))
         .collect();
-    let parts = crate::analysis::in_parallel(&shown, |f| {
+    let parts = opts.pool.map(&shown, |f| {
         let file = db.get(f.primary.file);
         let primary = text(f.primary.file);
         let mut labels = vec![LabeledSpan::new_primary_with_span(

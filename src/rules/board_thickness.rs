@@ -2,9 +2,9 @@
 //! stated board thickness target.
 
 use crate::finding::{key_step, Finding, Severity};
-use crate::input::units::fmt_length;
 use crate::model::LayerKind;
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::fmt_length;
 
 pub struct BoardThicknessOffTarget;
 

@@ -2,9 +2,9 @@
 //! single dielectric with no plane between them.
 
 use crate::finding::{Finding, Severity};
-use crate::input::units::fmt_length;
 use crate::model::LayerKind;
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::fmt_length;
 
 pub struct BroadsideSignalLayers;
 

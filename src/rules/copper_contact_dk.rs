@@ -5,9 +5,9 @@
 use crate::analysis::section::FaceRoughness;
 use crate::analysis::{dielectric_contact, DielectricContact};
 use crate::finding::{key_step, Finding, Severity};
-use crate::input::units::{fmt_frequency, fmt_length};
 use crate::model::{DielectricKind, MeasurementMethod};
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::{fmt_frequency, fmt_length};
 
 pub struct CopperContactDkMismatch;
 
@@ -36,12 +36,9 @@ impl Rule for CopperContactDkMismatch {
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
         let a = cx.analysis;
-        let margin = cx.option_quantity("margin", crate::input::units::Dimension::Fraction, 0.05);
-        let class_margin = cx.option_quantity(
-            "assumed-dk-margin",
-            crate::input::units::Dimension::Fraction,
-            0.05,
-        );
+        let margin = cx.option_quantity("margin", crate::units::Dimension::Fraction, 0.05);
+        let class_margin =
+            cx.option_quantity("assumed-dk-margin", crate::units::Dimension::Fraction, 0.05);
         let mut out = Vec::new();
         let global_f = a
             .classes

@@ -6,8 +6,8 @@ use std::collections::BTreeMap;
 use stackup_physics::modes::{self, PitchClass};
 
 use crate::finding::{Finding, Severity};
-use crate::input::units::{fmt_frequency, fmt_length};
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::{fmt_frequency, fmt_length};
 
 pub struct FrequencyBeyondValidity;
 

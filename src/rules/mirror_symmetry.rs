@@ -2,9 +2,9 @@
 //! centre in copper or dielectric (bow-and-twist risk).
 
 use crate::finding::{Finding, Severity};
-use crate::input::units::fmt_length;
 use crate::model::LayerKind;
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::fmt_length;
 
 pub struct StackupMirrorAsymmetry;
 

@@ -20,10 +20,10 @@ use std::collections::BTreeSet;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
-use crate::input::units::{self, Dimension};
 use crate::input::yaml::Value;
 use crate::model::{Level, Stackup};
 use crate::source::{Location, SourceDb};
+use crate::units::{self, Dimension};
 
 /// What a rule is, for `rules`, `explain` and SARIF metadata.
 #[derive(Debug)]

@@ -4,8 +4,8 @@
 
 use crate::analysis::delay::{class_delay, net_delay, segment_class};
 use crate::finding::{key_step, Finding, Severity};
-use crate::input::units::{fmt_length, Dimension};
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::{fmt_length, Dimension};
 
 pub struct PropagationSkew;
 

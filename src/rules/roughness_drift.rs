@@ -2,8 +2,8 @@
 //! impedance and delay off what a smooth-copper model predicts.
 
 use crate::finding::{Finding, Severity};
-use crate::input::units::{fmt_frequency, fmt_length, Dimension};
 use crate::rules::{Rule, RuleContext, RuleMeta};
+use crate::units::{fmt_frequency, fmt_length, Dimension};
 
 pub struct RoughnessImpedanceDrift;
 

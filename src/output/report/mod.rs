@@ -17,11 +17,11 @@ use std::fmt::Write as _;
 use crate::analysis::delay::net_delay;
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity};
-use crate::input::units::{fmt_frequency, fmt_length};
 use crate::model::Stackup;
 use crate::output::impedance::{dielectric_rows, ghz};
 use crate::output::Summary;
 use crate::source::{line_col, SourceDb};
+use crate::units::{fmt_frequency, fmt_length};
 
 /// Report settings.
 #[derive(Debug, Clone, Copy, Default)]
@@ -200,8 +200,8 @@ fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
 /// The build table: every layer with its thickness in µm and mil, copper
 /// weight, material or foils, and the running height from the bottom.
 fn layer_table(s: &Stackup) -> Table {
-    use crate::input::units::ounce_thickness;
     use crate::model::LayerKind;
+    use crate::units::ounce_thickness;
     let mut t = Table::new(&[
         "#",
         "layer",

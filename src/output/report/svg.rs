@@ -8,9 +8,9 @@ use std::fmt::Write as _;
 
 use crate::analysis::section::FaceRoughness;
 use crate::analysis::Analysis;
-use crate::input::units::fmt_length;
 use crate::model::{CopperLayer, CopperRole, DielectricKind, LayerKind, Stackup};
 use crate::output::impedance::{ghz, DielectricRow};
+use crate::units::fmt_length;
 
 use super::esc;
 

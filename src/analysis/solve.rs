@@ -1,0 +1,370 @@
+//! Solving sections: families of sections through the field solver and
+//! the disk cache, and the width that meets a target. Everything a run
+//! decides about solving (mesh budget, cache, workers) comes in one
+//! [`AnalysisOptions`] value from the command line; nothing here is global.
+
+use std::collections::{HashMap, HashSet};
+use std::sync::atomic::{AtomicU64, AtomicUsize, Ordering};
+use std::sync::Arc;
+
+use stackup_physics::fieldsolver::{
+    self, estimate, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
+};
+use stackup_physics::roughness::RoughLayerModel;
+
+use super::cache::{self, DiskCache};
+use super::section::{self, LineGeometry, RoughLayers};
+use super::{LineNumbers, SIGMA};
+use crate::pool::Pool;
+
+/// Default of [`AnalysisOptions::max_mesh_nodes`].
+pub const DEFAULT_MAX_MESH_NODES: usize = 400_000;
+
+/// How a run solves: from the command line, passed down through the
+/// engine to every analysis.
+#[derive(Debug, Clone)]
+pub struct AnalysisOptions {
+    /// Largest field-solver mesh (nodes of one grid,
+    /// `SolverOptions::max_mesh_nodes`); a section that needs more is
+    /// reported as not solved. Part of every cache key.
+    pub max_mesh_nodes: usize,
+    /// The disk cache of solves, if one is in use.
+    pub cache: Option<Arc<DiskCache>>,
+    /// Workers for the solves (results do not depend on their number).
+    pub pool: Pool,
+}
+
+impl Default for AnalysisOptions {
+    fn default() -> Self {
+        AnalysisOptions {
+            max_mesh_nodes: DEFAULT_MAX_MESH_NODES,
+            cache: None,
+            pool: Pool::default(),
+        }
+    }
+}
+
+/// Cache entries one analysis read, solved, rejected and stored, for
+/// `STACKUP_LINT_CACHE_DEBUG` and the cache's size bound.
+#[derive(Default)]
+struct Tally {
+    hits: AtomicUsize,
+    solved: AtomicUsize,
+    /// Cached results that failed the plausibility check (solved again).
+    rejected: AtomicUsize,
+    /// Disk space of the entries stored, not yet counted against the bound.
+    stored: AtomicU64,
+}
+
+impl Tally {
+    fn add(&self, hits: usize, solved: usize) {
+        self.hits.fetch_add(hits, Ordering::Relaxed);
+        self.solved.fetch_add(solved, Ordering::Relaxed);
+    }
+}
+
+/// The solver of one analysis: the run's options and what it counted.
+pub(super) struct Solver<'a> {
+    opts: &'a AnalysisOptions,
+    solver: SolverOptions,
+    tally: Tally,
+}
+
+/// A family's solutions, per member.
+pub(super) type Solved = HashMap<String, Vec<Result<SolvedLine, String>>>;
+
+impl<'a> Solver<'a> {
+    pub(super) fn new(opts: &'a AnalysisOptions) -> Solver<'a> {
+        Solver {
+            opts,
+            solver: SolverOptions {
+                max_mesh_nodes: opts.max_mesh_nodes,
+                ..SolverOptions::default()
+            },
+            tally: Tally::default(),
+        }
+    }
+
+    pub(super) fn pool(&self) -> Pool {
+        self.opts.pool
+    }
+
+    fn cache(&self) -> Option<&DiskCache> {
+        self.opts.cache.as_deref()
+    }
+
+    /// Cache key text of a section. The engine identity (`cache.rs`) holds
+    /// the default solver options; the run's mesh budget is added here,
+    /// since a section refused under one budget may be solved under another.
+    fn key(&self, cs: &CrossSection) -> String {
+        format!("mesh budget {} | {cs:?}", self.opts.max_mesh_nodes)
+    }
+
+    /// A family's key: its members' keys in order.
+    pub(super) fn family_key(&self, members: &[CrossSection]) -> String {
+        members
+            .iter()
+            .map(|cs| self.key(cs))
+            .collect::<Vec<_>>()
+            .join(" & ")
+    }
+
+    /// Solve distinct families, in parallel, deterministically (results
+    /// keyed by family). Cached results are read inside the workers; only
+    /// misses are solved.
+    pub(super) fn solve_all(&self, families: Vec<Vec<CrossSection>>) -> Solved {
+        let mut seen = HashSet::new();
+        let unique: Vec<(String, Vec<CrossSection>)> = families
+            .into_iter()
+            .map(|f| (self.family_key(&f), f))
+            .filter(|(k, _)| seen.insert(k.clone()))
+            .collect();
+        let solved = self
+            .opts
+            .pool
+            .map(&unique, |(k, f)| self.solve_family_cached(k, f));
+        unique.into_iter().map(|(k, _)| k).zip(solved).collect()
+    }
+
+    /// Solve one family (sections differing only in their dielectrics) on
+    /// one shared mesh, through the disk cache when one is in use. If the
+    /// family cannot be solved as one, each member is solved alone so that
+    /// each gets its own result or reason.
+    fn solve_family_cached(
+        &self,
+        family: &str,
+        members: &[CrossSection],
+    ) -> Vec<Result<SolvedLine, String>> {
+        let member_key = |i: usize| format!("{family}#{i}");
+        if let Some(c) = self.cache() {
+            let hits: Option<Vec<_>> = (0..members.len()).map(|i| c.get(&member_key(i))).collect();
+            if let Some(v) = hits {
+                // A cache directory may have been written by someone else (a
+                // CI cache restored from an earlier job): a cached number is
+                // used only if it passes the checks a fresh one would, and a
+                // cached error is never believed (solving again costs little
+                // when the section is refused early).
+                let trusted = v.iter().zip(members).all(|(r, cs)| match r {
+                    Ok(s) => estimate::check_solution(cs, s).is_ok(),
+                    Err(_) => false,
+                });
+                if trusted {
+                    self.tally.add(members.len(), 0);
+                    return v;
+                }
+                if v.iter().any(Result::is_ok) {
+                    self.tally.rejected.fetch_add(1, Ordering::Relaxed);
+                }
+            }
+        }
+        self.tally.add(0, members.len());
+        let v: Vec<Result<SolvedLine, String>> = match solve_family(members, &self.solver) {
+            Ok(v) => v.into_iter().map(Ok).collect(),
+            Err(_) => members
+                .iter()
+                .map(|cs| solve(cs, &self.solver).map_err(|e| e.message))
+                .collect(),
+        };
+        if let Some(c) = self.cache() {
+            for (i, r) in v.iter().enumerate() {
+                let n = c.put(&member_key(i), r);
+                self.tally.stored.fetch_add(n, Ordering::Relaxed);
+            }
+        }
+        v
+    }
+
+    /// Width (base width, top width scaled alike) at which the worst-case
+    /// rough section meets `target` (`fieldsolver::width_for_target`, its
+    /// result through the disk cache as one entry).
+    pub(super) fn width_for_target(
+        &self,
+        g: &LineGeometry,
+        f: f64,
+        target: f64,
+        z_now: f64,
+    ) -> Option<f64> {
+        let w0 = g.width_bottom.max(g.width_top);
+        let section = |w: f64| {
+            let mut g2 = g.clone();
+            let scale = w / w0;
+            g2.width_bottom = g.width_bottom * scale;
+            g2.width_top = g.width_top * scale;
+            section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
+        };
+        // The search's result is cached as a whole (one entry instead of
+        // one per coarse solve): it follows from the worst-case section at
+        // the current width, its accurate impedance and the target.
+        let k = format!(
+            "width for target {:016x} from {:016x} | {}",
+            target.to_bits(),
+            z_now.to_bits(),
+            self.key(&section(w0))
+        );
+        if let Some(c) = self.cache() {
+            if let Some(v) = c.get_numbers(&k) {
+                if plausible_width(&v, w0, z_now, target, &section) {
+                    self.tally.add(1, 0);
+                    return v.first().copied();
+                }
+                self.tally.rejected.fetch_add(1, Ordering::Relaxed);
+            }
+        }
+        self.tally.add(0, 1);
+        let w = fieldsolver::width_for_target(
+            section,
+            |r| LineNumbers::from_solved(r).map(|n| n.z),
+            w0,
+            z_now,
+            target,
+            &self.solver,
+        );
+        if let Some(c) = self.cache() {
+            let n = c.put_numbers(&k, w.as_slice());
+            self.tally.stored.fetch_add(n, Ordering::Relaxed);
+        }
+        w
+    }
+
+    /// Count what this analysis stored against the cache's bound (evicting
+    /// if it is passed) and say what it did under
+    /// `STACKUP_LINT_CACHE_DEBUG`.
+    pub(super) fn settle(&self) {
+        let Some(c) = self.cache() else { return };
+        if cache::debug() {
+            eprintln!(
+                "cache: {}: {} hits, {} solved and stored, {} cached results rejected by the plausibility check",
+                c.dir().display(),
+                self.tally.hits.load(Ordering::Relaxed),
+                self.tally.solved.load(Ordering::Relaxed),
+                self.tally.rejected.load(Ordering::Relaxed)
+            );
+        }
+        let evicted = c.account(self.tally.stored.swap(0, Ordering::Relaxed));
+        if evicted > 0 && cache::debug() {
+            eprintln!("cache: {evicted} least recently used entries removed");
+        }
+    }
+}
+
+/// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
+pub(super) fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
+    let model = RoughLayerModel::default();
+    // Faces are in the order plane below, trace bottom, trace top, [plane above].
+    let mut thickness = vec![0.0; 4];
+    for (k, face) in g.faces.iter().enumerate() {
+        let slot = if k == 3 || face.role == "plane above" {
+            3
+        } else {
+            k
+        };
+        thickness[slot] = model
+            .thickness(&face.roughness.surface(worst), f, SIGMA)
+            .unwrap_or(0.0);
+    }
+    let eps_factor = model.permittivity(1.0).unwrap_or(4.0);
+    RoughLayers {
+        thickness,
+        eps_factor,
+    }
+}
+
+/// The sections of a class at frequency `f`: smooth copper, and the
+/// declared roughness at its best and worst case (equal when every face is
+/// known).
+pub fn family_sections(g: &LineGeometry, f: f64) -> [CrossSection; 3] {
+    [
+        section::cross_section(g, None),
+        section::cross_section(g, Some(&rough_layers(g, f, false))),
+        section::cross_section(g, Some(&rough_layers(g, f, true))),
+    ]
+}
+
+/// Largest ratio of the section's overall size to its smallest feature that
+/// the field solver is asked to mesh. Real boards stay far below it (about
+/// 100); hostile input (a 1 µm trace beside a 19 mm gap) would need a mesh
+/// of billions of cells, so it is refused with a clear reason instead.
+pub const MAX_FEATURE_RATIO: f64 = 1000.0;
+
+pub(super) fn solvable(g: &LineGeometry) -> Result<(), String> {
+    let w = g.width_bottom.max(g.width_top);
+    let mut features = vec![g.width_bottom.min(g.width_top).max(0.0), w];
+    features.extend(g.spacing);
+    features.extend(g.gap);
+    if g.thickness > 0.0 {
+        features.push(g.thickness);
+    }
+    features.extend(g.slabs.iter().map(|s| s.thickness));
+    let smallest = features
+        .iter()
+        .copied()
+        .filter(|v| *v > 0.0)
+        .fold(f64::INFINITY, f64::min);
+    let span = w * if g.spacing.is_some() { 2.0 } else { 1.0 }
+        + g.spacing.unwrap_or(0.0)
+        + 2.0 * g.gap.unwrap_or(0.0);
+    let largest = span.max(g.height());
+    let ratio = largest / smallest;
+    if !ratio.is_finite() || ratio > MAX_FEATURE_RATIO {
+        return Err(format!(
+            "the cross-section spans {:.0} times its smallest feature ({} against {}), beyond the {MAX_FEATURE_RATIO:.0}:1 the field solver meshes; check the widths, gaps and thicknesses",
+            ratio,
+            crate::units::fmt_length(largest),
+            crate::units::fmt_length(smallest)
+        ));
+    }
+    Ok(())
+}
+
+/// Largest ratio between a proposed width and the current one that a
+/// cached width for target may have.
+const MAX_WIDTH_STEP: f64 = 20.0;
+
+/// Accepted misfit of a cached width for target: the closed-form estimate
+/// at that width, scaled by the solved impedance at the current width, must
+/// come within this fraction of the target (the forms' own errors largely
+/// cancel in the ratio).
+const WIDTH_CHECK: f64 = 0.15;
+
+/// Check a cached width for target (`[]` for none, or one width) before
+/// it is used: a finite, positive width within [`MAX_WIDTH_STEP`] of the
+/// current one, at which the closed-form estimate, scaled by the solved
+/// impedance at the current width `w0`, comes within [`WIDTH_CHECK`] of
+/// the target.
+fn plausible_width(
+    v: &[f64],
+    w0: f64,
+    z_now: f64,
+    target: f64,
+    section: &dyn Fn(f64) -> CrossSection,
+) -> bool {
+    let w = match v {
+        [] => return true,
+        [w] => *w,
+        _ => return false,
+    };
+    if !(w.is_finite() && w > w0 / MAX_WIDTH_STEP && w < w0 * MAX_WIDTH_STEP) {
+        return false;
+    }
+    let z_of = |cs: &CrossSection| {
+        // The signal mode's impedance at the middle of the estimate's
+        // air and permittivity ranges (the top of the air range for a
+        // bound); the ratio of two of them is what is compared.
+        estimate::estimate(cs).map(|e| {
+            let m = e.signal;
+            let z_air = if m.z_air_low > 0.0 {
+                (m.z_air_low * m.z_air_high).sqrt()
+            } else {
+                m.z_air_high
+            };
+            z_air / (m.eps_low * m.eps_high).sqrt().sqrt()
+        })
+    };
+    match (z_of(&section(w)), z_of(&section(w0))) {
+        (Some(at_w), Some(at_w0)) => {
+            let predicted = z_now * at_w / at_w0;
+            (predicted / target - 1.0).abs() <= WIDTH_CHECK
+        }
+        _ => true,
+    }
+}
