@@ -4,8 +4,19 @@
 //! findings at it. Built from the positioned YAML tree by [`build`].
 
 mod build;
+mod derive;
+mod layers;
+mod materials;
+mod net_classes;
+mod reader;
+mod settings;
 
-pub use build::{build_stackup, load_library, LibraryData};
+pub use build::{build_stackup, HARMONIC_FACTOR};
+pub use derive::default_fill;
+pub use materials::{
+    load_library, LibraryData, FIT_DF_ABSOLUTE, FIT_DF_RELATIVE, FIT_DK_ABSOLUTE, FIT_DK_RELATIVE,
+    MAX_BOARD_DF, MAX_BOARD_DK, MAX_IMPEDANCE_TOLERANCE,
+};
 
 use std::collections::BTreeMap;
 

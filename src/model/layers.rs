@@ -1,0 +1,313 @@
+//! Layers, top to bottom: copper (role, thickness, the foil faces towards
+//! each neighbour) and dielectrics (kind, material, thickness), and
+//! references to them by name.
+
+use std::collections::BTreeMap;
+
+use super::derive::{ply_resin_content, resin_key};
+use super::materials::read_roughness;
+use super::reader::{fmt_len, Reader};
+use super::*;
+use crate::input::yaml::Node;
+use crate::units::Dimension;
+
+pub(super) fn read_layers(
+    r: &mut Reader<'_>,
+    materials: &BTreeMap<String, Material>,
+    foils: &BTreeMap<String, Foil>,
+) -> Vec<Layer> {
+    let n = r
+        .node("/layers")
+        .and_then(Node::as_seq)
+        .map_or(0, <[Node]>::len);
+    let mut layers: Vec<Layer> = Vec::new();
+    let mut seen: BTreeMap<String, String> = BTreeMap::new();
+    let mut ok = true;
+    for i in 0..n {
+        let ptr = format!("/layers/{i}");
+        let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        if let Some(first) = seen.get(&name) {
+            let first = r.line_of(first);
+            r.error(
+                &format!("{ptr}/name"),
+                format!("layer name `{name}` is used twice (first at line {first}); net classes could not tell them apart"),
+                "duplicate layer name",
+                Some("give every layer a unique name, e.g. L1..Ln for copper".into()),
+            );
+            ok = false;
+        }
+        seen.insert(name.clone(), ptr.clone());
+        let kind = if r.node(&format!("{ptr}/copper")).is_some() {
+            read_copper(r, &format!("{ptr}/copper"), foils).map(LayerKind::Copper)
+        } else {
+            read_dielectric(r, &format!("{ptr}/dielectric"), materials).map(LayerKind::Dielectric)
+        };
+        match kind {
+            Some(kind) => layers.push(Layer {
+                name,
+                pointer: ptr,
+                kind,
+            }),
+            None => ok = false,
+        }
+    }
+    if !ok {
+        r.unusable.extend(seen.into_keys());
+        return Vec::new();
+    }
+    // Two copper layers must be separated by a dielectric.
+    for w in layers.windows(2) {
+        if matches!(w[0].kind, LayerKind::Copper(_)) && matches!(w[1].kind, LayerKind::Copper(_)) {
+            let p = w[1].pointer.clone();
+            r.error(
+                &p,
+                format!(
+                    "copper layers `{}` and `{}` touch with no dielectric between them",
+                    w[0].name, w[1].name
+                ),
+                "missing dielectric",
+                Some("add the core or prepreg that separates them".into()),
+            );
+        }
+    }
+    layers
+}
+
+pub(super) fn read_copper(
+    r: &mut Reader<'_>,
+    ptr: &str,
+    foils: &BTreeMap<String, Foil>,
+) -> Option<CopperLayer> {
+    let role = match r.string(&format!("{ptr}/role")).as_deref() {
+        Some("plane") => CopperRole::Plane,
+        Some("mixed") => CopperRole::Mixed,
+        _ => CopperRole::Signal,
+    };
+    let thickness = r.bounded(
+        &format!("{ptr}/thickness"),
+        Dimension::CopperThickness,
+        "copper thickness",
+        0.0,
+        0.5e-3,
+        fmt_len,
+    );
+    let fill = if r.node(&format!("{ptr}/fill")).is_some() {
+        Some(r.fraction(&format!("{ptr}/fill"), "copper fill")?)
+    } else {
+        None
+    };
+    let up = read_face(r, &format!("{ptr}/up"), foils);
+    let down = read_face(r, &format!("{ptr}/down"), foils);
+    Some(CopperLayer {
+        role,
+        thickness: thickness?,
+        fill,
+        plated: r.bool(&format!("{ptr}/plated")).unwrap_or(false),
+        up: up?,
+        down: down?,
+    })
+}
+
+/// `Some(None)` = no face given; `None` = error.
+pub(super) fn read_face(
+    r: &mut Reader<'_>,
+    ptr: &str,
+    foils: &BTreeMap<String, Foil>,
+) -> Option<Option<Face>> {
+    r.node(ptr).map_or(Some(None), |_| {
+        let side = match r.string(&format!("{ptr}/side")).as_deref() {
+            Some("drum") => FoilSide::Drum,
+            Some("bond-treatment") => FoilSide::BondTreatment,
+            _ => FoilSide::Treated,
+        };
+        let foil = r.string(&format!("{ptr}/foil"));
+        let direct = read_roughness(r, ptr, false);
+        let roughness = match (&foil, direct) {
+            (Some(_), Some(_)) => {
+                r.error(
+                    ptr,
+                    "give either `foil` or `rz`/`rq` on a face, not both",
+                    "ambiguous roughness",
+                    None,
+                );
+                return None;
+            }
+            (Some(name), None) => match foils.get(name) {
+                Some(f) => Some(f.roughness),
+                None if r.unusable.contains(name) => return None,
+                None => {
+                    let known: Vec<_> = foils.keys().map(String::as_str).collect();
+                    r.error(
+                        &format!("{ptr}/foil"),
+                        format!("foil `{name}` is not defined"),
+                        "unknown foil",
+                        Some(if known.is_empty() {
+                            "define it under `foils:` with its rz/rq".into()
+                        } else {
+                            format!("defined foils: {}", known.join(", "))
+                        }),
+                    );
+                    return None;
+                }
+            },
+            (None, Some(rough)) => Some(rough),
+            (None, None) => {
+                if side != FoilSide::BondTreatment {
+                    r.error(
+                        ptr,
+                        format!("this {} face has no roughness; only a bond-treatment face may leave it unknown", side.as_str()),
+                        "roughness missing",
+                        Some("add `foil: NAME` or `rz: 5 um` from the foil data sheet".into()),
+                    );
+                    return None;
+                }
+                None
+            }
+        };
+        Some(Some(Face {
+            pointer: ptr.to_string(),
+            side,
+            roughness,
+            foil,
+        }))
+    })
+}
+
+pub(super) fn read_dielectric(
+    r: &mut Reader<'_>,
+    ptr: &str,
+    materials: &BTreeMap<String, Material>,
+) -> Option<DielectricLayer> {
+    let kind = match r.string(&format!("{ptr}/kind")).as_deref() {
+        Some("core") => DielectricKind::Core,
+        Some("bonding-film") => DielectricKind::BondingFilm,
+        Some("solder-mask") => DielectricKind::SolderMask,
+        _ => DielectricKind::Prepreg,
+    };
+    let material_pointer = format!("{ptr}/material");
+    let mut material = r.string(&material_pointer).unwrap_or_default();
+    if !materials.contains_key(&material) {
+        if let Some((w, _)) = ply_resin_content(r, ptr) {
+            let key = resin_key(&material, w);
+            if materials.contains_key(&key) {
+                material = key;
+            }
+        }
+    }
+    let mut ok = true;
+    if !materials.contains_key(&material) && r.unusable.contains(&material) {
+        ok = false;
+    } else if !materials.contains_key(&material) {
+        let known: Vec<_> = materials.keys().map(String::as_str).collect();
+        r.error(
+            &material_pointer,
+            format!("material `{material}` is not defined in this file or its libraries"),
+            "unknown material",
+            Some(if known.is_empty() {
+                "define it under `materials:` or add a library under `libraries:`".into()
+            } else {
+                format!("known materials: {}", known.join(", "))
+            }),
+        );
+        ok = false;
+    }
+    let tp = format!("{ptr}/thickness");
+    let np = format!("{ptr}/nominal-thickness");
+    let pressed = if r.node(&tp).is_some() {
+        r.bounded(
+            &tp,
+            Dimension::Length,
+            "dielectric thickness",
+            0.0,
+            10e-3,
+            fmt_len,
+        )
+        .map(Some)
+    } else {
+        Some(None)
+    };
+    let nominal = if r.node(&np).is_some() {
+        r.bounded(
+            &np,
+            Dimension::Length,
+            "nominal thickness",
+            0.0,
+            10e-3,
+            fmt_len,
+        )
+        .map(Some)
+    } else {
+        Some(None)
+    };
+    let resin = if r.node(&format!("{ptr}/resin-content")).is_some() {
+        Some(r.fraction(&format!("{ptr}/resin-content"), "resin content")?)
+    } else {
+        None
+    };
+    let modelled_dk = r.number(&format!("{ptr}/modelled-dk"), "modelled Dk");
+    if let Some(dk) = modelled_dk {
+        if dk < 1.0 {
+            r.error(
+                &format!("{ptr}/modelled-dk"),
+                format!("modelled Dk {dk} is below 1, the Dk of vacuum"),
+                "not physical",
+                None,
+            );
+            ok = false;
+        } else if dk > MAX_BOARD_DK {
+            r.error(
+                &format!("{ptr}/modelled-dk"),
+                format!("modelled Dk {dk} is above any board dielectric ({MAX_BOARD_DK} is the limit here)"),
+                "above any board dielectric",
+                Some("give the Dk the impedance model uses for this layer, e.g. 3.6".into()),
+            );
+            ok = false;
+        }
+    }
+    let (pressed, nominal) = (pressed?, nominal?);
+    if !ok {
+        return None;
+    }
+    Some(DielectricLayer {
+        kind,
+        material,
+        material_pointer,
+        thickness: pressed.or(nominal)?,
+        pressed_given: pressed.is_some(),
+        nominal_thickness: nominal,
+        glass_style: r.string(&format!("{ptr}/glass-style")),
+        resin_content: resin,
+        modelled_dk,
+    })
+}
+
+pub(super) fn layer_ref(r: &mut Reader<'_>, s: &Stackup, ptr: &str, want: &str) -> Option<usize> {
+    let name = r.string(ptr)?;
+    match s.layer_index(&name) {
+        Some(i) if s.copper(i).is_some() => Some(i),
+        Some(_) => {
+            r.error(
+                ptr,
+                format!("layer `{name}` is a dielectric; {want} must be a copper layer"),
+                "not a copper layer",
+                None,
+            );
+            None
+        }
+        None if r.unusable.contains(&name) => None,
+        None => {
+            let copper: Vec<_> = s
+                .copper_indices()
+                .into_iter()
+                .map(|i| s.layers[i].name.as_str())
+                .collect();
+            r.error(
+                ptr,
+                format!("there is no layer named `{name}`"),
+                "unknown layer",
+                Some(format!("copper layers: {}", copper.join(", "))),
+            );
+            None
+        }
+    }
+}
