@@ -51,7 +51,7 @@ pub fn render_all(outcome: &CheckOutcome) {
 pub fn load_bytes(data: &[u8]) {
     let limits = InputLimits::default();
     let loaded = match std::str::from_utf8(data) {
-        Ok(text) => load::load_text("fuzz.stackup.yaml", text, &limits),
+        Ok(text) => stackup_lint::engine::load_text("fuzz.stackup.yaml", text, &limits),
         Err(_) => {
             let dir = std::env::temp_dir().join(format!("stackup-fuzz-{}", std::process::id()));
             std::fs::create_dir_all(&dir).expect("temporary directory");
@@ -59,7 +59,13 @@ pub fn load_bytes(data: &[u8]) {
             std::fs::write(&path, data).expect("temporary file");
             let conf = stackup_lint::files::Confinement::new(None, &dir)
                 .expect("the temporary directory exists");
-            load::load(&[path], &limits, &conf, stackup_lint::pool::Pool::single())
+            load::load(
+                &[path],
+                &limits,
+                &conf,
+                stackup_lint::pool::Pool::single(),
+                &stackup_lint::rules::specs(),
+            )
         }
     };
     if loaded.stackups.is_empty() {
@@ -88,7 +94,8 @@ pub fn check_text(text: &str) -> CheckOutcome {
         pool: stackup_lint::pool::Pool::single(),
         ..Default::default()
     };
-    let loaded = load::load_text("fuzz.stackup.yaml", text, &InputLimits::default());
+    let loaded =
+        stackup_lint::engine::load_text("fuzz.stackup.yaml", text, &InputLimits::default());
     let loaded_ok = !loaded.stackups.is_empty();
     let outcome = engine::lint(loaded, &opts);
     if !loaded_ok {

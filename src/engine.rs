@@ -57,6 +57,12 @@ pub fn sort_findings(findings: &mut [Finding], db: &SourceDb) {
     });
 }
 
+/// Load one stackup from text, as a file named `name` (tests, fuzzing,
+/// the rule pages' examples); no library is read.
+pub fn load_text(name: &str, text: &str, limits: &InputLimits) -> load::Loaded {
+    load::load_text(name, text, limits, &rules::specs())
+}
+
 /// Lint already-loaded stackups.
 pub fn lint(loaded: load::Loaded, opts: &AnalysisOptions) -> CheckOutcome {
     lint_inner(loaded, opts, false).0
@@ -166,7 +172,13 @@ pub fn load_paths(
     let conf = Confinement::new(opts.root.as_deref(), base)?;
     let walked = walk::collect(paths, &opts.walk, &conf).map_err(|e| e.message)?;
     let files = walked.files;
-    let mut loaded = load::load(&files, &opts.limits, &conf, opts.analysis.pool);
+    let mut loaded = load::load(
+        &files,
+        &opts.limits,
+        &conf,
+        opts.analysis.pool,
+        &rules::specs(),
+    );
     loaded.stackups.sort_by_key(|s| s.file);
     for p in walked.problems {
         let display = p

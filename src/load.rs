@@ -10,7 +10,7 @@ use crate::files::{self, Confinement, ReadError, Refusal};
 use crate::finding::{Finding, INVALID_INPUT};
 use crate::input::schema::{self, FileKind};
 use crate::input::yaml::{self, YamlLimits};
-use crate::model::{self, LibraryData, Stackup};
+use crate::model::{self, LibraryData, RuleSpec, Stackup};
 use crate::pool::Pool;
 use crate::source::{FileId, Location, SourceDb, SourceFile};
 
@@ -333,7 +333,15 @@ pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
 /// Reading, YAML and schema run on the `pool`, then libraries
 /// are loaded once each in file order, then the models are built on the
 /// workers again; problems keep the order of a one-file-at-a-time load.
-pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement, pool: Pool) -> Loaded {
+/// `rules` are the rules the files' settings may name (the engine hands
+/// them down).
+pub fn load(
+    paths: &[PathBuf],
+    limits: &InputLimits,
+    conf: &Confinement,
+    pool: Pool,
+    rules: &[RuleSpec],
+) -> Loaded {
     let base = conf.cwd();
     let prepared = pool.map(paths, |path| {
         prepare(path, base, limits, FileKind::Stackup, conf)
@@ -451,7 +459,9 @@ pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement, pool: P
         builds.push((loaded.problems.len(), id, libs));
     }
     let db = &loaded.db;
-    let built = pool.map(&builds, |(_, id, libs)| model::build_stackup(db, *id, libs));
+    let built = pool.map(&builds, |(_, id, libs)| {
+        model::build_stackup(db, *id, libs, rules)
+    });
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
     let mut earlier = std::mem::take(&mut loaded.problems).into_iter();
@@ -469,8 +479,9 @@ pub fn load(paths: &[PathBuf], limits: &InputLimits, conf: &Confinement, pool: P
     loaded
 }
 
-/// Load one stackup from text (tests and fuzzing); `name` is its display path.
-pub fn load_text(name: &str, text: &str, limits: &InputLimits) -> Loaded {
+/// Load one stackup from text (tests and fuzzing); `name` is its display
+/// path; no library is read.
+pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec]) -> Loaded {
     let mut loaded = Loaded::default();
     let file = SourceFile {
         path: PathBuf::from(name),
@@ -479,7 +490,7 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits) -> Loaded {
         tree: None,
     };
     if let Some(id) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
-        match model::build_stackup(&loaded.db, id, &[]) {
+        match model::build_stackup(&loaded.db, id, &[], rules) {
             Ok(s) => loaded.stackups.push(s),
             Err(errors) => loaded.problems.extend(errors),
         }

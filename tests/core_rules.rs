@@ -3,8 +3,9 @@
 
 use stackup_lint::analysis::{analyze, dielectric_contact};
 use stackup_lint::engine;
+use stackup_lint::engine::load_text;
 use stackup_lint::finding::Finding;
-use stackup_lint::load::{load_text, InputLimits};
+use stackup_lint::load::InputLimits;
 use stackup_lint::model::Stackup;
 
 fn stackup(text: &str) -> Stackup {

@@ -4,8 +4,9 @@
 
 use std::process::Command;
 
+use stackup_lint::engine::load_text;
 use stackup_lint::files::Confinement;
-use stackup_lint::load::{load, load_text, InputLimits};
+use stackup_lint::load::{load, InputLimits};
 use stackup_lint::model::LayerKind;
 use stackup_lint::pool::Pool;
 
@@ -31,7 +32,13 @@ fn builtin_generic_library_loads_and_user_values_win() {
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "a.stackup.yaml", BUILTIN_BOARD);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
+    let loaded = load(
+        &[p],
+        &InputLimits::default(),
+        &conf,
+        Pool::single(),
+        &stackup_lint::rules::specs(),
+    );
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     assert_eq!(s.materials["generic-fr4"].dk(), 4.2);
@@ -43,7 +50,13 @@ fn builtin_generic_library_loads_and_user_values_win() {
     );
     let p = write(dir.path(), "b.stackup.yaml", &own);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
+    let loaded = load(
+        &[p],
+        &InputLimits::default(),
+        &conf,
+        Pool::single(),
+        &stackup_lint::rules::specs(),
+    );
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     assert_eq!(loaded.stackups[0].materials["generic-fr4"].dk(), 4.05);
 }
@@ -88,7 +101,13 @@ layers:
     let dir = tempfile::tempdir().unwrap();
     let p = write(dir.path(), "r.stackup.yaml", text);
     let conf = Confinement::new(None, dir.path()).unwrap();
-    let loaded = load(&[p], &InputLimits::default(), &conf, Pool::single());
+    let loaded = load(
+        &[p],
+        &InputLimits::default(),
+        &conf,
+        Pool::single(),
+        &stackup_lint::rules::specs(),
+    );
     assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
     let s = &loaded.stackups[0];
     let LayerKind::Dielectric(d) = &s.layers[1].kind else {

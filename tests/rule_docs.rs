@@ -2,8 +2,9 @@
 //! in rules/, the page has the required sections, and its YAML examples
 //! behave as labelled (the "fires" one fires the rule, the "passes" one does not).
 
+use stackup_lint::engine::load_text;
 use stackup_lint::finding::INVALID_INPUT;
-use stackup_lint::load::{load_text, InputLimits};
+use stackup_lint::load::InputLimits;
 use stackup_lint::{engine, rules};
 
 /// Fenced code blocks whose info string is `yaml <label>`.
@@ -126,5 +127,68 @@ fn rule_names_are_kebab_case_and_unique() {
             "{}",
             m.name
         );
+    }
+}
+
+/// The Options section of every rule page says what the rule's declared
+/// options say (key, default, purpose), in that order: the defaults live
+/// in one place, the `OptionSpec`s, and this keeps the pages true to them.
+/// Each written default also reads back as the default value.
+#[test]
+fn options_sections_agree_with_the_declared_options() {
+    use stackup_lint::model::OptionKind;
+    use stackup_lint::units::{parse_quantity, Dimension};
+    for m in rules::all_meta() {
+        let section: Vec<&str> = m
+            .doc
+            .split("\n## Options\n")
+            .nth(1)
+            .map(|rest| rest.split("\n## ").next().unwrap_or(""))
+            .unwrap_or("")
+            .lines()
+            .filter(|l| !l.trim().is_empty())
+            .collect();
+        if m.options.is_empty() {
+            if !section.is_empty() {
+                assert!(
+                    section[0].starts_with("None besides `severity`."),
+                    "rules/{}.md: {section:?}",
+                    m.name
+                );
+            }
+            continue;
+        }
+        let want: Vec<String> = m
+            .options
+            .iter()
+            .map(|o| format!("- `{}` (default {}): {}.", o.key, o.default_text, o.doc))
+            .collect();
+        let bullets: Vec<&str> = section
+            .iter()
+            .copied()
+            .filter(|l| l.starts_with("- "))
+            .collect();
+        assert_eq!(bullets, want, "rules/{}.md, Options", m.name);
+        for o in m.options {
+            let dim = match o.kind {
+                OptionKind::Ratio { .. } => Dimension::Fraction,
+                OptionKind::Quantity(d) => d,
+            };
+            // "0.01 ps per mm of coupled length": the quantity before "per".
+            let text = o.default_text.split(" per ").next().unwrap();
+            let v = parse_quantity(text, dim).unwrap_or_else(|e| {
+                panic!(
+                    "{}: default `{}` does not read: {e}",
+                    m.name, o.default_text
+                )
+            });
+            assert!(
+                (v - o.default).abs() <= 1e-12 * o.default.abs().max(1e-30),
+                "{}: `{}` reads {v}, declared {}",
+                m.name,
+                o.default_text,
+                o.default
+            );
+        }
     }
 }

@@ -25,10 +25,12 @@ pub const HARMONIC_FACTOR: f64 = stackup_physics::loss::DEFAULT_HARMONIC_FACTOR;
 
 /// Build the stackup model from a schema-valid file. `libraries` are the
 /// already-loaded library files this file references, in order.
+/// `rules` are the rules `settings` may name, with their options.
 pub fn build_stackup(
     db: &SourceDb,
     file: FileId,
     libraries: &[LibraryData],
+    rules: &[RuleSpec],
 ) -> Result<Stackup, Vec<Finding>> {
     let Some(mut r) = Reader::new(db, file) else {
         return Err(Vec::new());
@@ -66,7 +68,7 @@ pub fn build_stackup(
     };
     stackup.net_classes = read_net_classes(&mut r, &stackup);
     stackup.matched_groups = read_groups(&mut r, &stackup);
-    stackup.settings = read_settings(&mut r, &stackup);
+    stackup.settings = read_settings(&mut r, &stackup, rules);
     if r.errors.is_empty() {
         Ok(stackup)
     } else {

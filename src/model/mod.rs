@@ -345,8 +345,50 @@ pub enum Level {
 pub struct RuleSettings {
     pub pointer: String,
     pub level: Option<Level>,
-    /// The rule's options, as the YAML node pointer for each key.
-    pub options: BTreeMap<String, String>,
+    /// The rule's options given in the file, checked against its
+    /// declared [`OptionSpec`]s: key → value (SI).
+    pub values: BTreeMap<String, f64>,
+}
+
+impl RuleSettings {
+    /// The value of an option: as given, else its declared default.
+    pub fn value(&self, spec: &OptionSpec) -> f64 {
+        self.values.get(spec.key).copied().unwrap_or(spec.default)
+    }
+}
+
+/// What a rule option holds.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum OptionKind {
+    /// A bare number or a percentage, from 0 to `max`.
+    Ratio { max: f64 },
+    /// A quantity with its unit (a bare number where the dimension allows
+    /// one), not negative.
+    Quantity(crate::units::Dimension),
+}
+
+/// One option a rule accepts under `settings.rules.<rule>`: its key, what
+/// it holds, its default (in SI, and as the rule page writes it) and what
+/// it does. The one place the default is written; the rule pages' Options
+/// sections are checked against it.
+#[derive(Debug)]
+pub struct OptionSpec {
+    pub key: &'static str,
+    pub kind: OptionKind,
+    pub default: f64,
+    /// The default as the rule page gives it (`0.05`, `50 %`, `100 mm`).
+    pub default_text: &'static str,
+    /// What the option does, one sentence (the rule page's words).
+    pub doc: &'static str,
+}
+
+/// A rule as the model stage checks `settings.rules` and suppressions
+/// against: its name and its options. The rules hand these down (the model
+/// knows no rule).
+#[derive(Debug, Clone, Copy)]
+pub struct RuleSpec {
+    pub name: &'static str,
+    pub options: &'static [OptionSpec],
 }
 
 #[derive(Debug, Clone)]

@@ -38,6 +38,11 @@ impl<'a> Reader<'a> {
         self.root.pointer(ptr)
     }
 
+    /// Record a finding made by the caller.
+    pub(super) fn push(&mut self, f: Finding) {
+        self.errors.push(f);
+    }
+
     pub(super) fn error(
         &mut self,
         ptr: &str,

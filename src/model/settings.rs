@@ -6,12 +6,38 @@ use std::collections::BTreeMap;
 
 use super::reader::{fmt_len, Reader};
 use super::*;
-use crate::finding::Severity;
+use crate::finding::{Finding, Severity, INVALID_INPUT};
 use crate::input::yaml::{Node, Value};
 use crate::source::escape_token;
-use crate::units::Dimension;
+use crate::units::{self, Dimension};
 
-pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
+/// Read one rule option's value as its spec says (unit, range); errors at
+/// the value's span.
+fn read_option(r: &mut Reader<'_>, rule: &str, spec: &OptionSpec, ptr: &str) -> Option<f64> {
+    let key = spec.key;
+    let node = r.node(ptr)?;
+    let (dim, max) = match spec.kind {
+        OptionKind::Ratio { max } => (Dimension::Fraction, max),
+        OptionKind::Quantity(dim) => (dim, f64::INFINITY),
+    };
+    let parsed = match &node.value {
+        Value::Number(n) => units::bare_number(*n, dim),
+        Value::String(t) => units::parse_quantity(t, dim),
+        _ => Err(units::UnitError::Empty),
+    };
+    let problem = match parsed {
+        Ok(x) if (0.0..=max).contains(&x) => return Some(x),
+        Ok(x) if matches!(spec.kind, OptionKind::Ratio { .. }) => {
+            format!("option `{key}` of `{rule}` must be a fraction, got {x}")
+        }
+        Ok(x) => format!("option `{key}` of `{rule}` must not be negative, got {x}"),
+        Err(e) => format!("option `{key}` of `{rule}`: {e}"),
+    };
+    r.error(ptr, problem, "invalid option value", None);
+    None
+}
+
+pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec]) -> Settings {
     let mut out = Settings::default();
     if r.node("/settings/board-thickness").is_some() {
         let p = "/settings/board-thickness";
@@ -43,13 +69,31 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
             }
         }
     }
+    let names = || {
+        let mut v: Vec<&str> = rules.iter().map(|x| x.name).collect();
+        v.sort_unstable();
+        v.join(", ")
+    };
     if let Some(entries) = r.node("/settings/rules").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/settings/rules/{}", escape_token(&e.key));
+            let Some(spec) = rules.iter().find(|x| x.name == e.key) else {
+                let at = r.db.locate_key(r.file, &ptr);
+                r.push(
+                    Finding::new(
+                        INVALID_INPUT,
+                        at,
+                        format!("there is no rule named `{}`", e.key),
+                    )
+                    .label("unknown rule")
+                    .with_help(format!("rules: {}", names())),
+                );
+                continue;
+            };
             let mut rs = RuleSettings {
                 pointer: ptr.clone(),
                 level: None,
-                options: BTreeMap::new(),
+                values: BTreeMap::new(),
             };
             let level_of = |s: &str| match s {
                 "off" => Some(Level::Off),
@@ -61,9 +105,34 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
                     for o in opts {
                         if o.key == "severity" {
                             rs.level = o.value.as_str().and_then(level_of);
-                        } else {
-                            rs.options
-                                .insert(o.key.clone(), format!("{ptr}/{}", escape_token(&o.key)));
+                            continue;
+                        }
+                        let optr = format!("{ptr}/{}", escape_token(&o.key));
+                        match spec.options.iter().find(|x| x.key == o.key) {
+                            Some(os) => {
+                                if let Some(v) = read_option(r, spec.name, os, &optr) {
+                                    rs.values.insert(o.key.clone(), v);
+                                }
+                            }
+                            None => {
+                                let at = r.db.locate_key(r.file, &optr);
+                                let keys: Vec<&str> = spec.options.iter().map(|x| x.key).collect();
+                                r.push(
+                                    Finding::new(
+                                        INVALID_INPUT,
+                                        at,
+                                        format!("rule `{}` has no option `{}`", e.key, o.key),
+                                    )
+                                    .label("unknown option")
+                                    .with_help(
+                                        if keys.is_empty() {
+                                            "this rule takes only `severity`".to_string()
+                                        } else {
+                                            format!("options: severity, {}", keys.join(", "))
+                                        },
+                                    ),
+                                );
+                            }
                         }
                     }
                 }
@@ -105,6 +174,19 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup) -> Settings {
         });
     }
     read_inline_suppressions(r, s, &mut out.suppressions);
+    for sp in &out.suppressions {
+        if !rules.iter().any(|x| x.name == sp.rule) {
+            let at = r.db.locate(r.file, &format!("{}/rule", sp.pointer));
+            r.push(
+                Finding::new(
+                    INVALID_INPUT,
+                    at,
+                    format!("suppression names `{}`, which is not a rule", sp.rule),
+                )
+                .label("unknown rule"),
+            );
+        }
+    }
     out
 }
 

@@ -3,6 +3,7 @@
 
 use crate::finding::{Finding, Severity};
 use crate::model::LayerKind;
+use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::fmt_length;
 
@@ -13,8 +14,16 @@ static META: RuleMeta = RuleMeta {
     summary: "two signal layers face each other with no plane between them (broadside coupling)",
     default_severity: Severity::Warning,
     doc: include_str!("../../rules/broadside-signal-layers.md"),
-    options: &["min-separation-ratio"],
+    options: &OPTIONS,
 };
+
+static OPTIONS: [OptionSpec; 1] = [OptionSpec {
+    key: "min-separation-ratio",
+    kind: OptionKind::Ratio { max: 10.0 },
+    default: 3.0,
+    default_text: "3",
+    doc: "separation between the signal layers divided by the larger distance from either layer to its own plane, below which the rule fires",
+}];
 
 impl Rule for BroadsideSignalLayers {
     fn meta(&self) -> &'static RuleMeta {
@@ -23,7 +32,7 @@ impl Rule for BroadsideSignalLayers {
 
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
-        let ratio_limit = cx.option_fraction("min-separation-ratio", 3.0);
+        let ratio_limit = cx.option(&OPTIONS[0]);
         let copper = s.copper_indices();
         let mut out = Vec::new();
         for w in copper.windows(2) {

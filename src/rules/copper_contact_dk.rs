@@ -6,8 +6,9 @@ use crate::analysis::section::FaceRoughness;
 use crate::analysis::{dielectric_contact, DielectricContact};
 use crate::finding::{key_step, Finding, Severity};
 use crate::model::{DielectricKind, MeasurementMethod};
+use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
-use crate::units::{fmt_frequency, fmt_length};
+use crate::units::{fmt_frequency, fmt_length, Dimension};
 
 pub struct CopperContactDkMismatch;
 
@@ -17,7 +18,7 @@ static META: RuleMeta = RuleMeta {
         "a dielectric or net class uses a Dk that ignores the copper roughness its faces touch",
     default_severity: Severity::Warning,
     doc: include_str!("../../rules/copper-contact-dk-mismatch.md"),
-    options: &["margin", "assumed-dk-margin"],
+    options: &OPTIONS,
 };
 
 fn range(lo: f64, hi: f64) -> String {
@@ -28,6 +29,23 @@ fn range(lo: f64, hi: f64) -> String {
     }
 }
 
+static OPTIONS: [OptionSpec; 2] = [
+    OptionSpec {
+        key: "margin",
+        kind: OptionKind::Quantity(Dimension::Fraction),
+        default: 0.05,
+        default_text: "0.05",
+        doc: "how far the apparent Dk may exceed the Dk a ply is modelled with",
+    },
+    OptionSpec {
+        key: "assumed-dk-margin",
+        kind: OptionKind::Quantity(Dimension::Fraction),
+        default: 0.05,
+        default_text: "0.05",
+        doc: "how far a class's `assumed-dk` may lie outside its line's apparent-Dk range",
+    },
+];
+
 impl Rule for CopperContactDkMismatch {
     fn meta(&self) -> &'static RuleMeta {
         &META
@@ -36,9 +54,8 @@ impl Rule for CopperContactDkMismatch {
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
         let a = cx.analysis;
-        let margin = cx.option_quantity("margin", crate::units::Dimension::Fraction, 0.05);
-        let class_margin =
-            cx.option_quantity("assumed-dk-margin", crate::units::Dimension::Fraction, 0.05);
+        let margin = cx.option(&OPTIONS[0]);
+        let class_margin = cx.option(&OPTIONS[1]);
         let mut out = Vec::new();
         let global_f = a
             .classes

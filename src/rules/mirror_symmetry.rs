@@ -3,6 +3,7 @@
 
 use crate::finding::{Finding, Severity};
 use crate::model::LayerKind;
+use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::fmt_length;
 
@@ -14,8 +15,25 @@ static META: RuleMeta = RuleMeta {
         "the stackup is not mirror-symmetric about its centre in copper or dielectric (warp risk)",
     default_severity: Severity::Warning,
     doc: include_str!("../../rules/stackup-mirror-asymmetry.md"),
-    options: &["thickness-tolerance", "fill-tolerance"],
+    options: &OPTIONS,
 };
+
+static OPTIONS: [OptionSpec; 2] = [
+    OptionSpec {
+        key: "thickness-tolerance",
+        kind: OptionKind::Ratio { max: 10.0 },
+        default: 0.10,
+        default_text: "10 %",
+        doc: "relative difference in copper or dielectric thickness tolerated between mirror layers",
+    },
+    OptionSpec {
+        key: "fill-tolerance",
+        kind: OptionKind::Ratio { max: 10.0 },
+        default: 0.30,
+        default_text: "30 %",
+        doc: "absolute difference in copper fill tolerated between mirror copper layers, when both give `fill`",
+    },
+];
 
 impl Rule for StackupMirrorAsymmetry {
     fn meta(&self) -> &'static RuleMeta {
@@ -24,8 +42,8 @@ impl Rule for StackupMirrorAsymmetry {
 
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
-        let tol = cx.option_fraction("thickness-tolerance", 0.10);
-        let fill_tol = cx.option_fraction("fill-tolerance", 0.30);
+        let tol = cx.option(&OPTIONS[0]);
+        let fill_tol = cx.option(&OPTIONS[1]);
         let n = s.layers.len();
         let mut out = Vec::new();
         for i in 0..n / 2 {

@@ -15,15 +15,10 @@ mod propagation_skew;
 mod reference_plane;
 mod roughness_drift;
 
-use std::cell::RefCell;
-use std::collections::BTreeSet;
-
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
-use crate::input::yaml::Value;
-use crate::model::{Level, Stackup};
+use crate::model::{Level, OptionSpec, RuleSpec, Stackup};
 use crate::source::{Location, SourceDb};
-use crate::units::{self, Dimension};
 
 /// What a rule is, for `rules`, `explain` and SARIF metadata.
 #[derive(Debug)]
@@ -35,8 +30,9 @@ pub struct RuleMeta {
     pub default_severity: Severity,
     /// The rule page (rules/<name>.md), one copy.
     pub doc: &'static str,
-    /// Option keys accepted under `settings.rules.<name>`.
-    pub options: &'static [&'static str],
+    /// Options accepted under `settings.rules.<name>` (besides `severity`),
+    /// with their defaults: checked and parsed by the model stage.
+    pub options: &'static [OptionSpec],
 }
 
 /// A lint rule.
@@ -52,7 +48,6 @@ pub struct RuleContext<'a> {
     pub analysis: &'a Analysis,
     pub db: &'a SourceDb,
     rule: &'static str,
-    option_errors: RefCell<Vec<Finding>>,
 }
 
 impl<'a> RuleContext<'a> {
@@ -76,85 +71,14 @@ impl<'a> RuleContext<'a> {
         self.db.locate(file, pointer)
     }
 
-    fn option_node(&self, key: &str) -> Option<(String, &'a Value)> {
-        let ptr = self
-            .stackup
+    /// The value of one of this rule's options: as the file gives it in
+    /// `settings.rules` (checked by the model stage), else its default.
+    pub fn option(&self, spec: &OptionSpec) -> f64 {
+        self.stackup
             .settings
             .rules
-            .get(self.rule)?
-            .options
-            .get(key)?
-            .clone();
-        let node = self
-            .db
-            .get(self.stackup.file)
-            .tree
-            .as_ref()?
-            .pointer(&ptr)?;
-        Some((ptr, &node.value))
-    }
-
-    fn option_error(&self, ptr: &str, msg: String) {
-        let f = Finding::new(INVALID_INPUT, self.at(ptr), msg).label("invalid option value");
-        self.option_errors.borrow_mut().push(f);
-    }
-
-    /// A fraction option (bare 0..1 or "10 %").
-    pub fn option_fraction(&self, key: &str, default: f64) -> f64 {
-        let Some((ptr, v)) = self.option_node(key) else {
-            return default;
-        };
-        let parsed = match v {
-            Value::Number(n) => units::bare_number(*n, Dimension::Fraction),
-            Value::String(s) => units::parse_quantity(s, Dimension::Fraction),
-            _ => Err(units::UnitError::Empty),
-        };
-        match parsed {
-            Ok(x) if (0.0..=10.0).contains(&x) => x,
-            Ok(x) => {
-                self.option_error(
-                    &ptr,
-                    format!(
-                        "option `{key}` of `{}` must be a fraction, got {x}",
-                        self.rule
-                    ),
-                );
-                default
-            }
-            Err(e) => {
-                self.option_error(&ptr, format!("option `{key}` of `{}`: {e}", self.rule));
-                default
-            }
-        }
-    }
-
-    /// A quantity option with a unit.
-    pub fn option_quantity(&self, key: &str, dim: Dimension, default: f64) -> f64 {
-        let Some((ptr, v)) = self.option_node(key) else {
-            return default;
-        };
-        let parsed = match v {
-            Value::Number(n) => units::bare_number(*n, dim),
-            Value::String(s) => units::parse_quantity(s, dim),
-            _ => Err(units::UnitError::Empty),
-        };
-        match parsed {
-            Ok(x) if x >= 0.0 => x,
-            Ok(x) => {
-                self.option_error(
-                    &ptr,
-                    format!(
-                        "option `{key}` of `{}` must not be negative, got {x}",
-                        self.rule
-                    ),
-                );
-                default
-            }
-            Err(e) => {
-                self.option_error(&ptr, format!("option `{key}` of `{}`: {e}", self.rule));
-                default
-            }
-        }
+            .get(self.rule)
+            .map_or(spec.default, |r| r.value(spec))
     }
 }
 
@@ -239,6 +163,18 @@ pub fn all_meta() -> Vec<&'static RuleMeta> {
     v
 }
 
+/// Every rule as the model stage checks settings against (pseudo-rules
+/// included: they take a severity and may be suppressed).
+pub fn specs() -> Vec<RuleSpec> {
+    all_meta()
+        .iter()
+        .map(|m| RuleSpec {
+            name: m.name,
+            options: m.options,
+        })
+        .collect()
+}
+
 pub fn find_meta(name: &str) -> Option<&'static RuleMeta> {
     all_meta().into_iter().find(|m| m.name == name)
 }
@@ -247,55 +183,6 @@ pub fn find_meta(name: &str) -> Option<&'static RuleMeta> {
 /// severities, suppressed ones marked (not dropped).
 pub fn run(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding> {
     let mut out = Vec::new();
-    let known: BTreeSet<&str> = all_meta().iter().map(|m| m.name).collect();
-    // Settings that name unknown rules or options are input errors.
-    for (name, rs) in &stackup.settings.rules {
-        match find_meta(name) {
-            None => out.push(
-                Finding::new(
-                    INVALID_INPUT,
-                    db.locate_key(stackup.file, &rs.pointer),
-                    format!("there is no rule named `{name}`"),
-                )
-                .label("unknown rule")
-                .with_help(format!(
-                    "rules: {}",
-                    known.iter().copied().collect::<Vec<_>>().join(", ")
-                )),
-            ),
-            Some(meta) => {
-                for (key, ptr) in &rs.options {
-                    if !meta.options.contains(&key.as_str()) {
-                        out.push(
-                            Finding::new(
-                                INVALID_INPUT,
-                                db.locate_key(stackup.file, ptr),
-                                format!("rule `{name}` has no option `{key}`"),
-                            )
-                            .label("unknown option")
-                            .with_help(if meta.options.is_empty() {
-                                "this rule takes only `severity`".to_string()
-                            } else {
-                                format!("options: severity, {}", meta.options.join(", "))
-                            }),
-                        );
-                    }
-                }
-            }
-        }
-    }
-    for s in &stackup.settings.suppressions {
-        if !known.contains(s.rule.as_str()) {
-            out.push(
-                Finding::new(
-                    INVALID_INPUT,
-                    db.locate(stackup.file, &format!("{}/rule", s.pointer)),
-                    format!("suppression names `{}`, which is not a rule", s.rule),
-                )
-                .label("unknown rule"),
-            );
-        }
-    }
     let level = stackup
         .settings
         .rules
@@ -319,10 +206,8 @@ pub fn run(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding
             analysis,
             db,
             rule: meta.name,
-            option_errors: RefCell::new(Vec::new()),
         };
         let mut found = rule.check(&cx);
-        out.extend(cx.option_errors.into_inner());
         for f in &mut found {
             f.rule = meta.name;
             if configured.is_some() || !f.severity_chosen {

@@ -4,6 +4,7 @@
 
 use crate::analysis::delay::{class_delay, net_delay, segment_class};
 use crate::finding::{key_step, Finding, Severity};
+use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::{fmt_length, Dimension};
 
@@ -14,8 +15,26 @@ static META: RuleMeta = RuleMeta {
     summary: "mode skew of a stripline pair in unequal dielectrics, or a matched group whose delays spread beyond its skew budget",
     default_severity: Severity::Warning,
     doc: include_str!("../../rules/propagation-skew.md"),
-    options: &["max-mode-skew", "coupled-length"],
+    options: &OPTIONS,
 };
+
+static OPTIONS: [OptionSpec; 2] = [
+    OptionSpec {
+        key: "max-mode-skew",
+        kind: OptionKind::Quantity(Dimension::Time),
+        // Budget per millimetre of coupled length (common practice, no source).
+        default: 0.01e-12,
+        default_text: "0.01 ps per mm of coupled length",
+        doc: "mode-skew budget for (a)",
+    },
+    OptionSpec {
+        key: "coupled-length",
+        kind: OptionKind::Quantity(Dimension::Length),
+        default: 0.1,
+        default_text: "100 mm",
+        doc: "coupled length used to state the skew and crosstalk in (a)",
+    },
+];
 
 impl Rule for PropagationSkew {
     fn meta(&self) -> &'static RuleMeta {
@@ -26,8 +45,8 @@ impl Rule for PropagationSkew {
         let s = cx.stackup;
         let a = cx.analysis;
         // Budget per millimetre of coupled length (common practice, no source).
-        let max_skew = cx.option_quantity("max-mode-skew", Dimension::Time, 0.01e-12);
-        let coupled = cx.option_quantity("coupled-length", Dimension::Length, 0.1);
+        let max_skew = cx.option(&OPTIONS[0]);
+        let coupled = cx.option(&OPTIONS[1]);
         let mut out = Vec::new();
         // (a) Even/odd mode velocities of stripline pairs.
         for (nc, ca) in s.net_classes.iter().zip(&a.classes) {

@@ -2,6 +2,7 @@
 //! impedance and delay off what a smooth-copper model predicts.
 
 use crate::finding::{Finding, Severity};
+use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::{fmt_frequency, fmt_length, Dimension};
 
@@ -12,8 +13,16 @@ static META: RuleMeta = RuleMeta {
     summary: "copper roughness pushes a controlled line outside, or uses up much of, its impedance tolerance",
     default_severity: Severity::Error,
     doc: include_str!("../../rules/roughness-impedance-drift.md"),
-    options: &["budget-share"],
+    options: &OPTIONS,
 };
+
+static OPTIONS: [OptionSpec; 1] = [OptionSpec {
+    key: "budget-share",
+    kind: OptionKind::Quantity(Dimension::Fraction),
+    default: 0.5,
+    default_text: "50 %",
+    doc: "share of the tolerance that roughness may take from a smooth-copper design before the warning",
+}];
 
 impl Rule for RoughnessImpedanceDrift {
     fn meta(&self) -> &'static RuleMeta {
@@ -22,7 +31,7 @@ impl Rule for RoughnessImpedanceDrift {
 
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
-        let share = cx.option_quantity("budget-share", Dimension::Fraction, 0.5);
+        let share = cx.option(&OPTIONS[0]);
         let mut out = Vec::new();
         for (nc, ca) in s.net_classes.iter().zip(&cx.analysis.classes) {
             let Some(t) = nc.impedance else { continue };
