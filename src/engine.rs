@@ -189,7 +189,7 @@ pub fn load_paths(
             path: p.path.clone().unwrap_or_default(),
             display,
             text: String::new(),
-            tree: None,
+            spans: Default::default(),
         });
         loaded.problems.push(
             Finding::new(

@@ -9,10 +9,11 @@ use std::path::{Path, PathBuf};
 use crate::files::{self, Confinement, ReadError, Refusal};
 use crate::finding::{Finding, INVALID_INPUT};
 use crate::input::schema::{self, FileKind};
+use crate::input::yaml::Node;
 use crate::input::yaml::{self, YamlLimits};
 use crate::model::{self, LibraryData, RuleSpec, Stackup};
 use crate::pool::Pool;
-use crate::source::{FileId, Location, SourceDb, SourceFile};
+use crate::source::{FileId, Location, SourceDb, SourceFile, Spans};
 
 /// Budgets for reading input files.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -70,6 +71,8 @@ fn whole_file(file: FileId) -> Location {
 #[derive(Debug)]
 struct Prepared {
     file: SourceFile,
+    /// The YAML tree, when the file parsed.
+    tree: Option<Node>,
     problems: Vec<Finding>,
     /// The file parsed and passed the schema.
     ok: bool,
@@ -129,7 +132,7 @@ fn prepare(
         path: path.to_path_buf(),
         display,
         text: String::new(),
-        tree: None,
+        spans: Spans::default(),
     };
     let root = conf.root_of(path);
     let bytes = refuse(conf, path, &root).and_then(|canonical| {
@@ -174,6 +177,7 @@ fn prepare(
             at.span = bad_span;
             Prepared {
                 file,
+                tree: None,
                 problems: vec![Finding::new(INVALID_INPUT, at, msg)
                     .label("unreadable")
                     .with_help(help)],
@@ -272,12 +276,13 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
         ));
         return Prepared {
             file,
+            tree: None,
             problems: vec![problem],
             ok: false,
         };
     }
-    match parsed {
-        Ok(tree) => file.tree = Some(tree),
+    let tree = match parsed {
+        Ok(tree) => tree,
         Err(e) => {
             let problem = Finding::new(
                 INVALID_INPUT,
@@ -291,25 +296,33 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
             .label("YAML error here");
             return Prepared {
                 file,
+                tree: None,
                 problems: vec![problem],
                 ok: false,
             };
         }
-    }
-    // Validate as file 0 of a database of its own.
-    let mut alone = SourceDb { files: vec![file] };
-    let problems = schema::validate(&alone, 0, kind);
-    let file = alone.files.pop().expect("the file just put there");
+    };
+    // Findings in file 0 until the file is admitted.
+    let problems = schema::validate(
+        &schema::Doc {
+            text: &file.text,
+            tree: &tree,
+        },
+        kind,
+    );
+    file.spans = Spans::new(tree.spans());
     Prepared {
         file,
+        tree: Some(tree),
         ok: problems.is_empty(),
         problems,
     }
 }
 
 /// Add a prepared file to the database and its problems to the run;
-/// returns its id when it parsed and passed the schema.
-fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<FileId> {
+/// returns its id and its YAML tree when it parsed and passed the schema
+/// (the model is built from the tree; the database keeps only spans).
+fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node)> {
     let id = loaded.db.add(prepared.file);
     for mut f in prepared.problems {
         f.primary.file = id;
@@ -318,7 +331,7 @@ fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<FileId> {
         }
         loaded.problems.push(f);
     }
-    prepared.ok.then_some(id)
+    prepared.ok.then_some(id).zip(prepared.tree)
 }
 
 /// The built-in library of generic material classes (typical values, not
@@ -350,20 +363,16 @@ pub fn load(
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
     // Per stackup, in order: where its problems so far end, and the model
     // to build (its file and libraries).
-    let mut builds: Vec<(usize, FileId, Vec<LibraryData>)> = Vec::new();
+    let mut builds: Vec<(usize, FileId, Node, Vec<LibraryData>)> = Vec::new();
     for (path, prepared) in paths.iter().zip(prepared) {
-        let Some(id) = admit(&mut loaded, prepared) else {
+        let Some((id, tree)) = admit(&mut loaded, prepared) else {
             continue;
         };
         let root = conf.root_of(path);
         let mut libs = Vec::new();
         let mut libs_ok = true;
-        let lib_entries: Vec<(usize, String)> = loaded
-            .db
-            .get(id)
-            .tree
-            .as_ref()
-            .and_then(|t| t.get("libraries"))
+        let lib_entries: Vec<(usize, String)> = tree
+            .get("libraries")
             .and_then(|n| n.as_seq())
             .map(|items| {
                 items
@@ -431,7 +440,7 @@ pub fn load(
                         path: lib_path.clone(),
                         display: BUILTIN_GENERIC_NAME.to_string(),
                         text: BUILTIN_GENERIC.to_string(),
-                        tree: None,
+                        spans: Spans::default(),
                     };
                     admit(&mut loaded, prepare_text(file, limits, FileKind::Library))
                 } else {
@@ -440,8 +449,8 @@ pub fn load(
                         prepare(&lib_path, base, limits, FileKind::Library, conf),
                     )
                 };
-                let data = lid.and_then(|lid| {
-                    let (data, errors) = model::load_library(&loaded.db, lid);
+                let data = lid.and_then(|(lid, tree)| {
+                    let (data, errors) = model::load_library(&loaded.db, lid, &tree);
                     let ok = errors.is_empty();
                     loaded.problems.extend(errors);
                     ok.then_some(data)
@@ -456,17 +465,17 @@ pub fn load(
         if !libs_ok {
             continue;
         }
-        builds.push((loaded.problems.len(), id, libs));
+        builds.push((loaded.problems.len(), id, tree, libs));
     }
     let db = &loaded.db;
-    let built = pool.map(&builds, |(_, id, libs)| {
-        model::build_stackup(db, *id, libs, rules)
+    let built = pool.map(&builds, |(_, id, tree, libs)| {
+        model::build_stackup(db, *id, tree, libs, rules)
     });
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
     let mut earlier = std::mem::take(&mut loaded.problems).into_iter();
     let mut taken = 0;
-    for ((at, _, _), result) in builds.iter().zip(built) {
+    for ((at, _, _, _), result) in builds.iter().zip(built) {
         problems.extend(earlier.by_ref().take(at - taken));
         taken = *at;
         match result {
@@ -487,10 +496,10 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec
         path: PathBuf::from(name),
         display: name.to_string(),
         text: text.to_string(),
-        tree: None,
+        spans: Spans::default(),
     };
-    if let Some(id) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
-        match model::build_stackup(&loaded.db, id, &[], rules) {
+    if let Some((id, tree)) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
+        match model::build_stackup(&loaded.db, id, &tree, &[], rules) {
             Ok(s) => loaded.stackups.push(s),
             Err(errors) => loaded.problems.extend(errors),
         }

@@ -1,9 +1,10 @@
-//! Source files and locations (JSON pointer + byte span).
+//! Source files and locations (JSON pointer + byte span): every file a run
+//! read, with its text and an index from JSON pointer to the span of each
+//! node, so that findings, rules and outputs can place a pointer without the
+//! YAML tree (which stays with the input and model stages).
 
 use std::ops::Range;
 use std::path::PathBuf;
-
-use crate::input::yaml::Node;
 
 /// Index of a file in a [`SourceDb`].
 pub type FileId = usize;
@@ -17,7 +18,79 @@ pub struct SourceFile {
     /// working directory where possible, with forward slashes.
     pub display: String,
     pub text: String,
-    pub tree: Option<Node>,
+    /// Where each node of the file is (empty until the file is parsed).
+    pub spans: Spans,
+}
+
+/// The span of every node of a parsed file, by JSON pointer (RFC 6901):
+/// the shape of the YAML tree without its values.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Spans {
+    root: Option<SpanNode>,
+}
+
+/// One node: its span and its children.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SpanNode {
+    pub span: Range<usize>,
+    pub children: SpanChildren,
+}
+
+/// The children of a node: list items, or mapping entries with the span
+/// of their key.
+#[derive(Debug, Clone, PartialEq)]
+pub enum SpanChildren {
+    None,
+    Seq(Vec<SpanNode>),
+    Map(Vec<(String, Range<usize>, SpanNode)>),
+}
+
+/// One JSON-pointer token with `~1` and `~0` turned back into `/` and `~`
+/// (RFC 6901, in that order).
+fn unescape_token(raw: &str) -> std::borrow::Cow<'_, str> {
+    if raw.contains('~') {
+        std::borrow::Cow::Owned(raw.replace("~1", "/").replace("~0", "~"))
+    } else {
+        std::borrow::Cow::Borrowed(raw)
+    }
+}
+
+impl Spans {
+    pub fn new(root: SpanNode) -> Spans {
+        Spans { root: Some(root) }
+    }
+
+    /// The node at `pointer`.
+    pub fn node(&self, pointer: &str) -> Option<&SpanNode> {
+        let mut node = self.root.as_ref()?;
+        if pointer.is_empty() {
+            return Some(node);
+        }
+        for raw in pointer.strip_prefix('/')?.split('/') {
+            let token = unescape_token(raw);
+            node = match &node.children {
+                SpanChildren::Map(entries) => &entries.iter().find(|e| e.0 == token)?.2,
+                SpanChildren::Seq(items) => items.get(token.parse::<usize>().ok()?)?,
+                SpanChildren::None => return None,
+            };
+        }
+        Some(node)
+    }
+
+    /// The span of the key that introduces the node at `pointer`, if it is
+    /// a mapping value; otherwise the node's own span.
+    pub fn key_span(&self, pointer: &str) -> Option<Range<usize>> {
+        let Some((parent, last)) = pointer.rsplit_once('/') else {
+            return self.node(pointer).map(|n| n.span.clone());
+        };
+        let token = unescape_token(last);
+        match &self.node(parent)?.children {
+            SpanChildren::Map(entries) => {
+                entries.iter().find(|e| e.0 == token).map(|e| e.1.clone())
+            }
+            _ => self.node(pointer).map(|n| n.span.clone()),
+        }
+    }
 }
 
 /// All files of one run.
@@ -40,9 +113,8 @@ impl SourceDb {
     /// start when the pointer does not resolve).
     pub fn locate(&self, file: FileId, pointer: &str) -> Location {
         let span = self.files[file]
-            .tree
-            .as_ref()
-            .and_then(|t| t.pointer(pointer))
+            .spans
+            .node(pointer)
             .map_or(0..0, |n| n.span.clone());
         Location {
             file,
@@ -54,11 +126,7 @@ impl SourceDb {
     /// The location of the key introducing `pointer` (e.g. to point at a
     /// mapping entry whose value is missing or large).
     pub fn locate_key(&self, file: FileId, pointer: &str) -> Location {
-        let span = self.files[file]
-            .tree
-            .as_ref()
-            .and_then(|t| t.key_span(pointer))
-            .unwrap_or(0..0);
+        let span = self.files[file].spans.key_span(pointer).unwrap_or(0..0);
         Location {
             file,
             pointer: pointer.to_string(),

@@ -10,8 +10,8 @@ use jsonschema::error::ValidationErrorKind;
 use jsonschema::{Draft, Registry, ValidationError, Validator};
 
 use crate::finding::{Finding, INVALID_INPUT};
-use crate::input::yaml::Value;
-use crate::source::{escape_token, FileId, SourceDb};
+use crate::input::yaml::{Node, Value};
+use crate::source::{escape_token, Location};
 
 /// The stackup file schema (schema/stackup.schema.json).
 pub const STACKUP_SCHEMA: &str = include_str!("../../schema/stackup.schema.json");
@@ -57,17 +57,37 @@ fn validator(kind: FileKind) -> &'static Validator {
     })
 }
 
-/// Validate the parsed file `file` of `db`; returns findings at spans.
-pub fn validate(db: &SourceDb, file: FileId, kind: FileKind) -> Vec<Finding> {
-    let Some(tree) = db.get(file).tree.as_ref() else {
-        return Vec::new();
-    };
-    let instance = tree.to_json();
+/// A parsed file as the schema check reads it: its text and tree.
+pub struct Doc<'a> {
+    pub text: &'a str,
+    pub tree: &'a Node,
+}
+
+impl Doc<'_> {
+    /// The location of the node at `pointer` (or of the key that
+    /// introduces it), in file 0: the caller gives the file its id.
+    fn locate(&self, pointer: &str, key: bool) -> Location {
+        let span = if key {
+            self.tree.key_span(pointer)
+        } else {
+            self.tree.pointer(pointer).map(|n| n.span.clone())
+        };
+        Location {
+            file: 0,
+            pointer: pointer.to_string(),
+            span: span.unwrap_or(0..0),
+        }
+    }
+}
+
+/// Validate a parsed file; returns findings at spans (in file 0).
+pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
+    let instance = doc.tree.to_json();
     let mut out: Vec<Finding> = Vec::new();
     // A hostile file can hold 100 000 unknown keys; a person reads the
     // first few, so stop early instead of spending minutes on messages.
     for err in validator(kind).iter_errors(&instance).take(MAX_FINDINGS) {
-        explain(db, file, &err, &mut out);
+        explain(doc, &err, &mut out);
     }
     out.truncate(MAX_FINDINGS);
     // A misspelt key also leaves a required key missing; the unknown-key
@@ -125,19 +145,14 @@ fn suggest<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
 }
 
 fn finding(
-    db: &SourceDb,
-    file: FileId,
+    doc: &Doc<'_>,
     pointer: &str,
     key: bool,
     message: String,
     label: &str,
     help: Option<String>,
 ) -> Finding {
-    let loc = if key {
-        db.locate_key(file, pointer)
-    } else {
-        db.locate(file, pointer)
-    };
+    let loc = doc.locate(pointer, key);
     let mut f = Finding::new(INVALID_INPUT, loc, message).label(label);
     f.help = help;
     f
@@ -156,7 +171,7 @@ fn describe_json(v: &serde_json::Value) -> String {
 
 /// Name of the node at `pointer`, for messages: the last key, or for a
 /// list entry its `name` (or its 1-based position) and the list it is in.
-fn field_name(db: &SourceDb, file: FileId, pointer: &str) -> String {
+fn field_name(doc: &Doc<'_>, pointer: &str) -> String {
     let unescape = |t: &str| t.replace("~1", "/").replace("~0", "~");
     let (parent, last) = pointer.rsplit_once('/').unwrap_or(("", pointer));
     if last.is_empty() {
@@ -166,11 +181,9 @@ fn field_name(db: &SourceDb, file: FileId, pointer: &str) -> String {
         return format!("`{}`", unescape(last));
     }
     let list = parent.rsplit('/').next().map(unescape).unwrap_or_default();
-    let name = db
-        .get(file)
+    let name = doc
         .tree
-        .as_ref()
-        .and_then(|t| t.pointer(pointer))
+        .pointer(pointer)
         .and_then(|n| n.get("name"))
         .and_then(|n| n.as_str().map(str::to_string));
     let position = last.parse::<usize>().map_or(0, |i| i + 1);
@@ -182,26 +195,24 @@ fn field_name(db: &SourceDb, file: FileId, pointer: &str) -> String {
 
 /// The YAML source text of a number that is not finite (`.nan`, `.inf`),
 /// which JSON cannot carry (it reaches the schema as null).
-fn non_finite_text(db: &SourceDb, file: FileId, pointer: &str) -> Option<String> {
-    let f = db.get(file);
-    let node = f.tree.as_ref()?.pointer(pointer)?;
+fn non_finite_text(doc: &Doc<'_>, pointer: &str) -> Option<String> {
+    let node = doc.tree.pointer(pointer)?;
     match node.value {
-        Value::Number(n) if !n.is_finite() => f.text.get(node.span.clone()).map(str::to_string),
+        Value::Number(n) if !n.is_finite() => doc.text.get(node.span.clone()).map(str::to_string),
         _ => None,
     }
 }
 
-fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
+fn explain(doc: &Doc<'_>, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
     let ptr = err.instance_path().as_str().to_string();
     let schema_path = err.schema_path().as_str().to_string();
-    let what = field_name(db, file, &ptr);
+    let what = field_name(doc, &ptr);
     let instance = err.instance();
     match err.kind() {
         ValidationErrorKind::Required { property } => {
             let name = property.as_str().unwrap_or("?");
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 ptr.rsplit('/')
                     .next()
@@ -224,8 +235,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                     None => allowed.as_ref().map(|a| format!("allowed keys here: {a}")),
                 };
                 out.push(finding(
-                    db,
-                    file,
+                    doc,
                     &kp,
                     true,
                     format!("unknown key `{key}` in {what}"),
@@ -236,8 +246,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
         }
         ValidationErrorKind::Type { .. } if ptr.is_empty() && instance.is_null() => {
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 false,
                 "the file is empty: it holds no YAML content".into(),
@@ -245,11 +254,10 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                 Some("a stackup starts with `stackup-lint: 1` and lists its `layers:`".into()),
             ));
         }
-        ValidationErrorKind::Type { .. } if non_finite_text(db, file, &ptr).is_some() => {
-            let text = non_finite_text(db, file, &ptr).unwrap_or_default();
+        ValidationErrorKind::Type { .. } if non_finite_text(doc, &ptr).is_some() => {
+            let text = non_finite_text(doc, &ptr).unwrap_or_default();
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 false,
                 format!("{what} is `{text}`, which is not a finite number"),
@@ -261,8 +269,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
             if instance.is_number() && quantity_help(&schema_path).is_some() =>
         {
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 false,
                 format!(
@@ -274,8 +281,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
         }
         ValidationErrorKind::Type { kind } => {
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 false,
                 format!(
@@ -297,8 +303,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                 })
                 .unwrap_or_default();
             out.push(finding(
-                db,
-                file,
+                doc,
                 &ptr,
                 false,
                 format!(
@@ -311,8 +316,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
             ));
         }
         ValidationErrorKind::Constant { expected_value } => out.push(finding(
-            db,
-            file,
+            doc,
             &ptr,
             false,
             format!(
@@ -325,8 +329,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
             )),
         )),
         ValidationErrorKind::Pattern { .. } => out.push(finding(
-            db,
-            file,
+            doc,
             &ptr,
             false,
             format!(
@@ -338,8 +341,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                 .or_else(|| Some("write e.g. \"0.1 mm\", \"4 mil\", \"28 GHz\", \"5 ps\"".into())),
         )),
         ValidationErrorKind::MinItems { limit } => out.push(finding(
-            db,
-            file,
+            doc,
             &ptr,
             false,
             format!(
@@ -350,8 +352,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
             None,
         )),
         ValidationErrorKind::MinLength { .. } => out.push(finding(
-            db,
-            file,
+            doc,
             &ptr,
             false,
             format!("{what} must not be empty"),
@@ -372,18 +373,17 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
                 .min_by_key(|b| b.len());
             if let Some(branch) = deeper {
                 for e in branch {
-                    explain(db, file, e, out);
+                    explain(doc, e, out);
                 }
             } else {
-                out.push(one_of_message(db, file, &ptr, &schema_path, &what));
+                out.push(one_of_message(doc, &ptr, &schema_path, &what));
             }
         }
         ValidationErrorKind::OneOfMultipleValid { .. } | ValidationErrorKind::Not { .. } => {
-            out.push(one_of_message(db, file, &ptr, &schema_path, &what));
+            out.push(one_of_message(doc, &ptr, &schema_path, &what));
         }
         _ => out.push(finding(
-            db,
-            file,
+            doc,
             &ptr,
             false,
             format!("{what}: {err}"),
@@ -393,13 +393,7 @@ fn explain(db: &SourceDb, file: FileId, err: &ValidationError<'_>, out: &mut Vec
     }
 }
 
-fn one_of_message(
-    db: &SourceDb,
-    file: FileId,
-    ptr: &str,
-    schema_path: &str,
-    what: &str,
-) -> Finding {
+fn one_of_message(doc: &Doc<'_>, ptr: &str, schema_path: &str, what: &str) -> Finding {
     let (msg, help) = if schema_path.contains("/layer/")
         || schema_path.starts_with("/properties/layers")
     {
@@ -419,8 +413,7 @@ fn one_of_message(
         )
     };
     finding(
-        db,
-        file,
+        doc,
         ptr,
         false,
         msg,

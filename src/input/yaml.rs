@@ -11,6 +11,8 @@ use std::ops::Range;
 
 use saphyr_parser::{Event, Parser, ScalarStyle, Span};
 
+use crate::source::{SpanChildren, SpanNode};
+
 /// Input budgets enforced while reading YAML.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub struct YamlLimits {
@@ -114,6 +116,25 @@ impl Node {
                 .find(|e| e.key == token)
                 .map(|e| e.key_span.clone()),
             _ => self.pointer(pointer).map(|n| n.span.clone()),
+        }
+    }
+
+    /// The spans of this node and all below it, by pointer (the tree's
+    /// shape without its values), for the run's source database.
+    pub fn spans(&self) -> SpanNode {
+        let children = match &self.value {
+            Value::Seq(items) => SpanChildren::Seq(items.iter().map(Node::spans).collect()),
+            Value::Map(entries) => SpanChildren::Map(
+                entries
+                    .iter()
+                    .map(|e| (e.key.clone(), e.key_span.clone(), e.value.spans()))
+                    .collect(),
+            ),
+            _ => SpanChildren::None,
+        };
+        SpanNode {
+            span: self.span.clone(),
+            children,
         }
     }
 

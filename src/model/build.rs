@@ -16,6 +16,7 @@ use super::reader::Reader;
 use super::settings::read_settings;
 use super::*;
 use crate::finding::Finding;
+use crate::input::yaml::Node;
 use crate::source::SourceDb;
 
 /// Factor from the Nyquist frequency to the highest frequency a class must
@@ -29,10 +30,11 @@ pub const HARMONIC_FACTOR: f64 = stackup_physics::loss::DEFAULT_HARMONIC_FACTOR;
 pub fn build_stackup(
     db: &SourceDb,
     file: FileId,
+    tree: &Node,
     libraries: &[LibraryData],
     rules: &[RuleSpec],
 ) -> Result<Stackup, Vec<Finding>> {
-    let Some(mut r) = Reader::new(db, file) else {
+    let Some(mut r) = Reader::new(db, file, tree) else {
         return Err(Vec::new());
     };
     let own = read_materials_and_foils(&mut r);

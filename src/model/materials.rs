@@ -508,8 +508,8 @@ pub(super) fn read_roughness(r: &mut Reader<'_>, ptr: &str, required: bool) -> O
 }
 
 /// Read a library file (already parsed and schema-checked).
-pub fn load_library(db: &SourceDb, file: FileId) -> (LibraryData, Vec<Finding>) {
-    let Some(mut r) = Reader::new(db, file) else {
+pub fn load_library(db: &SourceDb, file: FileId, tree: &Node) -> (LibraryData, Vec<Finding>) {
+    let Some(mut r) = Reader::new(db, file, tree) else {
         return (LibraryData::default(), Vec::new());
     };
     let data = read_materials_and_foils(&mut r);

@@ -23,8 +23,7 @@ pub(super) struct Reader<'a> {
 }
 
 impl<'a> Reader<'a> {
-    pub(super) fn new(db: &'a SourceDb, file: FileId) -> Option<Self> {
-        let root = db.get(file).tree.as_ref()?;
+    pub(super) fn new(db: &'a SourceDb, file: FileId, root: &'a Node) -> Option<Self> {
         Some(Reader {
             db,
             file,
