@@ -1,7 +1,8 @@
 //! The four core rules and the analysis behind them, checked against values
 //! from outside the project. Each check names its source.
 
-use stackup_lint::analysis::{analyze, dielectric_contact};
+use stackup_lint::analysis::analyze;
+use stackup_lint::analysis::dielectrics::dielectric_contact;
 use stackup_lint::engine;
 use stackup_lint::engine::load_text;
 use stackup_lint::finding::Finding;
@@ -379,5 +380,103 @@ net-classes:
         f[0].message.contains("could not be computed") && f[0].message.contains("smallest feature"),
         "{}",
         f[0].message
+    );
+}
+
+/// The report's dielectric table, the `impedance` rows and the findings of
+/// `copper-contact-dk-mismatch` show, for every ply of the demo boards,
+/// the one apparent Dk and frequency the analysis computed (they once used
+/// different fallback frequencies).
+#[test]
+fn report_and_rule_show_the_same_apparent_dk_for_every_ply() {
+    use stackup_lint::engine::{check_paths_analysed, CheckOptions};
+    use stackup_lint::output::impedance::{dielectric_rows, ghz};
+    use stackup_lint::output::report::{document, Block, ReportOptions};
+    let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+    let mut compared = 0;
+    for board in [
+        "examples/line-card-10l/board.stackup.yaml",
+        "examples/radar-sensor-6l/board.stackup.yaml",
+    ] {
+        let (outcome, kept) =
+            check_paths_analysed(&[root.join(board)], root, &CheckOptions::default()).unwrap();
+        let (s, a) = &kept[0];
+        assert!(!a.plies.is_empty());
+        // The rows every output prints are the analysis's plies.
+        let rows = dielectric_rows(s, a);
+        assert_eq!(rows.len(), a.plies.len());
+        for (r, p) in rows.iter().zip(&a.plies) {
+            assert_eq!(r.layer, p.layer);
+            assert_eq!(r.frequency.to_bits(), p.frequency.to_bits());
+            assert_eq!(
+                r.contact.apparent_worst.to_bits(),
+                p.contact.apparent_worst.to_bits()
+            );
+            assert_eq!(
+                r.contact.apparent_best.to_bits(),
+                p.contact.apparent_best.to_bits()
+            );
+        }
+        // The report's table, cell by cell.
+        let doc = document(
+            board,
+            s,
+            a,
+            &outcome.findings,
+            &outcome.db,
+            &ReportOptions::default(),
+        );
+        let table = doc
+            .sections
+            .iter()
+            .flat_map(|sec| &sec.blocks)
+            .find_map(|b| match b {
+                Block::Table(t) if t.header.contains(&"apparent Dk") && t.header[0] == "layer" => {
+                    Some(t)
+                }
+                _ => None,
+            })
+            .expect("the dielectric table");
+        let col = |name: &str| table.header.iter().position(|h| *h == name).unwrap();
+        let (c_layer, c_f, c_app) = (col("layer"), col("f GHz"), col("apparent Dk"));
+        for p in &a.plies {
+            let name = &s.layers[p.layer].name;
+            let row = table.rows.iter().find(|r| &r[c_layer] == name).unwrap();
+            assert_eq!(row[c_f], ghz(p.frequency), "{board} {name}");
+            let c = &p.contact;
+            let want = if (c.apparent_worst - c.apparent_best).abs() < 0.005 {
+                format!("{:.2}", c.apparent_worst)
+            } else {
+                format!("{:.2}..{:.2}", c.apparent_best, c.apparent_worst)
+            };
+            assert_eq!(row[c_app], want, "{board} {name}");
+            // The rule's finding on this ply, if any, states the same
+            // apparent Dk at the same frequency.
+            for f in outcome.findings.iter().filter(|f| {
+                f.rule == "copper-contact-dk-mismatch"
+                    && f.message.contains(&format!("`{name}` ("))
+                    && f.message.contains("its apparent Dk at")
+            }) {
+                let stated = f.message.split("its apparent Dk at ").nth(1).unwrap();
+                let range = if (c.apparent_worst - c.apparent_best).abs() < 0.005 {
+                    format!("{:.2}", c.apparent_worst)
+                } else {
+                    format!("{:.2} to {:.2}", c.apparent_best, c.apparent_worst)
+                };
+                assert!(
+                    stated.starts_with(&format!(
+                        "{} is {range}",
+                        stackup_lint::units::fmt_frequency(p.frequency)
+                    )),
+                    "{board} {name}: {}",
+                    f.message
+                );
+                compared += 1;
+            }
+        }
+    }
+    assert!(
+        compared > 0,
+        "the flawed demo board fires the rule on some ply"
     );
 }

@@ -12,6 +12,8 @@
 
 pub mod cache;
 pub mod delay;
+pub mod dielectrics;
+pub mod limits;
 mod loss;
 pub mod materials;
 pub mod section;
@@ -25,7 +27,6 @@ use std::collections::{BTreeMap, HashMap};
 use stackup_physics::consts::C0;
 use stackup_physics::copper::SIGMA_ANNEALED_COPPER;
 use stackup_physics::fieldsolver::{CrossSection, SolvedLine};
-use stackup_physics::roughness::{RoughLayerModel, RoughSurface};
 
 use crate::model::Stackup;
 use materials::{DkAt, MaterialModel};
@@ -121,6 +122,11 @@ pub struct ClassAnalysis {
     /// Name of the model that produced the numbers.
     pub model: &'static str,
     pub notes: Vec<String>,
+    /// Where the structure stops being one quasi-TEM line (and the via
+    /// fence check), when the section was built.
+    pub limits: Option<limits::StructureLimits>,
+    /// Mode skew of a differential stripline.
+    pub mode_skew: Option<limits::ModeSkew>,
 }
 
 /// The analysis of one stackup: one entry per net class, same order.
@@ -128,6 +134,11 @@ pub struct ClassAnalysis {
 pub struct Analysis {
     pub classes: Vec<ClassAnalysis>,
     pub materials: BTreeMap<String, MaterialModel>,
+    /// Every dielectric ply but solder mask, with its copper contact and
+    /// apparent Dk (one frequency policy for rules and outputs).
+    pub plies: Vec<dielectrics::Ply>,
+    /// The delays of each matched group's nets, same order as the groups.
+    pub groups: Vec<delay::GroupDelays>,
 }
 
 /// The project's field-solver model name, as reported.
@@ -257,7 +268,10 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         let g = p.geometry;
         notes.extend(g.notes.iter().cloned());
         if let Some(why) = p.blocked {
-            classes.push(ClassAnalysis::unsolved(f, Ok(g), why, notes));
+            let limits = limits::structure_limits(nc, &g, None);
+            let mut ca = ClassAnalysis::unsolved(f, Ok(g), why, notes);
+            ca.limits = Some(limits);
+            classes.push(ca);
             continue;
         }
         let smooth = numbers(&p.family, p.smooth);
@@ -288,6 +302,8 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .as_ref()
             .ok()
             .map(|sm| loss::line_loss(&g, &dk, f, sm));
+        let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
+        let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);
         classes.push(ClassAnalysis {
             frequency: f,
             geometry: Ok(g),
@@ -301,10 +317,24 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             dk,
             model: FIELD_SOLVER,
             notes,
+            limits,
+            mode_skew,
         });
     }
     solver.settle();
-    Analysis { classes, materials }
+    let groups = s
+        .matched_groups
+        .iter()
+        .map(|g| delay::group_delays(s, &classes, g))
+        .collect();
+    let mut a = Analysis {
+        classes,
+        materials,
+        plies: Vec::new(),
+        groups,
+    };
+    a.plies = dielectrics::plies(s, &a);
+    a
 }
 
 impl ClassAnalysis {
@@ -328,6 +358,8 @@ impl ClassAnalysis {
             dk: BTreeMap::new(),
             model: FIELD_SOLVER,
             notes,
+            limits: None,
+            mode_skew: None,
         }
     }
 
@@ -369,62 +401,4 @@ impl ClassAnalysis {
         let worst = self.rough_worst.as_ref().map_or(bulk, app);
         Some((best.min(worst), best.max(worst)))
     }
-}
-
-/// A dielectric's copper contact: which of its faces touch copper and how
-/// rough, and the apparent Dk that follows.
-#[derive(Debug, Clone)]
-pub struct DielectricContact {
-    pub layer: usize,
-    pub bulk: DkAt,
-    /// Copper faces touching it: (copper layer, face pointer, roughness).
-    pub faces: Vec<(usize, Option<String>, FaceRoughness)>,
-    /// Faces that touch another dielectric (or the board surface).
-    pub dielectric_faces: usize,
-    pub apparent_best: f64,
-    pub apparent_worst: f64,
-    pub frequency: f64,
-}
-
-/// Copper contact and apparent Dk of dielectric layer `layer` at `f`, by the
-/// effective-roughness-layer model in its parallel-plate form
-/// (`RoughLayerModel::apparent_dk_parallel_plate`).
-pub fn dielectric_contact(
-    s: &Stackup,
-    a: &Analysis,
-    layer: usize,
-    f: f64,
-) -> Option<DielectricContact> {
-    let d = s.dielectric(layer)?;
-    let bulk = a.materials.get(&d.material)?.at(f);
-    let mut faces = Vec::new();
-    let mut dielectric_faces = 0;
-    let above = layer
-        .checked_sub(1)
-        .and_then(|j| s.copper(j).map(|c| (j, c.down.as_ref())));
-    let below = s.copper(layer + 1).map(|c| (layer + 1, c.up.as_ref()));
-    for side in [above, below] {
-        match side {
-            Some((j, face)) => {
-                faces.push((j, face.map(|f| f.pointer.clone()), FaceRoughness::of(face)))
-            }
-            None => dielectric_faces += 1,
-        }
-    }
-    let model = RoughLayerModel::default();
-    let app = |worst: bool| -> f64 {
-        let surfaces: Vec<RoughSurface> = faces.iter().map(|(_, _, r)| r.surface(worst)).collect();
-        model
-            .apparent_dk_parallel_plate(bulk.dk, d.thickness, &surfaces, f, SIGMA)
-            .unwrap_or(bulk.dk)
-    };
-    Some(DielectricContact {
-        layer,
-        bulk,
-        apparent_best: app(false),
-        apparent_worst: app(true),
-        faces,
-        dielectric_faces,
-        frequency: f,
-    })
 }

@@ -260,7 +260,7 @@ pub struct DielectricRow {
     /// Some line's field runs in this dielectric (else `frequency` is the
     /// highest of any line, for reference only).
     pub carries_lines: bool,
-    pub contact: crate::analysis::DielectricContact,
+    pub contact: crate::analysis::dielectrics::DielectricContact,
     /// Each copper face touching it, described ("L2 Rq 0.40 um").
     pub faces: Vec<String>,
 }
@@ -287,70 +287,42 @@ impl DielectricRow {
 }
 
 /// Per dielectric (solder mask left out): bulk Dk and the apparent Dk its
-/// copper contact gives, at the highest analysis frequency of the lines
-/// whose section includes it.
+/// copper contact gives, as the analysis has them (`Analysis::plies`: the
+/// same numbers the rules judge).
 pub fn dielectric_rows(s: &Stackup, a: &Analysis) -> Vec<DielectricRow> {
     use crate::analysis::section::FaceRoughness;
-    let f_all = a
-        .classes
+    a.plies
         .iter()
-        .map(|c| c.frequency)
-        .fold(0.0_f64, f64::max);
-    let mut rows = Vec::new();
-    for k in 0..s.layers.len() {
-        let Some(d) = s.dielectric(k) else { continue };
-        if d.kind == crate::model::DielectricKind::SolderMask {
-            continue;
-        }
-        let f = a
-            .classes
-            .iter()
-            .filter(|c| {
-                c.geometry
-                    .as_ref()
-                    .is_ok_and(|g| g.slabs.iter().any(|sl| sl.layer == k))
-            })
-            .map(|c| c.frequency)
-            .fold(0.0_f64, f64::max);
-        let carries_lines = f > 0.0;
-        let f = if f > 0.0 {
-            f
-        } else if f_all > 0.0 {
-            f_all
-        } else {
-            1e9
-        };
-        let Some(c) = crate::analysis::dielectric_contact(s, a, k, f) else {
-            continue;
-        };
-        let faces: Vec<String> = c
-            .faces
-            .iter()
-            .map(|(j, _, r)| {
-                let what = match r {
-                    FaceRoughness::Known(sf) => sf
-                        .rq()
-                        .map_or("?".into(), |rq| format!("Rq {:.2} um", rq * 1e6)),
-                    FaceRoughness::Unknown => "unknown".into(),
-                    FaceRoughness::NotDeclared => "no data".into(),
-                };
-                format!("{} {what}", s.layers[*j].name)
-            })
-            .collect();
-        let estimate = s
-            .materials
-            .get(&d.material)
-            .is_some_and(|m| m.estimate.is_some());
-        rows.push(DielectricRow {
-            layer: k,
-            frequency: f,
-            estimate,
-            carries_lines,
-            contact: c,
-            faces,
-        });
-    }
-    rows
+        .map(|ply| {
+            let c = &ply.contact;
+            let faces: Vec<String> = c
+                .faces
+                .iter()
+                .map(|(j, _, r)| {
+                    let what = match r {
+                        FaceRoughness::Known(sf) => sf
+                            .rq()
+                            .map_or("?".into(), |rq| format!("Rq {:.2} um", rq * 1e6)),
+                        FaceRoughness::Unknown => "unknown".into(),
+                        FaceRoughness::NotDeclared => "no data".into(),
+                    };
+                    format!("{} {what}", s.layers[*j].name)
+                })
+                .collect();
+            let estimate = s
+                .dielectric(ply.layer)
+                .and_then(|d| s.materials.get(&d.material))
+                .is_some_and(|m| m.estimate.is_some());
+            DielectricRow {
+                layer: ply.layer,
+                frequency: ply.frequency,
+                estimate,
+                carries_lines: ply.carries_lines(),
+                contact: c.clone(),
+                faces,
+            }
+        })
+        .collect()
 }
 
 /// `f` in GHz with at most three decimals, trailing zeros dropped.

@@ -2,10 +2,10 @@
 //! faces touch — rough copper raises the Dk a line really sees; a ply bonded
 //! between laminates keeps its bulk Dk.
 
+use crate::analysis::dielectrics::Ply;
 use crate::analysis::section::FaceRoughness;
-use crate::analysis::{dielectric_contact, DielectricContact};
 use crate::finding::{key_step, Finding, Severity};
-use crate::model::{DielectricKind, MeasurementMethod};
+use crate::model::MeasurementMethod;
 use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::{fmt_frequency, fmt_length, Dimension};
@@ -57,44 +57,11 @@ impl Rule for CopperContactDkMismatch {
         let margin = cx.option(&OPTIONS[0]);
         let class_margin = cx.option(&OPTIONS[1]);
         let mut out = Vec::new();
-        let global_f = a
-            .classes
-            .iter()
-            .map(|c| c.frequency)
-            .fold(0.0_f64, f64::max);
-        for (k, layer) in s.layers.iter().enumerate() {
+        for ply in &a.plies {
+            let k = ply.layer;
+            let layer = &s.layers[k];
             let Some(d) = s.dielectric(k) else { continue };
-            if d.kind == DielectricKind::SolderMask {
-                continue;
-            }
-            // Evaluate at the highest frequency of the lines that use this ply.
-            let users: Vec<usize> = a
-                .classes
-                .iter()
-                .enumerate()
-                .filter(|(_, c)| {
-                    c.geometry
-                        .as_ref()
-                        .is_ok_and(|g| g.slabs.iter().any(|sl| sl.layer == k))
-                })
-                .map(|(i, _)| i)
-                .collect();
-            let f = users
-                .iter()
-                .map(|&i| a.classes[i].frequency)
-                .fold(0.0_f64, f64::max);
-            let f = if f > 0.0 {
-                f
-            } else if global_f > 0.0 {
-                global_f
-            } else {
-                s.materials
-                    .get(&d.material)
-                    .map_or(1e9, |m| m.points[0].frequency)
-            };
-            let Some(c) = dielectric_contact(s, a, k, f) else {
-                continue;
-            };
+            let c = &ply.contact;
             let material = &s.materials[&d.material];
             let apparent_data = material.method == MeasurementMethod::TransmissionLine;
             let assigned = d.modelled_dk.unwrap_or(c.bulk.dk);
@@ -114,7 +81,7 @@ impl Rule for CopperContactDkMismatch {
             // Only plies that carry a controlled line's field matter here.
             // Transmission-line data already include their copper's roughness.
             let already_apparent = apparent_data && d.modelled_dk.is_none();
-            let carries_lines = !users.is_empty();
+            let carries_lines = ply.carries_lines();
             let touches_rough = !rough_faces.is_empty();
             if carries_lines
                 && touches_rough
@@ -123,12 +90,10 @@ impl Rule for CopperContactDkMismatch {
             {
                 out.push(rough_finding(
                     cx,
-                    k,
-                    &c,
+                    ply,
                     assigned,
                     d.modelled_dk.is_some(),
                     primary,
-                    &users,
                     margin,
                 ));
             } else if c.faces.is_empty()
@@ -207,17 +172,15 @@ impl Rule for CopperContactDkMismatch {
     }
 }
 
-#[allow(clippy::too_many_arguments)]
 fn rough_finding(
     cx: &RuleContext<'_>,
-    k: usize,
-    c: &DielectricContact,
+    ply: &Ply,
     assigned: f64,
     design: bool,
     primary: crate::source::Location,
-    users: &[usize],
     margin: f64,
 ) -> Finding {
+    let (k, c, users) = (ply.layer, &ply.contact, &ply.users);
     let s = cx.stackup;
     let a = cx.analysis;
     let d = s.dielectric(k).expect("dielectric layer");

@@ -3,8 +3,7 @@
 
 use std::collections::BTreeMap;
 
-use stackup_physics::modes::{self, PitchClass};
-
+use crate::analysis::limits::{PitchClass, ROUGHNESS_MODEL_MAX_F};
 use crate::finding::{Finding, Severity};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 use crate::units::{fmt_frequency, fmt_length};
@@ -18,10 +17,6 @@ static META: RuleMeta = RuleMeta {
     doc: include_str!("../../rules/frequency-beyond-validity.md"),
     options: &[],
 };
-
-/// Upper end of the frequency range the roughness layer model was
-/// calibrated over (see `stackup_physics::roughness::RoughLayerModel`).
-const ROUGHNESS_MODEL_MAX_F: f64 = 50e9;
 
 impl Rule for FrequencyBeyondValidity {
     fn meta(&self) -> &'static RuleMeta {
@@ -62,74 +57,26 @@ impl Rule for FrequencyBeyondValidity {
                 }
             }
             let class_at = cx.at(&format!("{}/name", nc.pointer));
+            let Some(limits) = &ca.limits else { continue };
             // The structure's own limits: first higher-order / surface-wave mode.
-            let eps_max = g.slabs.iter().map(|sl| sl.eps).fold(1.0_f64, f64::max);
-            let w = nc.width;
-            let mut limits: Vec<(f64, String)> = Vec::new();
-            if g.top_plane.is_some() {
-                let b = g.height();
-                if let Ok(fc) = modes::stripline_te_cutoff(w, b, eps_max) {
-                    limits.push((fc, "the TE-type mode across the strip (Wadell)".into()));
-                }
-                if let Ok(fc) = modes::parallel_plate_first_mode(b, eps_max) {
-                    limits.push((
-                        fc,
+            if let Some(m) = limits.mode.as_ref().filter(|m| fmax > m.frequency) {
+                out.push(
+                    Finding::new(
+                        META.name,
+                        class_at.clone(),
                         format!(
-                            "the first non-TEM parallel-plate mode of the {} plane spacing",
-                            fmt_length(b)
+                            "net class `{}` carries up to {} ({freq_src}), above {} at {}: the line is no longer a single quasi-TEM mode and its impedance and delay numbers do not hold",
+                            nc.name,
+                            fmt_frequency(fmax),
+                            m.what,
+                            fmt_frequency(m.frequency)
                         ),
-                    ));
-                }
-            } else {
-                let h = g.h_below();
-                let eps_sub = g.slabs[..g.trace_slot]
-                    .iter()
-                    .map(|sl| sl.eps)
-                    .fold(1.0_f64, f64::max);
-                if nc.structure == crate::model::Structure::CoplanarGrounded {
-                    if let Ok(fc) = modes::gcpw_te1_cutoff(h, eps_sub) {
-                        limits.push((
-                            fc,
-                            "the TE1 surface-wave mode of the grounded substrate".into(),
-                        ));
-                    }
-                } else {
-                    if let Ok(fc) = modes::microstrip_tm0_coupling(h, eps_sub) {
-                        limits.push((
-                            fc,
-                            "strong coupling to the TM0 surface wave (Vendelin)".into(),
-                        ));
-                    }
-                    if let Ok(fc) = modes::microstrip_transverse_resonance(w, h, eps_sub) {
-                        limits.push((fc, "the transverse resonance of the strip".into()));
-                    }
-                    if let Some(z) = ca.smooth.as_ref().ok().map(|n| n.z_odd.unwrap_or(n.z)) {
-                        if let Ok(fc) = modes::microstrip_first_higher_order(z, h) {
-                            limits.push((fc, "Hammerstad's first higher-order mode".into()));
-                        }
-                    }
-                }
-            }
-            if let Some((fc, what)) = limits.iter().min_by(|x, y| x.0.total_cmp(&y.0)) {
-                if fmax > *fc {
-                    out.push(
-                        Finding::new(
-                            META.name,
-                            class_at.clone(),
-                            format!(
-                                "net class `{}` carries up to {} ({freq_src}), above {} at {}: the line is no longer a single quasi-TEM mode and its impedance and delay numbers do not hold",
-                                nc.name,
-                                fmt_frequency(fmax),
-                                what,
-                                fmt_frequency(*fc)
-                            ),
-                        )
-                        .with_severity(Severity::Error)
-                        .label("structure not valid this high")
-                        .with_help("use a thinner dielectric or a narrower line (both raise the mode onset), or lower the frequency the class must carry")
-                        .key(format!("mode{:.0}", fc / 1e9)),
-                    );
-                }
+                    )
+                    .with_severity(Severity::Error)
+                    .label("structure not valid this high")
+                    .with_help("use a thinner dielectric or a narrower line (both raise the mode onset), or lower the frequency the class must carry")
+                    .key(format!("mode{:.0}", m.frequency / 1e9)),
+                );
             }
             // The roughness model's calibrated range.
             if fmax > ROUGHNESS_MODEL_MAX_F && !ca.roughness_undeclared {
@@ -151,32 +98,30 @@ impl Rule for FrequencyBeyondValidity {
                 );
             }
             // Via fence pitch against the guided wavelength.
-            if let Some(pitch) = nc.via_fence_pitch {
-                if let Ok(pc) = modes::via_pitch_check(pitch, fmax, eps_max) {
-                    if pc.class == PitchClass::TooWide {
-                        out.push(
-                            Finding::new(
-                                META.name,
-                                cx.at(&format!("{}/via-fence-pitch", nc.pointer)),
-                                format!(
-                                    "via-fence pitch {} of net class `{}` is wider than λg/8 = {} at {} (λg = {} in Dk {:.2}); the fence lets the parallel-plate and waveguide-like modes through",
-                                    fmt_length(pitch),
-                                    nc.name,
-                                    fmt_length(pc.loose_limit),
-                                    fmt_frequency(fmax),
-                                    fmt_length(pc.lambda_g),
-                                    eps_max
-                                ),
-                            )
-                            .label("pitch too wide")
-                            .with_help(format!(
-                                "stitch at {} or less (λg/8, common practice), {} or less for a strict fence (λg/20)",
+            if let (Some(pitch), Some(pc)) = (nc.via_fence_pitch, &limits.via_fence) {
+                if pc.class == PitchClass::TooWide {
+                    out.push(
+                        Finding::new(
+                            META.name,
+                            cx.at(&format!("{}/via-fence-pitch", nc.pointer)),
+                            format!(
+                                "via-fence pitch {} of net class `{}` is wider than λg/8 = {} at {} (λg = {} in Dk {:.2}); the fence lets the parallel-plate and waveguide-like modes through",
+                                fmt_length(pitch),
+                                nc.name,
                                 fmt_length(pc.loose_limit),
-                                fmt_length(pc.strict_limit)
-                            ))
-                            .key(format!("{:.0}", pitch * 1e6)),
-                        );
-                    }
+                                fmt_frequency(fmax),
+                                fmt_length(pc.lambda_g),
+                                limits.eps_max
+                            ),
+                        )
+                        .label("pitch too wide")
+                        .with_help(format!(
+                            "stitch at {} or less (λg/8, common practice), {} or less for a strict fence (λg/20)",
+                            fmt_length(pc.loose_limit),
+                            fmt_length(pc.strict_limit)
+                        ))
+                        .key(format!("{:.0}", pitch * 1e6)),
+                    );
                 }
             }
             // Launch validated frequency.

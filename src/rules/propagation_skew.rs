@@ -2,7 +2,6 @@
 //! striplines, and arrival-time spread of matched groups routed on layers of
 //! different effective Dk.
 
-use crate::analysis::delay::{class_delay, net_delay, segment_class};
 use crate::finding::{key_step, Finding, Severity};
 use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
@@ -50,28 +49,15 @@ impl Rule for PropagationSkew {
         let mut out = Vec::new();
         // (a) Even/odd mode velocities of stripline pairs.
         for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
-            if !nc.structure.is_stripline() || !nc.structure.is_differential() {
-                continue;
-            }
-            let Some(n) = ca.rough_worst.or(ca.smooth.as_ref().ok().copied()) else {
-                continue;
-            };
-            let (Some(ee), Some(eo)) = (n.eps_eff_even, n.eps_eff_odd) else {
-                continue;
-            };
-            let c0 = stackup_physics::consts::C0;
-            let skew_per_m = (ee.sqrt() - eo.sqrt()) / c0; // s/m, even minus odd
-            let per_mm = skew_per_m * 1e-3;
+            let Some(m) = ca.mode_skew else { continue };
+            let (ee, eo) = (m.eps_eff_even, m.eps_eff_odd);
+            let per_mm = m.per_metre * 1e-3;
             if per_mm.abs() <= max_skew {
                 continue;
             }
-            // Far-end crosstalk of the even/odd superposition for a step of
-            // rise time t_r >> skew: about -(1/2)(t_e - t_o)/t_r (Hall, Hall &
-            // McCall 2000, from memory), with t_r from the knee frequency
-            // f = 0.35/t_r (common practice).
-            let t_r = 0.35 / ca.frequency.max(1.0);
-            let skew_len = skew_per_m * coupled;
-            let fext = -0.5 * skew_len / t_r;
+            let t_r = m.rise_time;
+            let skew_len = m.per_metre * coupled;
+            let fext = m.fext_per_metre * coupled;
             let dielectrics: Vec<String> = ca
                 .geometry
                 .as_ref()
@@ -114,13 +100,13 @@ impl Rule for PropagationSkew {
             );
         }
         // (b) Matched groups: delay per net from its segments.
-        for g in &s.matched_groups {
+        for (g, gd) in s.matched_groups.iter().zip(&a.groups) {
             let mut delays: Vec<(usize, f64)> = Vec::new();
             let mut missing = Vec::new();
-            for (ni, net) in g.nets.iter().enumerate() {
-                match net_delay(s, a, net) {
-                    Ok(t) => delays.push((ni, t)),
-                    Err(m) => missing.extend(m),
+            for (ni, nd) in gd.nets.iter().enumerate() {
+                match &nd.delay {
+                    Ok(t) => delays.push((ni, *t)),
+                    Err(m) => missing.extend(m.iter().cloned()),
                 }
             }
             if !missing.is_empty() {
@@ -150,19 +136,14 @@ impl Rule for PropagationSkew {
             let slow_net = &g.nets[slow];
             let fast_net = &g.nets[fast];
             // Length change on the slow net's longest segment's layer.
-            let seg = slow_net
-                .segments
-                .iter()
-                .max_by(|x, y| x.length.total_cmp(&y.length));
-            let fix = seg.and_then(|seg| {
-                let d = class_delay(a, segment_class(s, seg)?)?;
-                Some(format!(
+            let fix = gd.nets[slow].longest.map(|(layer, d)| {
+                format!(
                     "shorten `{}` on `{}` by {} (or lengthen `{}` by the same delay)",
                     slow_net.name,
-                    s.layers[seg.layer_index].name,
+                    s.layers[layer].name,
                     fmt_length(spread / d),
                     fast_net.name
-                ))
+                )
             });
             let len = |n: &crate::model::Net| n.segments.iter().map(|x| x.length).sum::<f64>();
             out.push(

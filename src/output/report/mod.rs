@@ -14,7 +14,6 @@ mod svg;
 
 use std::fmt::Write as _;
 
-use crate::analysis::delay::net_delay;
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity};
 use crate::model::Stackup;
@@ -584,9 +583,8 @@ fn skew_section(s: &Stackup, a: &Analysis) -> Section {
         "budget ps",
         "status",
     ]);
-    for g in &s.matched_groups {
-        let delays: Vec<Result<f64, Vec<String>>> =
-            g.nets.iter().map(|n| net_delay(s, a, n)).collect();
+    for (g, gd) in s.matched_groups.iter().zip(&a.groups) {
+        let delays: Vec<&Result<f64, Vec<String>>> = gd.nets.iter().map(|n| &n.delay).collect();
         let known: Vec<f64> = delays
             .iter()
             .filter_map(|d| d.as_ref().ok().copied())
