@@ -47,7 +47,7 @@ pub enum SpanChildren {
 
 /// One JSON-pointer token with `~1` and `~0` turned back into `/` and `~`
 /// (RFC 6901, in that order).
-fn unescape_token(raw: &str) -> std::borrow::Cow<'_, str> {
+pub fn unescape_token(raw: &str) -> std::borrow::Cow<'_, str> {
     if raw.contains('~') {
         std::borrow::Cow::Owned(raw.replace("~1", "/").replace("~0", "~"))
     } else {

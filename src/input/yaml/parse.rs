@@ -1,196 +1,14 @@
-//! A positioned YAML tree built from `saphyr-parser` events.
-//!
-//! Every node keeps the byte span of its text so that any JSON pointer into
-//! the document can be mapped back to the exact place in the file. Aliases are
-//! expanded under a node budget (alias bombs are rejected) and nesting depth
-//! is bounded; both limits are configurable through [`YamlLimits`].
+//! Reading YAML events (`saphyr-parser`) into the positioned tree: byte
+//! spans for every node, aliases expanded under node and byte budgets,
+//! nesting bounded, duplicate keys refused, scalars resolved by the YAML
+//! 1.2 core schema, parser errors moved to where the fix belongs.
 
-use std::borrow::Cow;
 use std::collections::HashMap;
 use std::ops::Range;
 
 use saphyr_parser::{Event, Parser, ScalarStyle, Span};
 
-use crate::source::{SpanChildren, SpanNode};
-
-/// Input budgets enforced while reading YAML.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
-pub struct YamlLimits {
-    /// Deepest allowed nesting of mappings and sequences.
-    pub max_depth: usize,
-    /// Most nodes the document may expand to, aliases included.
-    pub max_nodes: usize,
-    /// Most bytes of scalar text (keys and values) the document may
-    /// expand to, aliases included: one long string aliased a thousand
-    /// times is refused before it is copied.
-    pub max_bytes: usize,
-}
-
-/// Default of [`YamlLimits::max_bytes`]: twice the default file-size limit.
-pub const DEFAULT_MAX_YAML_BYTES: usize = 8 * 1024 * 1024;
-
-impl Default for YamlLimits {
-    fn default() -> Self {
-        YamlLimits {
-            max_depth: 64,
-            max_nodes: 200_000,
-            max_bytes: DEFAULT_MAX_YAML_BYTES,
-        }
-    }
-}
-
-/// A YAML value with the byte span of its source text.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Node {
-    pub value: Value,
-    /// Byte range of the node in the file text.
-    pub span: Range<usize>,
-}
-
-/// One entry of a mapping: the key text, the key's span and the value.
-#[derive(Debug, Clone, PartialEq)]
-pub struct Entry {
-    pub key: String,
-    pub key_span: Range<usize>,
-    pub value: Node,
-}
-
-/// The value of a YAML node after YAML 1.2 core-schema scalar resolution.
-#[derive(Debug, Clone, PartialEq)]
-pub enum Value {
-    Null,
-    Bool(bool),
-    Number(f64),
-    String(String),
-    Seq(Vec<Node>),
-    Map(Vec<Entry>),
-}
-
-/// Why a YAML text could not be read.
-#[derive(Debug, Clone, PartialEq)]
-pub struct YamlError {
-    pub message: String,
-    pub span: Range<usize>,
-}
-
-/// One JSON-pointer token with `~1` and `~0` turned back into `/` and `~`
-/// (RFC 6901, in that order); borrowed when it has no `~`, as almost every
-/// token has (the model looks up thousands of pointers per file).
-fn unescape_token(raw: &str) -> Cow<'_, str> {
-    if raw.contains('~') {
-        Cow::Owned(raw.replace("~1", "/").replace("~0", "~"))
-    } else {
-        Cow::Borrowed(raw)
-    }
-}
-
-impl Node {
-    /// Look up a JSON pointer (RFC 6901), e.g. `/layers/3/thickness`.
-    pub fn pointer(&self, pointer: &str) -> Option<&Node> {
-        if pointer.is_empty() {
-            return Some(self);
-        }
-        let mut node = self;
-        for raw in pointer.strip_prefix('/')?.split('/') {
-            let token = unescape_token(raw);
-            node = match &node.value {
-                Value::Map(entries) => &entries.iter().find(|e| e.key == token)?.value,
-                Value::Seq(items) => items.get(token.parse::<usize>().ok()?)?,
-                _ => return None,
-            };
-        }
-        Some(node)
-    }
-
-    /// The span of the key that introduces the node at `pointer`, if the
-    /// node is a mapping value; otherwise the node's own span.
-    pub fn key_span(&self, pointer: &str) -> Option<Range<usize>> {
-        let (parent, last) = match pointer.rfind('/') {
-            Some(i) => (&pointer[..i], &pointer[i + 1..]),
-            None => return self.pointer(pointer).map(|n| n.span.clone()),
-        };
-        let token = unescape_token(last);
-        match &self.pointer(parent)?.value {
-            Value::Map(entries) => entries
-                .iter()
-                .find(|e| e.key == token)
-                .map(|e| e.key_span.clone()),
-            _ => self.pointer(pointer).map(|n| n.span.clone()),
-        }
-    }
-
-    /// The spans of this node and all below it, by pointer (the tree's
-    /// shape without its values), for the run's source database.
-    pub fn spans(&self) -> SpanNode {
-        let children = match &self.value {
-            Value::Seq(items) => SpanChildren::Seq(items.iter().map(Node::spans).collect()),
-            Value::Map(entries) => SpanChildren::Map(
-                entries
-                    .iter()
-                    .map(|e| (e.key.clone(), e.key_span.clone(), e.value.spans()))
-                    .collect(),
-            ),
-            _ => SpanChildren::None,
-        };
-        SpanNode {
-            span: self.span.clone(),
-            children,
-        }
-    }
-
-    /// Convert to a `serde_json::Value` for schema validation.
-    pub fn to_json(&self) -> serde_json::Value {
-        use serde_json::Value as J;
-        match &self.value {
-            Value::Null => J::Null,
-            Value::Bool(b) => J::Bool(*b),
-            Value::Number(n) => {
-                if n.fract() == 0.0 && n.abs() < 9.0e15 {
-                    J::from(*n as i64)
-                } else {
-                    serde_json::Number::from_f64(*n).map_or(J::Null, J::Number)
-                }
-            }
-            Value::String(s) => J::String(s.clone()),
-            Value::Seq(items) => J::Array(items.iter().map(Node::to_json).collect()),
-            Value::Map(entries) => J::Object(
-                entries
-                    .iter()
-                    .map(|e| (e.key.clone(), e.value.to_json()))
-                    .collect(),
-            ),
-        }
-    }
-
-    pub fn as_map(&self) -> Option<&[Entry]> {
-        match &self.value {
-            Value::Map(e) => Some(e),
-            _ => None,
-        }
-    }
-
-    pub fn as_seq(&self) -> Option<&[Node]> {
-        match &self.value {
-            Value::Seq(s) => Some(s),
-            _ => None,
-        }
-    }
-
-    pub fn as_str(&self) -> Option<&str> {
-        match &self.value {
-            Value::String(s) => Some(s),
-            _ => None,
-        }
-    }
-
-    /// Value of key `key` in a mapping.
-    pub fn get(&self, key: &str) -> Option<&Node> {
-        self.as_map()?
-            .iter()
-            .find(|e| e.key == key)
-            .map(|e| &e.value)
-    }
-}
+use super::{Entry, Node, Value, YamlError, YamlLimits};
 
 /// Maps saphyr's character indices to byte offsets.
 struct Offsets<'a> {
@@ -336,7 +154,7 @@ struct Builder<'o, 'a> {
 
 /// Mappings with more keys than this find duplicate keys through a hash
 /// map instead of a scan.
-const SMALL_MAP: usize = 16;
+pub(super) const SMALL_MAP: usize = 16;
 
 impl Builder<'_, '_> {
     fn count(&mut self, n: usize, span: &Range<usize>) -> Result<(), YamlError> {
@@ -603,7 +421,7 @@ impl Builder<'_, '_> {
     }
 }
 
-fn count_nodes(node: &Node) -> usize {
+pub(super) fn count_nodes(node: &Node) -> usize {
     match &node.value {
         Value::Seq(items) => 1 + items.iter().map(count_nodes).sum::<usize>(),
         Value::Map(entries) => {
@@ -617,7 +435,7 @@ fn count_nodes(node: &Node) -> usize {
 }
 
 /// Bytes of scalar text (keys and values) in `node`.
-fn count_bytes(node: &Node) -> usize {
+pub(super) fn count_bytes(node: &Node) -> usize {
     match &node.value {
         Value::String(s) => s.len(),
         Value::Seq(items) => items.iter().map(count_bytes).sum(),
@@ -629,7 +447,7 @@ fn count_bytes(node: &Node) -> usize {
     }
 }
 
-fn format_number(n: f64) -> String {
+pub(super) fn format_number(n: f64) -> String {
     if n.fract() == 0.0 && n.abs() < 9.0e15 {
         format!("{}", n as i64)
     } else {
@@ -638,7 +456,7 @@ fn format_number(n: f64) -> String {
 }
 
 /// YAML 1.2 core schema resolution of a plain scalar.
-fn resolve_scalar(text: &str, style: ScalarStyle, tagged: bool) -> Value {
+pub(super) fn resolve_scalar(text: &str, style: ScalarStyle, tagged: bool) -> Value {
     if !matches!(style, ScalarStyle::Plain) || tagged {
         return Value::String(text.to_string());
     }
@@ -674,189 +492,4 @@ fn resolve_scalar(text: &str, style: ScalarStyle, tagged: bool) -> Value {
         }
     }
     Value::String(text.to_string())
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-
-    fn p(t: &str) -> Result<Node, YamlError> {
-        parse(t, YamlLimits::default())
-    }
-
-    /// The example document and pointers of RFC 6901, section 5, plus
-    /// `~01` (a key `~1`: `~1` is undone before `~0`, RFC 6901 section 4).
-    #[test]
-    fn json_pointers_follow_rfc_6901() {
-        let t = r#"{"foo": ["bar", "baz"], "": 0, "a/b": 1, "c%d": 2, "e^f": 3, "g|h": 4, 'i\j': 5, 'k"l': 6, " ": 7, "m~n": 8, "~1": 9}"#;
-        let n = p(t).unwrap();
-        let num = |ptr: &str| match n.pointer(ptr).map(|x| &x.value) {
-            Some(Value::Number(v)) => Some(*v),
-            _ => None,
-        };
-        assert_eq!(n.pointer("").unwrap().span, n.span);
-        assert_eq!(n.pointer("/foo/0").unwrap().as_str(), Some("bar"));
-        for (ptr, want) in [
-            ("/", 0.0),
-            ("/a~1b", 1.0),
-            ("/c%d", 2.0),
-            ("/e^f", 3.0),
-            ("/g|h", 4.0),
-            ("/i\\j", 5.0),
-            ("/k\"l", 6.0),
-            ("/ ", 7.0),
-            ("/m~0n", 8.0),
-            ("/~01", 9.0),
-        ] {
-            assert_eq!(num(ptr), Some(want), "{ptr}");
-        }
-        assert_eq!(num("/a/b"), None);
-        // The key's own span, found through an escaped token.
-        let key = n.key_span("/a~1b").unwrap();
-        assert_eq!(&t[key], "\"a/b\"");
-    }
-
-    #[test]
-    fn spans_point_at_values() {
-        let t = "a:\n  b: 4 mil\n  c: [1, 2]\n";
-        let n = p(t).unwrap();
-        let b = n.pointer("/a/b").unwrap();
-        assert_eq!(&t[b.span.clone()], "4 mil");
-        let c1 = n.pointer("/a/c/1").unwrap();
-        assert_eq!(&t[c1.span.clone()], "2");
-        assert_eq!(&t[n.key_span("/a/b").unwrap()], "b");
-    }
-
-    #[test]
-    fn quoted_spans_include_quotes() {
-        let t = "a: \"4 mil\"\n";
-        let n = p(t).unwrap();
-        assert_eq!(&t[n.pointer("/a").unwrap().span.clone()], "\"4 mil\"");
-        assert_eq!(n.pointer("/a").unwrap().as_str(), Some("4 mil"));
-    }
-
-    #[test]
-    fn non_ascii_spans_are_bytes() {
-        let t = "a: \"µm\"\nb: 3 µm\n";
-        let n = p(t).unwrap();
-        assert_eq!(&t[n.pointer("/b").unwrap().span.clone()], "3 µm");
-    }
-
-    #[test]
-    fn core_schema_scalars() {
-        let n = p("a: 3\nb: '3'\nc: true\nd: ~\ne: .nan\n").unwrap();
-        assert_eq!(n.pointer("/a").unwrap().value, Value::Number(3.0));
-        assert_eq!(n.pointer("/b").unwrap().value, Value::String("3".into()));
-        assert_eq!(n.pointer("/c").unwrap().value, Value::Bool(true));
-        assert_eq!(n.pointer("/d").unwrap().value, Value::Null);
-        assert!(matches!(n.pointer("/e").unwrap().value, Value::Number(x) if x.is_nan()));
-    }
-
-    #[test]
-    fn alias_bomb_is_rejected() {
-        let mut t = String::from("a0: &a0 [x, x, x, x, x, x, x, x, x, x]\n");
-        for i in 1..9 {
-            t.push_str(&format!(
-                "a{i}: &a{i} [*a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}, *a{p}]\n",
-                p = i - 1
-            ));
-        }
-        let e = p(&t).unwrap_err();
-        assert!(e.message.contains("expands to more than"), "{}", e.message);
-    }
-
-    /// One 1 MiB string aliased 3,000 times would be 3 GB of text: refused
-    /// by the byte budget at the alias that crosses it, before any copy.
-    #[test]
-    fn aliased_long_string_is_rejected_by_bytes() {
-        let mut t = format!("a: &big \"{}\"\nb: [", "x".repeat(1 << 20));
-        for _ in 0..3000 {
-            t.push_str("*big, ");
-        }
-        t.push_str("]\n");
-        let started = std::time::Instant::now();
-        let e = p(&t).unwrap_err();
-        assert!(
-            e.message.contains("more than 8388608 bytes"),
-            "{}",
-            e.message
-        );
-        assert_eq!(&t[e.span.clone()], "*big");
-        // The anchored string counts once, the keys `a` and `b` one byte
-        // each, so the seventh alias crosses 8 MiB by those two bytes.
-        let seventh = t.match_indices("*big").nth(6).unwrap().0;
-        assert_eq!(e.span.start, seventh);
-        assert!(started.elapsed().as_secs() < 5);
-    }
-
-    #[test]
-    fn deep_nesting_is_rejected() {
-        let t = format!("{}1{}", "[".repeat(100), "]".repeat(100));
-        let e = p(&t).unwrap_err();
-        assert!(e.message.contains("nests deeper"), "{}", e.message);
-    }
-
-    #[test]
-    fn duplicate_keys_are_rejected() {
-        let t = "a: 1\na: 2\n";
-        let e = p(t).unwrap_err();
-        assert_eq!(&t[e.span.clone()], "a");
-        assert_eq!(e.span.start, 5);
-    }
-
-    #[test]
-    fn tab_indentation_points_at_the_tab() {
-        let t = "a:\n  b: 1\n\tc: 2\n";
-        let e = p(t).unwrap_err();
-        assert!(e.message.contains("tab"), "{}", e.message);
-        assert_eq!(&t[e.span.clone()], "\t");
-    }
-
-    #[test]
-    fn unclosed_flow_list_points_at_its_bracket() {
-        let t = "a:\n  b: [1, 2\n";
-        let e = p(t).unwrap_err();
-        assert!(e.message.contains("never closed"), "{}", e.message);
-        assert_eq!(e.span.start, t.find('[').unwrap());
-    }
-
-    #[test]
-    fn duplicate_key_message_names_the_first_line() {
-        let e = p("a: 1\nb: 2\na: 3\n").unwrap_err();
-        assert!(e.message.contains("first at line 1"), "{}", e.message);
-    }
-
-    /// Duplicates are found alike below and above the size where the
-    /// search switches from a scan to a hash map, whichever key repeats.
-    #[test]
-    fn duplicate_keys_are_found_in_small_and_large_mappings() {
-        for n in [1, 2, SMALL_MAP, SMALL_MAP + 1, SMALL_MAP + 2, 3 * SMALL_MAP] {
-            let keys: String = (0..n).map(|i| format!("k{i}: {i}\n")).collect();
-            let tree = p(&keys).unwrap();
-            match &tree.value {
-                Value::Map(entries) => {
-                    let names: Vec<&str> = entries.iter().map(|e| e.key.as_str()).collect();
-                    let want: Vec<String> = (0..n).map(|i| format!("k{i}")).collect();
-                    assert_eq!(names, want);
-                }
-                other => panic!("{other:?}"),
-            }
-            for j in [0, n / 2, n - 1] {
-                let t = format!("{keys}k{j}: again\n");
-                let e = p(&t).unwrap_err();
-                assert!(
-                    e.message.contains(&format!("first at line {}", j + 1)),
-                    "{n} keys, k{j}: {}",
-                    e.message
-                );
-                assert_eq!(e.span.start, keys.len(), "{n} keys, k{j}");
-            }
-        }
-    }
-
-    #[test]
-    fn malformed_yaml_has_position() {
-        let e = p("a: [1, 2\nb: 3\n").unwrap_err();
-        assert!(e.message.contains("malformed") || e.message.contains("ends"));
-    }
 }
