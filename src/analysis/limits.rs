@@ -85,7 +85,7 @@ pub fn structure_limits(
             if let Ok(fc) = modes::microstrip_transverse_resonance(w, h, eps_sub) {
                 limits.push((fc, "the transverse resonance of the strip".into()));
             }
-            if let Some(z) = smooth.map(|n| n.z_odd.unwrap_or(n.z)) {
+            if let Some(z) = smooth.map(LineNumbers::z_line) {
                 if let Ok(fc) = modes::microstrip_first_higher_order(z, h) {
                     limits.push((fc, "Hammerstad's first higher-order mode".into()));
                 }
@@ -130,7 +130,8 @@ pub fn mode_skew(nc: &NetClass, numbers: Option<&LineNumbers>, f: f64) -> Option
         return None;
     }
     let n = numbers?;
-    let (ee, eo) = (n.eps_eff_even?, n.eps_eff_odd?);
+    let p = n.pair?;
+    let (ee, eo) = (p.eps_eff_even, p.eps_eff_odd);
     let per_metre = (ee.sqrt() - eo.sqrt()) / C0;
     let rise_time = 0.35 / f.max(1.0);
     Some(ModeSkew {

@@ -85,7 +85,7 @@ pub(super) fn line_loss(
     );
     let k_rough = 0.5 * (trace_k + plane_k);
     let w = 0.5 * (g.width_bottom + g.width_top);
-    let z_line = smooth.z_odd.unwrap_or(smooth.z);
+    let z_line = smooth.z_line();
     let alpha_c = |k: f64| -> f64 {
         if let Some(_top) = g.top_plane {
             let b = g.height();

@@ -26,6 +26,7 @@ use std::collections::{BTreeMap, HashMap};
 
 use stackup_physics::consts::C0;
 use stackup_physics::copper::SIGMA_ANNEALED_COPPER;
+use stackup_physics::coupled::ModalPair;
 use stackup_physics::fieldsolver::{CrossSection, SolvedLine};
 
 use crate::model::Stackup;
@@ -37,13 +38,11 @@ use section::{FaceRoughness, LineGeometry};
 pub struct LineNumbers {
     /// Z0 (single-ended) or Z_diff (pairs), ohm.
     pub z: f64,
-    pub z_even: Option<f64>,
-    pub z_odd: Option<f64>,
     /// Effective permittivity of the mode that carries the signal (the odd
     /// mode for pairs).
     pub eps_eff: f64,
-    pub eps_eff_even: Option<f64>,
-    pub eps_eff_odd: Option<f64>,
+    /// A pair's even and odd modes.
+    pub pair: Option<ModalPair>,
     /// Propagation delay of the signal mode, s/m.
     pub delay: f64,
     /// Solver's estimated relative error of the impedance.
@@ -54,12 +53,9 @@ impl LineNumbers {
     fn from_solved(s: &SolvedLine) -> Option<LineNumbers> {
         if let Some(p) = s.pair {
             return Some(LineNumbers {
-                z: p.z_diff,
-                z_even: Some(p.z_even),
-                z_odd: Some(p.z_odd),
+                z: p.z_diff(),
                 eps_eff: p.eps_eff_odd,
-                eps_eff_even: Some(p.eps_eff_even),
-                eps_eff_odd: Some(p.eps_eff_odd),
+                pair: Some(p),
                 delay: p.eps_eff_odd.sqrt() / C0,
                 rel_error: s.z_rel_error,
             });
@@ -67,14 +63,17 @@ impl LineNumbers {
         let single = s.single?;
         Some(LineNumbers {
             z: single.z0,
-            z_even: None,
-            z_odd: None,
             eps_eff: single.eps_eff,
-            eps_eff_even: None,
-            eps_eff_odd: None,
+            pair: None,
             delay: single.eps_eff.sqrt() / C0,
             rel_error: s.z_rel_error,
         })
+    }
+
+    /// The impedance of one line of the signal mode: Z0, or a pair's
+    /// Z_odd.
+    pub fn z_line(&self) -> f64 {
+        self.pair.map_or(self.z, |p| p.z_odd)
     }
 
     /// Delay in ps/mm.

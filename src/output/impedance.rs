@@ -45,8 +45,8 @@ struct Numbers {
 fn numbers(n: &LineNumbers) -> Numbers {
     Numbers {
         z_ohm: round(n.z, 2),
-        z_even_ohm: n.z_even.map(|v| round(v, 2)),
-        z_odd_ohm: n.z_odd.map(|v| round(v, 2)),
+        z_even_ohm: n.pair.map(|p| round(p.z_even, 2)),
+        z_odd_ohm: n.pair.map(|p| round(p.z_odd, 2)),
         eps_eff: round(n.eps_eff, 4),
         delay_ps_per_mm: round(n.ps_per_mm(), 3),
         rel_error: round(n.rel_error, 5),

@@ -14,21 +14,36 @@ use std::f64::consts::PI;
 /// Model name used in validity notes.
 pub const KJ84_MODEL: &str = "Kirschning-Jansen 1984 coupled microstrip";
 
-/// Even/odd-mode result of a symmetric coupled pair.
-#[derive(Debug, Clone, PartialEq)]
-pub struct CoupledResult {
+/// The even and odd modes of a symmetric coupled pair: the one pair
+/// result of the crate (closed forms and the field solver alike).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct ModalPair {
     /// Even-mode impedance, ohm.
     pub z_even: f64,
     /// Odd-mode impedance, ohm.
     pub z_odd: f64,
-    /// Differential impedance 2·Z_odd, ohm.
-    pub z_diff: f64,
-    /// Common-mode impedance Z_even/2, ohm.
-    pub z_common: f64,
     /// Even-mode effective permittivity.
     pub eps_eff_even: f64,
     /// Odd-mode effective permittivity.
     pub eps_eff_odd: f64,
+}
+
+impl ModalPair {
+    /// Differential impedance 2·Z_odd, ohm.
+    pub fn z_diff(&self) -> f64 {
+        2.0 * self.z_odd
+    }
+
+    /// Common-mode impedance Z_even/2, ohm.
+    pub fn z_common(&self) -> f64 {
+        self.z_even / 2.0
+    }
+}
+
+/// A closed form's pair with its validity notes.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CoupledResult {
+    pub modes: ModalPair,
     /// Validity notes.
     pub notes: Vec<ValidityNote>,
 }
@@ -42,12 +57,12 @@ impl CoupledResult {
         notes: Vec<ValidityNote>,
     ) -> Self {
         CoupledResult {
-            z_even,
-            z_odd,
-            z_diff: 2.0 * z_odd,
-            z_common: z_even / 2.0,
-            eps_eff_even,
-            eps_eff_odd,
+            modes: ModalPair {
+                z_even,
+                z_odd,
+                eps_eff_even,
+                eps_eff_odd,
+            },
             notes,
         }
     }
@@ -186,13 +201,13 @@ mod tests {
         // arbitrary-precision elliptic integrals.
         let b = 1e-3;
         let r = cohn_coupled_stripline(0.5e-3, 0.5e-3, b, 1.0).unwrap();
-        assert!(rel(r.z_even, 107.154) < 1e-4, "{}", r.z_even);
-        assert!(rel(r.z_odd, 93.217) < 1e-4, "{}", r.z_odd);
+        assert!(rel(r.modes.z_even, 107.154) < 1e-4, "{}", r.modes.z_even);
+        assert!(rel(r.modes.z_odd, 93.217) < 1e-4, "{}", r.modes.z_odd);
         let r = cohn_coupled_stripline(0.3e-3, 0.2e-3, b, 4.0).unwrap();
-        assert!(rel(r.z_even, 78.232) < 1e-4, "{}", r.z_even);
-        assert!(rel(r.z_odd, 49.366) < 1e-4, "{}", r.z_odd);
-        assert_eq!(r.z_diff, 2.0 * r.z_odd);
-        assert_eq!(r.z_common, r.z_even / 2.0);
+        assert!(rel(r.modes.z_even, 78.232) < 1e-4, "{}", r.modes.z_even);
+        assert!(rel(r.modes.z_odd, 49.366) < 1e-4, "{}", r.modes.z_odd);
+        assert_eq!(r.modes.z_diff(), 2.0 * r.modes.z_odd);
+        assert_eq!(r.modes.z_common(), r.modes.z_even / 2.0);
     }
 
     #[test]
@@ -202,9 +217,9 @@ mod tests {
             .unwrap()
             .z0;
         let r = cohn_coupled_stripline(0.4e-3, 20e-3, 1e-3, 3.0).unwrap();
-        assert!(rel(r.z_even, single) < 1e-9 && rel(r.z_odd, single) < 1e-9);
+        assert!(rel(r.modes.z_even, single) < 1e-9 && rel(r.modes.z_odd, single) < 1e-9);
         let r = cohn_coupled_stripline(0.4e-3, 0.3e-3, 1e-3, 3.0).unwrap();
-        assert!(r.z_odd < single && single < r.z_even);
+        assert!(r.modes.z_odd < single && single < r.modes.z_even);
     }
 
     #[test]
@@ -213,13 +228,21 @@ mod tests {
         // u = 1, g = 1, eps_r = 4: Z0e 84.457, Z0o 63.009 ohm; eps_e 3.1038, eps_o 2.6652.
         let h = 1e-3;
         let r = kirschning_jansen_coupled(h, h, h, 4.0).unwrap();
-        assert!(rel(r.z_even, 84.457) < 1e-4, "{}", r.z_even);
-        assert!(rel(r.z_odd, 63.009) < 1e-4, "{}", r.z_odd);
-        assert!(rel(r.eps_eff_even, 3.1038) < 1e-4, "{}", r.eps_eff_even);
-        assert!(rel(r.eps_eff_odd, 2.6652) < 1e-4, "{}", r.eps_eff_odd);
+        assert!(rel(r.modes.z_even, 84.457) < 1e-4, "{}", r.modes.z_even);
+        assert!(rel(r.modes.z_odd, 63.009) < 1e-4, "{}", r.modes.z_odd);
+        assert!(
+            rel(r.modes.eps_eff_even, 3.1038) < 1e-4,
+            "{}",
+            r.modes.eps_eff_even
+        );
+        assert!(
+            rel(r.modes.eps_eff_odd, 2.6652) < 1e-4,
+            "{}",
+            r.modes.eps_eff_odd
+        );
         assert!(r.notes.is_empty());
         // In microstrip the even mode is the slower one.
-        assert!(r.eps_eff_even > r.eps_eff_odd);
+        assert!(r.modes.eps_eff_even > r.modes.eps_eff_odd);
     }
 
     #[test]

@@ -114,23 +114,23 @@ fn coupled_stripline_vs_cohn_1955() {
         let c = cohn_coupled_stripline(w, s, b, er).unwrap();
         eprintln!(
             "coupled stripline W/b={wb} S/b={sb}: dZe {:+.3} %, dZo {:+.3} %",
-            (p.z_even / c.z_even - 1.0) * 100.0,
-            (p.z_odd / c.z_odd - 1.0) * 100.0
+            (p.z_even / c.modes.z_even - 1.0) * 100.0,
+            (p.z_odd / c.modes.z_odd - 1.0) * 100.0
         );
         assert!(
-            rel(p.z_even, c.z_even) < 5e-3,
+            rel(p.z_even, c.modes.z_even) < 5e-3,
             "{wb} {sb}: Ze {} vs {}",
             p.z_even,
-            c.z_even
+            c.modes.z_even
         );
         assert!(
-            rel(p.z_odd, c.z_odd) < 5e-3,
+            rel(p.z_odd, c.modes.z_odd) < 5e-3,
             "{wb} {sb}: Zo {} vs {}",
             p.z_odd,
-            c.z_odd
+            c.modes.z_odd
         );
-        assert_eq!(p.z_diff, 2.0 * p.z_odd);
-        assert_eq!(p.z_common, p.z_even / 2.0);
+        assert_eq!(p.z_diff(), 2.0 * p.z_odd);
+        assert_eq!(p.z_common(), p.z_even / 2.0);
         // Homogeneous: both modes travel at c0/sqrt(eps_r).
         for e in &r.modal_eps_eff {
             assert!(rel(*e, er) < 1e-6, "modal eps {e}");
@@ -281,20 +281,25 @@ fn inhomogeneous_orderings() {
     let kj = stackup_physics::coupled::kirschning_jansen_coupled(w, g, h, 4.0).unwrap();
     eprintln!(
         "coupled microstrip vs KJ 1984: dZe {:+.2} %, dZo {:+.2} %, d eps_e {:+.2} %, d eps_o {:+.2} %",
-        (p.z_even / kj.z_even - 1.0) * 100.0,
-        (p.z_odd / kj.z_odd - 1.0) * 100.0,
-        (p.eps_eff_even / kj.eps_eff_even - 1.0) * 100.0,
-        (p.eps_eff_odd / kj.eps_eff_odd - 1.0) * 100.0
+        (p.z_even / kj.modes.z_even - 1.0) * 100.0,
+        (p.z_odd / kj.modes.z_odd - 1.0) * 100.0,
+        (p.eps_eff_even / kj.modes.eps_eff_even - 1.0) * 100.0,
+        (p.eps_eff_odd / kj.modes.eps_eff_odd - 1.0) * 100.0
     );
     assert!(
-        rel(p.z_even, kj.z_even) < 1e-2,
+        rel(p.z_even, kj.modes.z_even) < 1e-2,
         "{} vs {}",
         p.z_even,
-        kj.z_even
+        kj.modes.z_even
     );
-    assert!(rel(p.z_odd, kj.z_odd) < 1e-2, "{} vs {}", p.z_odd, kj.z_odd);
-    assert!(rel(p.eps_eff_even, kj.eps_eff_even) < 1e-2);
-    assert!(rel(p.eps_eff_odd, kj.eps_eff_odd) < 1e-2);
+    assert!(
+        rel(p.z_odd, kj.modes.z_odd) < 1e-2,
+        "{} vs {}",
+        p.z_odd,
+        kj.modes.z_odd
+    );
+    assert!(rel(p.eps_eff_even, kj.modes.eps_eff_even) < 1e-2);
+    assert!(rel(p.eps_eff_odd, kj.modes.eps_eff_odd) < 1e-2);
 }
 
 #[test]

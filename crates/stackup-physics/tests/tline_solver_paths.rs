@@ -209,7 +209,7 @@ fn width_for_target_matches_inverse_of_cohn_coupled_stripline() {
     let (b, er, s) = (0.4e-3, 3.6, 0.15e-3);
     let opt = SolverOptions::default();
     let want = invert(
-        |w| 2.0 * cohn_coupled_stripline(w, s, b, er).unwrap().z_odd,
+        |w| 2.0 * cohn_coupled_stripline(w, s, b, er).unwrap().modes.z_odd,
         100.0,
         0.01e-3,
         1e-3,
@@ -219,10 +219,10 @@ fn width_for_target_matches_inverse_of_cohn_coupled_stripline() {
         .unwrap()
         .pair
         .unwrap()
-        .z_diff;
+        .z_diff();
     let got = width_for_target(
         |w| pair(w, s, b, er, 0.0),
-        |r| r.pair.map(|p| p.z_diff),
+        |r| r.pair.map(|p| p.z_diff()),
         w0,
         z0,
         100.0,

@@ -53,8 +53,8 @@ pub(super) fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u
                     &[
                         p.z_even,
                         p.z_odd,
-                        p.z_diff,
-                        p.z_common,
+                        p.z_diff(),
+                        p.z_common(),
                         p.eps_eff_even,
                         p.eps_eff_odd,
                     ],
@@ -168,14 +168,22 @@ pub(super) fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, S
     };
     let pair = match floats("pair")?.as_slice() {
         [] => None,
-        [z_even, z_odd, z_diff, z_common, eps_eff_even, eps_eff_odd] => Some(Pair {
-            z_even: *z_even,
-            z_odd: *z_odd,
-            z_diff: *z_diff,
-            z_common: *z_common,
-            eps_eff_even: *eps_eff_even,
-            eps_eff_odd: *eps_eff_odd,
-        }),
+        // Z_diff and Z_common are stored for readers of the format; they
+        // must be what the modes give.
+        [z_even, z_odd, z_diff, z_common, eps_eff_even, eps_eff_odd] => {
+            let p = Pair {
+                z_even: *z_even,
+                z_odd: *z_odd,
+                eps_eff_even: *eps_eff_even,
+                eps_eff_odd: *eps_eff_odd,
+            };
+            if p.z_diff().to_bits() != z_diff.to_bits()
+                || p.z_common().to_bits() != z_common.to_bits()
+            {
+                return None;
+            }
+            Some(p)
+        }
         _ => return None,
     };
     if lines.next().is_some() {

@@ -64,8 +64,6 @@ mod tests {
             pair: Some(Pair {
                 z_even: 55.5,
                 z_odd: 45.0000000000001,
-                z_diff: 90.0000000000002,
-                z_common: 27.75,
                 eps_eff_even: 3.1,
                 eps_eff_odd: 2.9,
             }),

@@ -162,23 +162,9 @@ pub struct SingleEnded {
     pub eps_eff: f64,
 }
 
-/// Two-conductor result. Even/odd values use the symmetrised matrices
-/// (mean of the diagonal), exact for symmetric pairs.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Pair {
-    /// Even-mode impedance, ohm.
-    pub z_even: f64,
-    /// Odd-mode impedance, ohm.
-    pub z_odd: f64,
-    /// Differential impedance 2·Z_odd, ohm.
-    pub z_diff: f64,
-    /// Common-mode impedance Z_even/2, ohm.
-    pub z_common: f64,
-    /// Even-mode effective permittivity.
-    pub eps_eff_even: f64,
-    /// Odd-mode effective permittivity.
-    pub eps_eff_odd: f64,
-}
+/// Two-conductor result: the even and odd modes (symmetrised matrices,
+/// mean of the diagonal, exact for symmetric pairs).
+pub use crate::coupled::ModalPair as Pair;
 
 /// Full solver result.
 #[derive(Debug, Clone, PartialEq)]
@@ -333,8 +319,6 @@ fn finish(
         Pair {
             z_even,
             z_odd,
-            z_diff: 2.0 * z_odd,
-            z_common: 0.5 * z_even,
             eps_eff_even: ce_ / c0e_,
             eps_eff_odd: co_ / c0o_,
         }
