@@ -27,7 +27,7 @@ use std::collections::{BTreeMap, HashMap};
 use stackup_physics::consts::C0;
 use stackup_physics::copper::SIGMA_ANNEALED_COPPER;
 use stackup_physics::coupled::ModalPair;
-use stackup_physics::fieldsolver::{CrossSection, SolvedLine};
+use stackup_physics::fieldsolver::{CrossSection, SolveError, SolveErrorKind, SolvedLine};
 
 use crate::model::Stackup;
 use materials::{DkAt, MaterialModel};
@@ -97,14 +97,46 @@ impl LossNumbers {
     }
 }
 
+/// Why a class has no numbers.
+#[derive(Debug, Clone, PartialEq)]
+pub enum ClassError {
+    /// The section could not be built from the stackup (the layer is not
+    /// copper, no plane where the structure needs one).
+    Section(String),
+    /// The section spans too wide a range of sizes to mesh
+    /// ([`MAX_FEATURE_RATIO`]).
+    Refused(String),
+    /// The field solver refused the section or failed on it.
+    Solver(SolveError),
+    /// The solver gave no impedance for the section's conductors.
+    NoImpedance,
+}
+
+impl std::fmt::Display for ClassError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            ClassError::Section(m) | ClassError::Refused(m) => f.write_str(m),
+            ClassError::Solver(e) => match e.kind {
+                SolveErrorKind::MeshBudget { .. } => write!(
+                    f,
+                    "{} (raise the limit with --max-mesh-nodes if the section is genuine)",
+                    e.message
+                ),
+                _ => f.write_str(&e.message),
+            },
+            ClassError::NoImpedance => f.write_str("the solver returned no impedance"),
+        }
+    }
+}
+
 /// Everything the analysis knows about one net class.
 #[derive(Debug, Clone)]
 pub struct ClassAnalysis {
     /// Frequency the numbers are evaluated at, Hz.
     pub frequency: f64,
-    pub geometry: Result<LineGeometry, String>,
+    pub geometry: Result<LineGeometry, ClassError>,
     /// Smooth copper, bulk Dk at the frequency.
-    pub smooth: Result<LineNumbers, String>,
+    pub smooth: Result<LineNumbers, ClassError>,
     /// Declared roughness, best and worst case (equal when every face is
     /// known). `None` when the section could not be solved.
     pub rough_best: Option<LineNumbers>,
@@ -149,7 +181,7 @@ pub const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
 struct Pending {
     geometry: LineGeometry,
     /// Why the section is not solved (outside the solver's range).
-    blocked: Option<String>,
+    blocked: Option<ClassError>,
     /// Key of the family (smooth, best-case rough, worst-case rough
     /// sections; equal sections once) and each one's member index.
     family: String,
@@ -171,14 +203,13 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         Some(materials.get(&d.material)?.at(f))
     };
     // First pass: build sections.
-    let mut pending: Vec<Result<Pending, String>> = Vec::new();
+    let mut pending: Vec<Result<Pending, ClassError>> = Vec::new();
     let mut families = Vec::new();
     for nc in &s.net_classes {
         let f = nc.analysis_frequency();
         let eps_of = |layer: usize| dk_at(layer, f).map_or(1.0, |d| d.dk);
-        match section::geometry(s, nc, &eps_of) {
-            Ok(g) if solvable(&g).is_err() => {
-                let why = solvable(&g).err().unwrap_or_default();
+        match section::geometry(s, nc, &eps_of).map(|g| (solvable(&g), g)) {
+            Ok((Err(why), g)) => {
                 pending.push(Ok(Pending {
                     family: String::new(),
                     smooth: 0,
@@ -188,7 +219,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                     geometry: g,
                 }));
             }
-            Ok(g) => {
+            Ok((Ok(()), g)) => {
                 let [smooth, best, worst] = family_sections(&g, f);
                 let mut members: Vec<CrossSection> = vec![smooth];
                 let mut index_of = |cs: CrossSection| match members.iter().position(|m| *m == cs) {
@@ -210,19 +241,16 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 families.push(members);
                 pending.push(Ok(p));
             }
-            Err(e) => pending.push(Err(e.0)),
+            Err(e) => pending.push(Err(ClassError::Section(e.0))),
         }
     }
     let solved = solver.solve_all(families);
-    let numbers = |family: &str, i: usize| -> Result<LineNumbers, String> {
+    let numbers = |family: &str, i: usize| -> Result<LineNumbers, ClassError> {
         match solved.get(family).and_then(|v| v.get(i)) {
-            Some(Ok(s)) => LineNumbers::from_solved(s)
-                .ok_or_else(|| "the solver returned no impedance".to_string()),
-            Some(Err(e)) if e.contains("the solver's limit of") => Err(format!(
-                "{e} (raise the limit with --max-mesh-nodes if the section is genuine)"
-            )),
-            Some(Err(e)) => Err(e.clone()),
-            None => Err("not solved".into()),
+            Some(Ok(s)) => LineNumbers::from_solved(s).ok_or(ClassError::NoImpedance),
+            Some(Err(e)) => Err(ClassError::Solver(e.clone())),
+            // Every family built is solved; a missing one would be a bug.
+            None => Err(ClassError::NoImpedance),
         }
     };
     // Width back to target (secant on the worst-case section) for every
@@ -340,8 +368,8 @@ impl ClassAnalysis {
     /// A class with no numbers: its section could not be built or solved.
     fn unsolved(
         frequency: f64,
-        geometry: Result<LineGeometry, String>,
-        why: String,
+        geometry: Result<LineGeometry, ClassError>,
+        why: ClassError,
         notes: Vec<String>,
     ) -> Self {
         ClassAnalysis {

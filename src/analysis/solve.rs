@@ -8,13 +8,13 @@ use std::sync::atomic::{AtomicU64, AtomicUsize, Ordering};
 use std::sync::Arc;
 
 use stackup_physics::fieldsolver::{
-    self, estimate, solve, solve_family, CrossSection, SolvedLine, SolverOptions,
+    self, estimate, solve, solve_family, CrossSection, SolveError, SolvedLine, SolverOptions,
 };
 use stackup_physics::roughness::RoughLayerModel;
 
 use super::cache::{self, DiskCache};
 use super::section::{self, LineGeometry, RoughLayers};
-use super::{LineNumbers, SIGMA};
+use super::{ClassError, LineNumbers, SIGMA};
 use crate::pool::Pool;
 
 /// Default of [`AnalysisOptions::max_mesh_nodes`].
@@ -71,7 +71,7 @@ pub(super) struct Solver<'a> {
 }
 
 /// A family's solutions, per member.
-pub(super) type Solved = HashMap<String, Vec<Result<SolvedLine, String>>>;
+pub(super) type Solved = HashMap<String, Vec<Result<SolvedLine, SolveError>>>;
 
 impl<'a> Solver<'a> {
     pub(super) fn new(opts: &'a AnalysisOptions) -> Solver<'a> {
@@ -134,7 +134,7 @@ impl<'a> Solver<'a> {
         &self,
         family: &str,
         members: &[CrossSection],
-    ) -> Vec<Result<SolvedLine, String>> {
+    ) -> Vec<Result<SolvedLine, SolveError>> {
         let member_key = |i: usize| format!("{family}#{i}");
         if let Some(c) = self.cache() {
             let hits: Option<Vec<_>> = (0..members.len()).map(|i| c.get(&member_key(i))).collect();
@@ -150,7 +150,7 @@ impl<'a> Solver<'a> {
                 });
                 if trusted {
                     self.tally.add(members.len(), 0);
-                    return v;
+                    return v.into_iter().flatten().map(Ok).collect();
                 }
                 if v.iter().any(Result::is_ok) {
                     self.tally.rejected.fetch_add(1, Ordering::Relaxed);
@@ -158,16 +158,13 @@ impl<'a> Solver<'a> {
             }
         }
         self.tally.add(0, members.len());
-        let v: Vec<Result<SolvedLine, String>> = match solve_family(members, &self.solver) {
+        let v: Vec<Result<SolvedLine, SolveError>> = match solve_family(members, &self.solver) {
             Ok(v) => v.into_iter().map(Ok).collect(),
-            Err(_) => members
-                .iter()
-                .map(|cs| solve(cs, &self.solver).map_err(|e| e.message))
-                .collect(),
+            Err(_) => members.iter().map(|cs| solve(cs, &self.solver)).collect(),
         };
         if let Some(c) = self.cache() {
             for (i, r) in v.iter().enumerate() {
-                let n = c.put(&member_key(i), r);
+                let n = c.put(&member_key(i), &r.clone().map_err(|e| e.message));
                 self.tally.stored.fetch_add(n, Ordering::Relaxed);
             }
         }
@@ -286,7 +283,7 @@ pub fn family_sections(g: &LineGeometry, f: f64) -> [CrossSection; 3] {
 /// of billions of cells, so it is refused with a clear reason instead.
 pub const MAX_FEATURE_RATIO: f64 = 1000.0;
 
-pub(super) fn solvable(g: &LineGeometry) -> Result<(), String> {
+pub(super) fn solvable(g: &LineGeometry) -> Result<(), ClassError> {
     let w = g.width_bottom.max(g.width_top);
     let mut features = vec![g.width_bottom.min(g.width_top).max(0.0), w];
     features.extend(g.spacing);
@@ -306,12 +303,12 @@ pub(super) fn solvable(g: &LineGeometry) -> Result<(), String> {
     let largest = span.max(g.height());
     let ratio = largest / smallest;
     if !ratio.is_finite() || ratio > MAX_FEATURE_RATIO {
-        return Err(format!(
+        return Err(ClassError::Refused(format!(
             "the cross-section spans {:.0} times its smallest feature ({} against {}), beyond the {MAX_FEATURE_RATIO:.0}:1 the field solver meshes; check the widths, gaps and thicknesses",
             ratio,
             crate::units::fmt_length(largest),
             crate::units::fmt_length(smallest)
-        ));
+        )));
     }
     Ok(())
 }

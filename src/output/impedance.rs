@@ -28,7 +28,7 @@ struct Row<'a> {
     /// Total loss over `--length`, dB (vias and connectors not included).
     loss_db_over_length: Option<f64>,
     model: &'a str,
-    error: Option<&'a str>,
+    error: Option<String>,
     notes: &'a [String],
 }
 
@@ -83,7 +83,7 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             loss_db_over_length: length
                 .and_then(|len| ca.loss.map(|l| round(l.total_rough() * len, 3))),
             model: ca.model,
-            error: ca.smooth.as_ref().err().map(String::as_str),
+            error: ca.smooth.as_ref().err().map(ToString::to_string),
             notes: &ca.notes,
         })
         .collect()

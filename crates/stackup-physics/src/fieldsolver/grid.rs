@@ -376,7 +376,16 @@ pub(super) fn level_lines(
     s.growth = 1.0 + (spec.growth - 1.0) / m;
     s.caps = spec.caps.iter().map(|&(a, b, h)| (a, b, h / m)).collect();
     s.h_far = spec.h_far / m;
-    let (lines, used) = lines_with_counts(&s, tol, counts).map_err(SolveError::new)?;
+    let (lines, used) = lines_with_counts(&s, tol, counts).map_err(|e| match e {
+        LineError::Topology(m) => SolveError::new(m),
+        LineError::TooMany(message) => SolveError {
+            message,
+            kind: SolveErrorKind::MeshBudget {
+                needed: s.max_lines.saturating_add(1),
+                limit: s.max_lines,
+            },
+        },
+    })?;
     let n = lines.len();
     let lines = dedup_sorted(lines, tol);
     if lines.len() != n {
@@ -387,10 +396,16 @@ pub(super) fn level_lines(
 
 /// The error for a section whose mesh would pass `max_mesh_nodes`.
 pub(super) fn too_large(nodes: usize, opt: &SolverOptions) -> SolveError {
-    SolveError::new(format!(
-        "the section needs a mesh of more than {nodes} nodes, beyond the solver's limit of {}: its features span too wide a range of sizes",
-        opt.max_mesh_nodes
-    ))
+    SolveError {
+        message: format!(
+            "the section needs a mesh of more than {nodes} nodes, beyond the solver's limit of {}: its features span too wide a range of sizes",
+            opt.max_mesh_nodes
+        ),
+        kind: SolveErrorKind::MeshBudget {
+            needed: nodes,
+            limit: opt.max_mesh_nodes,
+        },
+    }
 }
 
 /// Cells per key interval (x, y) at every level.

@@ -87,6 +87,15 @@ pub(crate) fn base_lines(spec: &AxisSpec, tol: f64) -> Vec<f64> {
         .unwrap_or_default()
 }
 
+/// Why lines could not be placed.
+#[derive(Debug, Clone, PartialEq)]
+pub(crate) enum LineError {
+    /// The key intervals differ from the counts given (another topology).
+    Topology(String),
+    /// More lines than the axis's budget.
+    TooMany(String),
+}
+
 /// Like `base_lines`, also returning the number of cells of every interval
 /// between key lines; with `counts` given, those numbers are used instead
 /// of the ones the size function asks for (same mesh topology for two
@@ -96,7 +105,7 @@ pub(crate) fn lines_with_counts(
     spec: &AxisSpec,
     tol: f64,
     counts: Option<&[usize]>,
-) -> Result<(Vec<f64>, Vec<usize>), String> {
+) -> Result<(Vec<f64>, Vec<usize>), LineError> {
     let mut keys = spec.keys.clone();
     keys.push(spec.lo);
     keys.push(spec.hi);
@@ -104,11 +113,11 @@ pub(crate) fn lines_with_counts(
     let keys = dedup_sorted(keys, tol);
     if let Some(c) = counts {
         if c.len() + 1 != keys.len() {
-            return Err(format!(
+            return Err(LineError::Topology(format!(
                 "mesh topology differs: {} key intervals instead of {}",
                 keys.len().saturating_sub(1),
                 c.len()
-            ));
+            )));
         }
     }
     let mut used = Vec::with_capacity(keys.len());
@@ -148,10 +157,10 @@ pub(crate) fn lines_with_counts(
         };
         used.push(n);
         if n > spec.max_lines.saturating_sub(lines.len()) {
-            return Err(format!(
+            return Err(LineError::TooMany(format!(
                 "the section needs a mesh of more than {} lines across, beyond the solver's limit of {}: its features span too wide a range of sizes",
                 spec.max_lines, spec.max_lines
-            ));
+            )));
         }
         for k in 1..n {
             let target = total * k as f64 / n as f64;

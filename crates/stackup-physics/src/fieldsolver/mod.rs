@@ -46,7 +46,7 @@ mod mesh;
 
 use crate::consts::{C0, EPS0};
 use fv::{Grid, Node, Solver};
-use mesh::{dedup_sorted, lines_with_counts, AxisSpec};
+use mesh::{dedup_sorted, lines_with_counts, AxisSpec, LineError};
 use std::fmt;
 
 mod extrapolate;
@@ -137,11 +137,40 @@ impl SolverOptions {
 pub struct SolveError {
     /// Human-readable reason.
     pub message: String,
+    /// What kind of failure it is.
+    pub kind: SolveErrorKind,
+}
+
+/// Why a section was not solved.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SolveErrorKind {
+    /// The section itself is not valid (a bad dimension, a conductor
+    /// outside its layers, members of a family that differ).
+    Section,
+    /// The mesh it needs passes `SolverOptions::max_mesh_nodes`.
+    MeshBudget {
+        /// Nodes of one grid the section needs (at least).
+        needed: usize,
+        /// The budget.
+        limit: usize,
+    },
+    /// The numbers went wrong (a singular or non-finite result).
+    Numerical,
 }
 
 impl SolveError {
     fn new(m: impl Into<String>) -> Self {
-        SolveError { message: m.into() }
+        SolveError {
+            message: m.into(),
+            kind: SolveErrorKind::Section,
+        }
+    }
+
+    fn numerical(m: impl Into<String>) -> Self {
+        SolveError {
+            message: m.into(),
+            kind: SolveErrorKind::Numerical,
+        }
     }
 }
 
@@ -294,10 +323,10 @@ fn finish(
 ) -> Result<SolvedLine, SolveError> {
     let cf: Vec<f64> = c.iter().map(|v| v * EPS0).collect();
     let c0f: Vec<f64> = c0.iter().map(|v| v * EPS0).collect();
-    let c0inv =
-        inverse(&c0, n).ok_or_else(|| SolveError::new("singular vacuum capacitance matrix"))?;
+    let c0inv = inverse(&c0, n)
+        .ok_or_else(|| SolveError::numerical("singular vacuum capacitance matrix"))?;
     let inductance: Vec<f64> = inverse(&c0f, n)
-        .ok_or_else(|| SolveError::new("singular vacuum capacitance matrix"))?
+        .ok_or_else(|| SolveError::numerical("singular vacuum capacitance matrix"))?
         .iter()
         .map(|v| v / (C0 * C0))
         .collect();
@@ -326,7 +355,7 @@ fn finish(
     let all_finite = cf.iter().chain(c0f.iter()).all(|v| v.is_finite())
         && modal_eps_eff.iter().all(|v| v.is_finite());
     if !all_finite {
-        return Err(SolveError::new("solver produced non-finite values"));
+        return Err(SolveError::numerical("solver produced non-finite values"));
     }
     Ok(SolvedLine {
         capacitance: cf,
@@ -362,12 +391,12 @@ fn vacuum_result(
     let (c0, err) = extrapolate(&opt.refinements, &lv.c0, opt.assumed_order, n);
     let c0f: Vec<f64> = c0.iter().map(|v| v * EPS0).collect();
     let inductance: Vec<f64> = inverse(&c0f, n)
-        .ok_or_else(|| SolveError::new("singular vacuum capacitance matrix"))?
+        .ok_or_else(|| SolveError::numerical("singular vacuum capacitance matrix"))?
         .iter()
         .map(|v| v / (C0 * C0))
         .collect();
     if c0f.iter().chain(inductance.iter()).any(|v| !v.is_finite()) {
-        return Err(SolveError::new("solver produced non-finite values"));
+        return Err(SolveError::numerical("solver produced non-finite values"));
     }
     Ok(VacuumCapacitance {
         capacitance_vacuum: c0f,
