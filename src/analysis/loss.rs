@@ -72,14 +72,14 @@ pub(super) fn line_loss(
     let trace_k = mean(
         g.faces
             .iter()
-            .filter(|x| x.role.starts_with("trace"))
+            .filter(|x| x.role.is_trace())
             .map(|x| k_of(x.roughness.surface(true)))
             .collect(),
     );
     let plane_k = mean(
         g.faces
             .iter()
-            .filter(|x| x.role.starts_with("plane"))
+            .filter(|x| x.role.is_plane())
             .map(|x| k_of(x.roughness.surface(true)))
             .collect(),
     );

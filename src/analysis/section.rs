@@ -44,12 +44,44 @@ impl FaceRoughness {
     }
 }
 
+/// Which of the four copper faces a line's field meets (in the frame where
+/// the solver's first plane is below).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FaceRole {
+    PlaneBelow,
+    TraceBottom,
+    TraceTop,
+    PlaneAbove,
+}
+
+impl FaceRole {
+    /// The slot of this face's roughness layer in `RoughLayers::thickness`.
+    pub fn slot(self) -> usize {
+        self as usize
+    }
+
+    pub fn is_trace(self) -> bool {
+        matches!(self, FaceRole::TraceBottom | FaceRole::TraceTop)
+    }
+
+    pub fn is_plane(self) -> bool {
+        !self.is_trace()
+    }
+
+    pub fn as_str(self) -> &'static str {
+        match self {
+            FaceRole::PlaneBelow => "plane below",
+            FaceRole::TraceBottom => "trace bottom",
+            FaceRole::TraceTop => "trace top",
+            FaceRole::PlaneAbove => "plane above",
+        }
+    }
+}
+
 /// One of the (up to) four copper faces a line's field meets.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LineFace {
-    /// Which face: "plane below", "trace bottom", "trace top", "plane above"
-    /// (in the frame where the solver's first plane is below).
-    pub role: &'static str,
+    pub role: FaceRole,
     /// Copper layer index and the JSON pointer of its face (if declared).
     pub layer: usize,
     pub pointer: Option<String>,
@@ -328,19 +360,19 @@ pub fn geometry(
     };
     let (p, r) = face_of(first, true);
     faces.push(LineFace {
-        role: "plane below",
+        role: FaceRole::PlaneBelow,
         layer: first,
         pointer: p,
         roughness: r,
     });
     faces.push(LineFace {
-        role: "trace bottom",
+        role: FaceRole::TraceBottom,
         layer: i,
         pointer: face_lo.map(|f| f.pointer.clone()),
         roughness: FaceRoughness::of(face_lo),
     });
     faces.push(LineFace {
-        role: "trace top",
+        role: FaceRole::TraceTop,
         layer: i,
         pointer: face_hi.map(|f| f.pointer.clone()),
         roughness: FaceRoughness::of(face_hi),
@@ -348,7 +380,7 @@ pub fn geometry(
     if let Some(sp) = second {
         let (p, r) = face_of(sp, false);
         faces.push(LineFace {
-            role: "plane above",
+            role: FaceRole::PlaneAbove,
             layer: sp,
             pointer: p,
             roughness: r,

@@ -247,15 +247,9 @@ impl<'a> Solver<'a> {
 /// Roughness layers of a geometry at `f`: each face's T_r (best or worst).
 pub(super) fn rough_layers(g: &LineGeometry, f: f64, worst: bool) -> RoughLayers {
     let model = RoughLayerModel::default();
-    // Faces are in the order plane below, trace bottom, trace top, [plane above].
     let mut thickness = vec![0.0; 4];
-    for (k, face) in g.faces.iter().enumerate() {
-        let slot = if k == 3 || face.role == "plane above" {
-            3
-        } else {
-            k
-        };
-        thickness[slot] = model
+    for face in &g.faces {
+        thickness[face.role.slot()] = model
             .thickness(&face.roughness.surface(worst), f, SIGMA)
             .unwrap_or(0.0);
     }

@@ -78,11 +78,10 @@ pub(super) fn read_copper(
     ptr: &str,
     foils: &BTreeMap<String, Foil>,
 ) -> Option<CopperLayer> {
-    let role = match r.string(&format!("{ptr}/role")).as_deref() {
-        Some("plane") => CopperRole::Plane,
-        Some("mixed") => CopperRole::Mixed,
-        _ => CopperRole::Signal,
-    };
+    let role = r
+        .string(&format!("{ptr}/role"))
+        .and_then(|w| w.parse().ok())
+        .unwrap_or(CopperRole::Signal);
     let thickness = r.bounded(
         &format!("{ptr}/thickness"),
         Dimension::CopperThickness,
@@ -115,11 +114,10 @@ pub(super) fn read_face(
     foils: &BTreeMap<String, Foil>,
 ) -> Option<Option<Face>> {
     r.node(ptr).map_or(Some(None), |_| {
-        let side = match r.string(&format!("{ptr}/side")).as_deref() {
-            Some("drum") => FoilSide::Drum,
-            Some("bond-treatment") => FoilSide::BondTreatment,
-            _ => FoilSide::Treated,
-        };
+        let side = r
+            .string(&format!("{ptr}/side"))
+            .and_then(|w| w.parse().ok())
+            .unwrap_or(FoilSide::Treated);
         let foil = r.string(&format!("{ptr}/foil"));
         let direct = read_roughness(r, ptr, false);
         let roughness = match (&foil, direct) {
@@ -178,12 +176,10 @@ pub(super) fn read_dielectric(
     ptr: &str,
     materials: &BTreeMap<String, Material>,
 ) -> Option<DielectricLayer> {
-    let kind = match r.string(&format!("{ptr}/kind")).as_deref() {
-        Some("core") => DielectricKind::Core,
-        Some("bonding-film") => DielectricKind::BondingFilm,
-        Some("solder-mask") => DielectricKind::SolderMask,
-        _ => DielectricKind::Prepreg,
-    };
+    let kind = r
+        .string(&format!("{ptr}/kind"))
+        .and_then(|w| w.parse().ok())
+        .unwrap_or(DielectricKind::Prepreg);
     let material_pointer = format!("{ptr}/material");
     let mut material = r.string(&material_pointer).unwrap_or_default();
     if !materials.contains_key(&material) {

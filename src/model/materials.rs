@@ -344,11 +344,10 @@ pub(super) fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option
             ok = false;
         }
     }
-    let method = match r.string(&format!("{ptr}/method")).as_deref() {
-        Some("resonator") => MeasurementMethod::Resonator,
-        Some("transmission-line") => MeasurementMethod::TransmissionLine,
-        _ => MeasurementMethod::Unknown,
-    };
+    let method = r
+        .string(&format!("{ptr}/method"))
+        .and_then(|w| w.parse().ok())
+        .unwrap_or(MeasurementMethod::Unknown);
     let dk_tolerance = r.number(&format!("{ptr}/dk-tolerance"), "Dk tolerance");
     if let Some(t) = dk_tolerance {
         if t < 0.0 {

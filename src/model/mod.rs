@@ -44,6 +44,102 @@ pub struct Layer {
     pub kind: LayerKind,
 }
 
+/// The YAML keywords of a model enum, both ways: `keyword()` writes the
+/// word the schema allows, `FromStr` reads it (anything else is an error;
+/// the schema has already refused it).
+macro_rules! keywords {
+    ($ty:ident { $($variant:ident => $word:literal),+ $(,)? }) => {
+        impl $ty {
+            /// The word the YAML uses for this value.
+            pub fn keyword(self) -> &'static str {
+                match self {
+                    $($ty::$variant => $word,)+
+                }
+            }
+        }
+
+        impl std::str::FromStr for $ty {
+            type Err = UnknownKeyword;
+            fn from_str(s: &str) -> Result<Self, Self::Err> {
+                match s {
+                    $($word => Ok($ty::$variant),)+
+                    _ => Err(UnknownKeyword(s.to_string())),
+                }
+            }
+        }
+    };
+}
+
+/// A word that is not one of an enum's YAML keywords.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct UnknownKeyword(pub String);
+
+keywords!(CopperRole { Signal => "signal", Plane => "plane", Mixed => "mixed" });
+keywords!(FoilSide { Treated => "treated", Drum => "drum", BondTreatment => "bond-treatment" });
+keywords!(DielectricKind {
+    Core => "core",
+    Prepreg => "prepreg",
+    BondingFilm => "bonding-film",
+    SolderMask => "solder-mask",
+});
+keywords!(MeasurementMethod {
+    Resonator => "resonator",
+    TransmissionLine => "transmission-line",
+    Unknown => "unknown",
+});
+keywords!(Structure {
+    Microstrip => "microstrip",
+    EmbeddedMicrostrip => "embedded-microstrip",
+    Stripline => "stripline",
+    DiffMicrostrip => "diff-microstrip",
+    DiffStripline => "diff-stripline",
+    CoplanarGrounded => "coplanar-grounded",
+});
+keywords!(Modulation { Nrz => "nrz", Pam4 => "pam4" });
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every keyword reads back as the value that writes it, and the words
+    /// are the schema's (the schema is the contract).
+    #[test]
+    fn keywords_round_trip_and_match_the_schema() {
+        let schema: serde_json::Value =
+            serde_json::from_str(include_str!("../../schema/stackup.schema.json")).unwrap();
+        let text = schema.to_string();
+        macro_rules! check {
+            ($($v:expr),+) => {$(
+                let w = $v.keyword();
+                assert_eq!(w.parse(), Ok($v), "{w}");
+                assert!(text.contains(&format!("\"{w}\"")), "`{w}` is not in the schema");
+            )+};
+        }
+        check!(CopperRole::Signal, CopperRole::Plane, CopperRole::Mixed);
+        check!(FoilSide::Treated, FoilSide::Drum, FoilSide::BondTreatment);
+        check!(
+            DielectricKind::Core,
+            DielectricKind::Prepreg,
+            DielectricKind::BondingFilm,
+            DielectricKind::SolderMask
+        );
+        check!(
+            MeasurementMethod::Resonator,
+            MeasurementMethod::TransmissionLine
+        );
+        check!(
+            Structure::Microstrip,
+            Structure::EmbeddedMicrostrip,
+            Structure::Stripline,
+            Structure::DiffMicrostrip,
+            Structure::DiffStripline,
+            Structure::CoplanarGrounded
+        );
+        check!(Modulation::Nrz, Modulation::Pam4);
+        assert!("strip-line".parse::<Structure>().is_err());
+    }
+}
+
 #[derive(Debug, Clone)]
 pub enum LayerKind {
     Copper(CopperLayer),
@@ -64,11 +160,7 @@ impl CopperRole {
     }
 
     pub fn as_str(self) -> &'static str {
-        match self {
-            CopperRole::Signal => "signal",
-            CopperRole::Plane => "plane",
-            CopperRole::Mixed => "mixed",
-        }
+        self.keyword()
     }
 }
 
@@ -175,11 +267,7 @@ pub enum MeasurementMethod {
 
 impl MeasurementMethod {
     pub fn as_str(self) -> &'static str {
-        match self {
-            MeasurementMethod::Resonator => "resonator",
-            MeasurementMethod::TransmissionLine => "transmission-line",
-            MeasurementMethod::Unknown => "unknown",
-        }
+        self.keyword()
     }
 }
 
@@ -244,14 +332,7 @@ pub enum Structure {
 
 impl Structure {
     pub fn as_str(self) -> &'static str {
-        match self {
-            Structure::Microstrip => "microstrip",
-            Structure::EmbeddedMicrostrip => "embedded-microstrip",
-            Structure::Stripline => "stripline",
-            Structure::DiffMicrostrip => "diff-microstrip",
-            Structure::DiffStripline => "diff-stripline",
-            Structure::CoplanarGrounded => "coplanar-grounded",
-        }
+        self.keyword()
     }
 
     /// Lines with a reference plane on both sides.

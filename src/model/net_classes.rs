@@ -44,14 +44,10 @@ pub(super) fn read_net_class(
     ptr: &str,
     name: String,
 ) -> Option<NetClass> {
-    let structure = match r.string(&format!("{ptr}/structure")).as_deref() {
-        Some("embedded-microstrip") => Structure::EmbeddedMicrostrip,
-        Some("stripline") => Structure::Stripline,
-        Some("diff-microstrip") => Structure::DiffMicrostrip,
-        Some("diff-stripline") => Structure::DiffStripline,
-        Some("coplanar-grounded") => Structure::CoplanarGrounded,
-        _ => Structure::Microstrip,
-    };
+    let structure = r
+        .string(&format!("{ptr}/structure"))
+        .and_then(|w| w.parse().ok())
+        .unwrap_or(Structure::Microstrip);
     let layer_index = layer_ref(r, s, &format!("{ptr}/layer"), "a net class's layer");
     let mut refs_ok = true;
     let references = r
@@ -114,11 +110,9 @@ pub(super) fn read_net_class(
     } else {
         Some(None)
     };
-    let modulation = match r.string(&format!("{ptr}/modulation")).as_deref() {
-        Some("pam4") => Some(Modulation::Pam4),
-        Some("nrz") => Some(Modulation::Nrz),
-        _ => None,
-    };
+    let modulation: Option<Modulation> = r
+        .string(&format!("{ptr}/modulation"))
+        .and_then(|w| w.parse().ok());
     let assumed_dk = r.number(&format!("{ptr}/assumed-dk"), "assumed Dk");
     if let Some(dk) = assumed_dk {
         if dk < 1.0 {
