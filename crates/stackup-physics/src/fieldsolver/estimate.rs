@@ -26,7 +26,7 @@
 //! The accepted deviations ([`AIR_TOLERANCE`], [`EPS_TOLERANCE`]) are each
 //! form's error against this crate's field solver over the sections of a
 //! synthetic repository of 1,000 boards and the demo boards (measured in
-//! `tests/cache_trust.rs`, recorded in `bench/RESULTS.md`), plus a margin.
+//! `tests/it/cache_trust.rs`, recorded in `bench/RESULTS.md`), plus a margin.
 
 use super::{CrossSection, SolvedLine};
 use crate::consts::{C0, EPS0};
@@ -77,7 +77,7 @@ pub fn air_tolerance(form: Form) -> f64 {
 ///
 /// Largest deviation measured (1,000 random sections of each structure
 /// over the ranges of real boards and every section of 200 synthetic
-/// boards, `tests/cache_trust.rs`): microstrip 3.1 %, stripline 4.3 %,
+/// boards, `tests/it/cache_trust.rs`): microstrip 3.1 %, stripline 4.3 %,
 /// GCPW 4.8 %, coupled microstrip 8.7 %, coupled stripline 6.1 %; the
 /// tolerance adds a margin of about 2 points.
 pub const AIR_TOLERANCE: [f64; 6] = [0.05, 0.06, 0.07, 0.11, 0.09, 0.07];

@@ -31,7 +31,7 @@
 //! principle) for the geometry as meshed; sloped trace sides (etch
 //! trapezoids) are represented by staircases of mesh nodes.
 //!
-//! Measured accuracy with the default options (tests/tline_fieldsolver.rs):
+//! Measured accuracy with the default options (tests/checks/tline_fieldsolver.rs):
 //! within 0.13 % of Cohn's exact stripline (W/b 0.1–3), 0.08 % of Cohn's
 //! coupled stripline, 0.1 % of Hammerstad-Jensen microstrip (inside its
 //! 0.2 % stated accuracy). `SolverOptions::accurate()` runs three finer

@@ -1,8 +1,7 @@
 //! The demo boards, through the binary: exit codes and reviewed snapshots of
 //! the terminal text (no colour, fixed width) and of the SARIF log.
 
-mod common;
-
+use crate::common;
 fn run(args: &[&str]) -> (Option<i32>, String, String) {
     common::run_in(common::root(), args)
 }

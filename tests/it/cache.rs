@@ -1,7 +1,7 @@
 //! The on-disk cache of field-solver results, through the command line:
 //! concurrent runs against one cache directory, damaged entries, the size
 //! bound, an unusable directory. Output must never depend on the cache
-//! (`tests/determinism.rs` compares cold, warm and `--no-cache` output).
+//! (`determinism.rs` compares cold, warm and `--no-cache` output).
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

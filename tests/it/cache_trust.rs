@@ -6,9 +6,10 @@
 //! `calibrate` (ignored: it solves every section of a synthetic repository)
 //! prints, per form, the largest deviation seen; `bench/RESULTS.md` keeps
 //! the figures the tolerances in `estimate.rs` were set from. Run it with
-//! `cargo test --release --test cache_trust -- --ignored --nocapture`
+//! `cargo test --release --test it -- --ignored --nocapture cache_trust::calibrate`
 //! (`STACKUP_LINT_CALIBRATE_FILES`, default 200 boards).
 
+use crate::common;
 use std::collections::BTreeMap;
 use std::path::Path;
 
@@ -19,8 +20,6 @@ use stackup_physics::fieldsolver::estimate::{check_solution, estimate};
 use stackup_physics::fieldsolver::{
     solve, CoplanarGrounds, CrossSection, DielectricBlock, DielectricLayer, SolverOptions, Trace,
 };
-
-mod common;
 
 /// Deviations seen for one form: air impedance (signed, relative) and the
 /// effective permittivity's place in its band.

@@ -4,13 +4,12 @@
 //! run ends in bounded time (and memory, where an allocation is the risk)
 //! and that nothing panics.
 
+use crate::common;
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output, Stdio};
 use std::time::{Duration, Instant};
 
-mod common;
-
-const BASELINE: &str = include_str!("common/baseline.stackup.yaml");
+const BASELINE: &str = include_str!("../common/baseline.stackup.yaml");
 
 /// A value no output may ever show.
 const CANARY: &str = "CANARY-7f3e9a1c-SECRET";

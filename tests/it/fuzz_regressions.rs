@@ -13,7 +13,7 @@
 
 use std::path::{Path, PathBuf};
 
-#[path = "../fuzz/pipeline.rs"]
+#[path = "../../fuzz/pipeline.rs"]
 mod pipeline;
 
 fn files(sub: &str) -> Vec<PathBuf> {

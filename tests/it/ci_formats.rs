@@ -15,11 +15,11 @@
 //! unique per issue, `severity` one of info/minor/major/critical/blocker,
 //! `location.path`, `location.lines.begin`).
 
+use crate::common;
 use std::collections::HashSet;
 use std::path::Path;
 
-mod common;
-use common::run_in;
+use crate::common::run_in;
 
 use serde_json::Value;
 use stackup_lint::output::github::{escape_data, escape_property};

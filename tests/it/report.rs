@@ -3,9 +3,8 @@
 //! to-scale heights follow the YAML thicknesses, numbers that agree with the
 //! `impedance` command, and no file at all on bad input.
 
+use crate::common;
 use std::path::Path;
-
-mod common;
 
 fn run(args: &[&str], cache: &Path) -> (Option<i32>, String, String) {
     common::text(common::output(

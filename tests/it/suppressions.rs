@@ -5,8 +5,7 @@
 
 use std::path::Path;
 
-mod common;
-use common::output_in as run;
+use crate::common::output_in as run;
 
 use serde_json::Value;
 

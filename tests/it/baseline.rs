@@ -6,8 +6,7 @@ use std::process::Output;
 
 use serde_json::Value;
 
-mod common;
-use common::{output_in as run, root};
+use crate::common::{output_in as run, root};
 
 const BOARD: &str = "examples/line-card-10l/board.stackup.yaml";
 

@@ -9,10 +9,9 @@ use std::process::Output;
 
 use serde_json::Value;
 
-mod common;
-use common::output_in as run;
+use crate::common::output_in as run;
 
-const BASELINE: &str = include_str!("common/baseline.stackup.yaml");
+const BASELINE: &str = include_str!("../common/baseline.stackup.yaml");
 
 fn no_panic(out: &Output) {
     let stderr = String::from_utf8_lossy(&out.stderr);

@@ -2,8 +2,7 @@
 //! number of field-solver threads, and with a cold, a warm or no field-solver
 //! cache (terminal without colour, JSON, SARIF).
 
-mod common;
-
+use crate::common;
 fn run(threads: &str, format: &str, sarif: &std::path::Path) -> Vec<u8> {
     let o = common::command(common::root())
         .args([

@@ -6,13 +6,12 @@
 //! The check is against the field solver's full, extrapolated solve, whose
 //! own accuracy is checked against Cohn's exact striplines and
 //! Hammerstad-Jensen microstrip in
-//! `crates/stackup-physics/tests/tline_fieldsolver.rs`; the search's
+//! `crates/stackup-physics/tests/checks/tline_fieldsolver.rs`; the search's
 //! agreement with the inverses of those closed forms is checked in
-//! `crates/stackup-physics/tests/tline_solver_paths.rs`.
+//! `crates/stackup-physics/tests/checks/tline_solver_paths.rs`.
 
+use crate::common;
 use std::path::Path;
-
-mod common;
 
 fn impedance(file: &Path) -> Vec<serde_json::Value> {
     let o = common::output(

@@ -12,7 +12,7 @@
 //! cache: about 21 minutes on the shared 2-core development machine under
 //! load (a rerun with the kept target directory: about 100 s), so the test is
 //! `#[ignore]`d in the default run and `.ci/run` runs it
-//! explicitly (`cargo test --test pre_commit -- --ignored`).
+//! explicitly (`cargo test --test it -- --ignored pre_commit::`).
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};

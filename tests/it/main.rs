@@ -1,0 +1,27 @@
+//! The integration tests of stackup-lint: one test binary (it links the
+//! crate and the command line once), one module per subject. Most run the
+//! `stackup-lint` binary (`common`); the pre-commit end-to-end test is
+//! ignored by default and run by `.ci/run`, the browser test skips where no
+//! Chromium is found.
+
+mod common;
+
+mod bad_input;
+mod baseline;
+mod cache;
+mod cache_trust;
+mod ci_formats;
+mod core_rules;
+mod determinism;
+mod examples;
+mod fuzz_regressions;
+mod hostile_input;
+mod materials_wiring;
+mod pre_commit;
+mod report;
+mod report_browser;
+mod rule_docs;
+mod sarif;
+mod suppressions;
+mod untrusted;
+mod width_for_target;
