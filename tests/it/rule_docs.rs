@@ -76,6 +76,35 @@ fn every_rule_has_one_page_with_the_sections() {
     }
 }
 
+/// Each rule's page example that fires, rendered as the terminal shows it
+/// (no colour, 100 columns): one reviewed snapshot per rule, the rule's
+/// own test of its message, labels and help.
+#[test]
+fn fires_examples_render_as_reviewed() {
+    use stackup_lint::output::human::{render, HumanOptions};
+    for m in rules::all_meta() {
+        for (i, text) in blocks(m.doc, "fires").into_iter().enumerate() {
+            let loaded = load_text("example.stackup.yaml", text, &InputLimits::default());
+            let outcome = engine::lint(loaded, &Default::default());
+            let out = render(
+                &outcome.findings,
+                &outcome.db,
+                HumanOptions {
+                    color: false,
+                    width: 100,
+                    pool: stackup_lint::pool::Pool::single(),
+                },
+            );
+            let name = if i == 0 {
+                format!("fires_{}", m.name)
+            } else {
+                format!("fires_{}_{i}", m.name)
+            };
+            insta::assert_snapshot!(name, out);
+        }
+    }
+}
+
 #[test]
 fn page_examples_behave_as_labelled() {
     for m in rules::all_meta() {
@@ -191,4 +220,32 @@ fn options_sections_agree_with_the_declared_options() {
             );
         }
     }
+}
+
+/// The README's rule table, as the rules describe themselves: name,
+/// default severity and summary of every rule (pseudo-rules included), in
+/// the order `stackup-lint rules` lists them. On failure the message holds
+/// the table to paste.
+#[test]
+fn readme_rule_table_is_the_registry() {
+    let readme =
+        std::fs::read_to_string(concat!(env!("CARGO_MANIFEST_DIR"), "/README.md")).unwrap();
+    let mut want = String::from("| rule | default | checks |\n|---|---|---|\n");
+    for m in rules::all_meta() {
+        want.push_str(&format!(
+            "| `{}` | {} | {} |\n",
+            m.name,
+            m.default_severity.as_str(),
+            m.summary
+        ));
+    }
+    let start = readme
+        .find("| rule | default | checks |")
+        .expect("README has the rule table");
+    let table: String = readme[start..]
+        .lines()
+        .take_while(|l| l.starts_with('|'))
+        .map(|l| format!("{l}\n"))
+        .collect();
+    assert_eq!(table, want, "README's rule table should be:\n{want}");
 }
