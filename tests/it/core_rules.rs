@@ -1,6 +1,7 @@
 //! The four core rules and the analysis behind them, checked against values
 //! from outside the project. Each check names its source.
 
+use crate::common::board::Board;
 use stackup_lint::analysis::analyze;
 use stackup_lint::analysis::dielectrics::dielectric_contact;
 use stackup_lint::engine;
@@ -26,23 +27,25 @@ fn findings(text: &str, rule: &str) -> Vec<Finding> {
 
 /// A microstrip laminate of thickness `h` between two foils of RMS roughness `rq`.
 fn laminate(h_um: f64, dk: f64, rq_um: f64, width_um: f64, f_ghz: f64) -> String {
-    format!(
-        "stackup-lint: 1
-materials:
-  lam: {{dk: {dk}, df: 0.001, frequency: {f_ghz} GHz, valid-from: 1 GHz, valid-to: 100 GHz}}
-foils:
-  foil: {{rq: {rq_um} um}}
-layers:
-  - name: L1
-    copper: {{role: signal, thickness: 18 um, down: {{side: treated, foil: foil}}}}
-  - name: lam
-    dielectric: {{kind: core, material: lam, thickness: {h_um} um}}
-  - name: L2
-    copper: {{role: plane, thickness: 18 um, up: {{side: treated, foil: foil}}}}
-net-classes:
-  - {{name: ms, structure: microstrip, layer: L1, width: {width_um} um, max-frequency: {f_ghz} GHz}}
-"
-    )
+    Board::new()
+        .material(
+            "lam",
+            &format!("dk: {dk}, df: 0.001, frequency: {f_ghz} GHz, valid-from: 1 GHz, valid-to: 100 GHz"),
+        )
+        .foil("foil", &format!("rq: {rq_um} um"))
+        .copper(
+            "L1",
+            "role: signal, thickness: 18 um, down: {side: treated, foil: foil}",
+        )
+        .dielectric("lam", &format!("kind: core, material: lam, thickness: {h_um} um"))
+        .copper(
+            "L2",
+            "role: plane, thickness: 18 um, up: {side: treated, foil: foil}",
+        )
+        .class(&format!(
+            "name: ms, structure: microstrip, layer: L1, width: {width_um} um, max-frequency: {f_ghz} GHz"
+        ))
+        .yaml()
 }
 
 #[test]
@@ -209,31 +212,27 @@ matched-groups:
 fn homogeneous_stripline_pair_has_no_mode_skew() {
     // In a homogeneous stripline even and odd modes travel at the same
     // speed, eps_e = eps_o = eps_r (Cohn 1955): no mode-skew finding.
-    let text = "stackup-lint: 1
-materials:
-  m: {dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 40 GHz}
-layers:
-  - name: P1
-    copper: {role: plane, thickness: 18 um}
-  - name: c1
-    dielectric: {kind: core, material: m, thickness: 0.15 mm}
-  - name: S
-    copper: {role: signal, thickness: 18 um}
-  - name: c2
-    dielectric: {kind: prepreg, material: m, thickness: 0.15 mm}
-  - name: P2
-    copper: {role: plane, thickness: 18 um}
-net-classes:
-  - {name: d, structure: diff-stripline, layer: S, width: 0.1 mm, spacing: 0.15 mm, max-frequency: 14 GHz}
-";
-    assert!(findings(text, "propagation-skew").is_empty());
+    let m = "dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 40 GHz";
+    let pair = "name: d, structure: diff-stripline, layer: S, width: 0.1 mm, spacing: 0.15 mm, max-frequency: 14 GHz";
+    let text = Board::stripline("m", "0.15 mm", "0.15 mm")
+        .material("m", m)
+        .class(pair)
+        .yaml();
+    assert!(findings(&text, "propagation-skew").is_empty());
     // With a lower-Dk prepreg on one side the modes separate and it fires.
-    let mixed = text
-        .replace(
-            "  m: {dk: 3.5",
-            "  p: {dk: 3.0, df: 0.002, frequency: 10 GHz, valid-to: 40 GHz}\n  m: {dk: 3.5",
+    let mixed = Board::new()
+        .material("m", m)
+        .material(
+            "p",
+            "dk: 3.0, df: 0.002, frequency: 10 GHz, valid-to: 40 GHz",
         )
-        .replace("kind: prepreg, material: m", "kind: prepreg, material: p");
+        .copper("P1", "role: plane, thickness: 18 um")
+        .dielectric("c1", "kind: core, material: m, thickness: 0.15 mm")
+        .copper("S", "role: signal, thickness: 18 um")
+        .dielectric("c2", "kind: prepreg, material: p, thickness: 0.15 mm")
+        .copper("P2", "role: plane, thickness: 18 um")
+        .class(pair)
+        .yaml();
     let f = findings(&mixed, "propagation-skew");
     assert_eq!(f.len(), 1, "{f:#?}");
     assert!(
@@ -247,19 +246,11 @@ net-classes:
 fn via_fence_pitch_against_lambda_g_over_8() {
     // Common practice, no source: stitch at lambda_g/8 or less; at 40 GHz in
     // eps_r 3.5, lambda_g = c0/(f sqrt(eps_r)) = 4.006 mm, /8 = 0.501 mm.
-    let text = "stackup-lint: 1
-materials:
-  m: {dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 50 GHz}
-layers:
-  - name: L1
-    copper: {role: signal, thickness: 18 um}
-  - name: c
-    dielectric: {kind: core, material: m, thickness: 0.127 mm}
-  - name: L2
-    copper: {role: plane, thickness: 18 um}
-net-classes:
-  - {name: cpw, structure: coplanar-grounded, layer: L1, width: 0.25 mm, gap: 0.15 mm, max-frequency: 40 GHz, via-fence-pitch: 0.6 mm}
-";
+    let text = Board::microstrip("m", "0.127 mm")
+        .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 50 GHz")
+        .class("name: cpw, structure: coplanar-grounded, layer: L1, width: 0.25 mm, gap: 0.15 mm, max-frequency: 40 GHz, via-fence-pitch: 0.6 mm")
+        .yaml();
+    let text = text.as_str();
     let f = findings(text, "frequency-beyond-validity");
     let fence: Vec<_> = f
         .iter()
@@ -283,23 +274,11 @@ net-classes:
 fn pam4_highest_frequency_is_three_times_nyquist() {
     // 56 Gbps PAM4: 28 GBd, Nyquist 14 GHz (rate/4); highest frequency of
     // interest 3 x Nyquist = 42 GHz (third harmonic, common practice).
-    let text = "stackup-lint: 1
-materials:
-  m: {dk: 3.5, df: 0.002, frequency: 10 GHz, valid-from: 1 GHz, valid-to: 20 GHz}
-layers:
-  - name: P1
-    copper: {role: plane, thickness: 18 um}
-  - name: c1
-    dielectric: {kind: core, material: m, thickness: 0.15 mm}
-  - name: S
-    copper: {role: signal, thickness: 18 um}
-  - name: c2
-    dielectric: {kind: core, material: m, thickness: 0.15 mm}
-  - name: P2
-    copper: {role: plane, thickness: 18 um}
-net-classes:
-  - {name: d, structure: diff-stripline, layer: S, width: 0.1 mm, spacing: 0.15 mm, data-rate: 56 Gbps, modulation: pam4}
-";
+    let text = Board::stripline("m", "0.15 mm", "0.15 mm")
+        .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz, valid-from: 1 GHz, valid-to: 20 GHz")
+        .class("name: d, structure: diff-stripline, layer: S, width: 0.1 mm, spacing: 0.15 mm, data-rate: 56 Gbps, modulation: pam4")
+        .yaml();
+    let text = text.as_str();
     let f = findings(text, "frequency-beyond-validity");
     assert_eq!(f.len(), 1, "{f:#?}");
     assert!(
@@ -357,19 +336,11 @@ net-classes:
 fn extreme_geometry_is_refused_not_meshed() {
     // A 1 um trace beside a 19 mm coplanar gap would need billions of mesh
     // cells: the analysis refuses it with a reason, and the rule says so.
-    let text = "stackup-lint: 1
-materials:
-  m: {dk: 3.5, df: 0.002, frequency: 10 GHz}
-layers:
-  - name: L1
-    copper: {role: signal, thickness: 18 um}
-  - name: c
-    dielectric: {kind: core, material: m, thickness: 0.1 mm}
-  - name: L2
-    copper: {role: plane, thickness: 18 um}
-net-classes:
-  - {name: y, structure: coplanar-grounded, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}}
-";
+    let text = Board::microstrip("m", "0.1 mm")
+        .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz")
+        .class("name: y, structure: coplanar-grounded, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}")
+        .yaml();
+    let text = text.as_str();
     // An uncheckable class is an error of its own (not a warning of the
     // roughness rule, which a project may suppress).
     assert!(findings(text, "roughness-impedance-drift").is_empty());

@@ -2,6 +2,8 @@
 //! binary. Each test file uses some of them.
 #![allow(dead_code)]
 
+pub mod board;
+
 use std::path::Path;
 use std::process::{Command, Output};
 
