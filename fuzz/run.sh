@@ -10,7 +10,7 @@
 # The working corpus grows in fuzz/corpus/TARGET (not committed); it starts
 # from the committed seeds in fuzz/seeds/TARGET. Crashes land in
 # fuzz/artifacts/TARGET; turn each into a replay file under
-# tests/fuzz-regressions/ (see DEVELOPERS.md, "Fuzzing").
+# tests/fuzz-regressions/ (see fuzz/README.md).
 set -euo pipefail
 cd "$(dirname "$0")/.."
 secs="${1:-600}"

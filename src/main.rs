@@ -12,7 +12,7 @@ use stackup_lint::baseline::Baseline;
 
 /// A warm run is mostly small allocations on two or more threads (YAML
 /// trees, findings, report text); mimalloc serves them with less work than
-/// the C library's allocator (see DEVELOPERS.md, "Warm path").
+/// the C library's allocator (measured in bench/RESULTS.md).
 #[global_allocator]
 static ALLOCATOR: mimalloc::MiMalloc = mimalloc::MiMalloc;
 use stackup_lint::engine::{self, CheckOptions};

@@ -54,7 +54,7 @@ pub(super) fn line_loss(
     // Hammerstad-Bekkadal factor from Rq (saturates at 2). The Cannonball-
     // Huray factor with r = Rz/4.83 gives about 6 for standard ED foil at
     // 14 GHz, well above the 2-3 usually measured (from memory), so it is not
-    // the default until calibrated; see DEVELOPERS.md.
+    // the default until calibrated; see crates/stackup-physics/README.md.
     let k_of = |r: RoughSurface| -> f64 {
         let rq = r.rq().unwrap_or(0.0);
         if rq <= 0.0 {

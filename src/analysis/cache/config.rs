@@ -18,11 +18,11 @@ use super::DiskCache;
 pub const FORMAT: u32 = 2;
 
 /// Default bound on the disk space of the cache directory: 1 GiB. One
-/// cached solve takes one 4 KiB block; a repository of 1,000 boards
-/// (`bench/synth-monorepo.py --files 1000`, 4 to 24 layers, 10 to 40 net
-/// classes) needs about 92,000 of them, 360 MiB, so 1 GiB holds it with
-/// room to spare (eviction goes down to 3/4 of the bound, 768 MiB, still
-/// twice that), and about 2,800 such boards in all.
+/// entry (a solved section, or a class's width for target) takes one 4 KiB
+/// block; a repository of 1,000 boards (`bench/synth-monorepo.py --files
+/// 1000`, 4 to 24 layers, 10 to 40 net classes) needs about 51,700 of them,
+/// about 210 MB (bench/RESULTS.md), so 1 GiB holds it with room to spare
+/// (eviction goes down to 3/4 of the bound, 768 MiB).
 pub const DEFAULT_MAX_BYTES: u64 = 1 << 30;
 
 /// The engine identity of this build: what a cached result depends on.
