@@ -5,8 +5,10 @@
 
 use stackup_physics::roughness::{RoughLayerModel, RoughSurface};
 
-use super::materials::DkAt;
-use super::section::FaceRoughness;
+use std::collections::BTreeMap;
+
+use super::materials::{DkAt, MaterialModel};
+use super::section::{implied_face, FaceRoughness};
 use super::{Analysis, SIGMA};
 use crate::model::{DielectricKind, Stackup};
 
@@ -69,7 +71,7 @@ pub fn plies(s: &Stackup, a: &Analysis) -> Vec<Ply> {
                 .get(&d.material)
                 .map_or(1e9, |m| m.points[0].frequency)
         };
-        let Some(contact) = dielectric_contact(s, a, k, frequency) else {
+        let Some(contact) = dielectric_contact(s, &a.materials, k, frequency) else {
             continue;
         };
         out.push(Ply {
@@ -102,22 +104,30 @@ pub struct DielectricContact {
 /// (`RoughLayerModel::apparent_dk_parallel_plate`).
 pub fn dielectric_contact(
     s: &Stackup,
-    a: &Analysis,
+    materials: &BTreeMap<String, MaterialModel>,
     layer: usize,
     f: f64,
 ) -> Option<DielectricContact> {
     let d = s.dielectric(layer)?;
-    let bulk = a.materials.get(&d.material)?.at(f);
+    let bulk = materials.get(&d.material)?.at(f);
     let mut faces = Vec::new();
     let mut dielectric_faces = 0;
     let above = layer
         .checked_sub(1)
-        .and_then(|j| s.copper(j).map(|c| (j, c.down.as_ref())));
-    let below = s.copper(layer + 1).map(|c| (layer + 1, c.up.as_ref()));
+        .and_then(|j| s.copper(j).map(|c| (j, false, c.down.as_ref())));
+    let below = s
+        .copper(layer + 1)
+        .map(|c| (layer + 1, true, c.up.as_ref()));
     for side in [above, below] {
         match side {
-            Some((j, face)) => {
-                faces.push((j, face.map(|f| f.pointer.clone()), FaceRoughness::of(face)))
+            Some((j, up, face)) => {
+                // A face without data: the range its position implies,
+                // as the lines' faces carry it.
+                let r = match FaceRoughness::of(face) {
+                    FaceRoughness::NotDeclared => FaceRoughness::Implied(implied_face(s, j, up)),
+                    r => r,
+                };
+                faces.push((j, face.map(|f| f.pointer.clone()), r))
             }
             None => dielectric_faces += 1,
         }

@@ -117,10 +117,6 @@ pub struct ModeSkew {
     /// Rise time the class's frequency implies, t_r = 0.35/f (the knee
     /// frequency, common practice), s.
     pub rise_time: f64,
-    /// Far-end crosstalk of the even/odd superposition per metre of
-    /// coupled length for a step of that rise time, about
-    /// −(1/2)(t_e − t_o)/t_r (Hall, Hall & McCall 2000, from memory), 1/m.
-    pub fext_per_metre: f64,
 }
 
 /// The mode skew of a differential stripline (worst-case rough copper,
@@ -139,6 +135,5 @@ pub fn mode_skew(nc: &NetClass, numbers: Option<&LineNumbers>, f: f64) -> Option
         eps_eff_odd: eo,
         per_metre,
         rise_time,
-        fext_per_metre: -0.5 * per_metre / rise_time,
     })
 }

@@ -141,10 +141,12 @@ pub struct ClassAnalysis {
     /// known). `None` when the section could not be solved.
     pub rough_best: Option<LineNumbers>,
     pub rough_worst: Option<LineNumbers>,
-    /// Some copper face of the line has no roughness data (bond treatment).
+    /// Some copper face of the line is carried as a best/worst range: a
+    /// bond treatment without data, or a face with no data at all.
     pub roughness_unknown: bool,
-    /// No face of the line declares roughness.
-    pub roughness_undeclared: bool,
+    /// The line's faces with no roughness data, and the generic surface
+    /// each is carried as.
+    pub implied_faces: Vec<(section::FaceRole, section::GenericFace)>,
     /// Width that brings the worst-case rough line back to its target, m.
     pub width_for_target: Option<f64>,
     pub loss: Option<LossNumbers>,
@@ -158,6 +160,22 @@ pub struct ClassAnalysis {
     pub limits: Option<limits::StructureLimits>,
     /// Mode skew of a differential stripline.
     pub mode_skew: Option<limits::ModeSkew>,
+    /// Each ply of the section that touches rough copper, with the line
+    /// solved with that ply alone at its apparent Dk (smooth copper, every
+    /// other ply at its bulk Dk): the ply's own share of the line's shift.
+    pub ply_shares: Vec<PlyShare>,
+}
+
+/// One ply's share of a line's roughness shift.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PlyShare {
+    /// Stackup layer index of the ply.
+    pub layer: usize,
+    /// Its bulk and (worst-case) apparent Dk at the class's frequency.
+    pub bulk: f64,
+    pub apparent: f64,
+    /// The line with only this ply raised to its apparent Dk.
+    pub numbers: LineNumbers,
 }
 
 /// The analysis of one stackup: one entry per net class, same order.
@@ -180,6 +198,9 @@ pub const SIGMA: f64 = SIGMA_ANNEALED_COPPER;
 
 struct Pending {
     geometry: LineGeometry,
+    /// Plies solved alone at their apparent Dk: (layer, bulk, apparent,
+    /// member index).
+    plies: Vec<(usize, f64, f64, usize)>,
     /// Why the section is not solved (outside the solver's range).
     blocked: Option<ClassError>,
     /// Key of the family (smooth, best-case rough, worst-case rough
@@ -211,6 +232,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         match section::geometry(s, nc, &eps_of).map(|g| (solvable(&g), g)) {
             Ok((Err(why), g)) => {
                 pending.push(Ok(Pending {
+                    plies: Vec::new(),
                     family: String::new(),
                     smooth: 0,
                     best: 0,
@@ -230,7 +252,29 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                     }
                 };
                 let (best, worst) = (index_of(best), index_of(worst));
+                // Each ply touching rough copper, raised alone.
+                let mut plies = Vec::new();
+                for (k, sl) in g.slabs.iter().enumerate() {
+                    let mask = s
+                        .dielectric(sl.layer)
+                        .is_some_and(|d| d.kind == crate::model::DielectricKind::SolderMask);
+                    if k == g.trace_slot || mask {
+                        continue;
+                    }
+                    let Some(c) = dielectrics::dielectric_contact(s, &materials, sl.layer, f)
+                    else {
+                        continue;
+                    };
+                    if c.apparent_worst <= c.bulk.dk * (1.0 + 1e-4) {
+                        continue;
+                    }
+                    let mut raised = g.clone();
+                    raised.slabs[k].eps = c.apparent_worst;
+                    let m = index_of(section::cross_section(&raised, None));
+                    plies.push((sl.layer, c.bulk.dk, c.apparent_worst, m));
+                }
                 let p = Pending {
+                    plies,
                     family: solver.family_key(&members),
                     smooth: 0,
                     best,
@@ -304,14 +348,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         let smooth = numbers(&p.family, p.smooth);
         let best = numbers(&p.family, p.best).ok();
         let worst = numbers(&p.family, p.worst).ok();
-        let roughness_unknown = g
+        let roughness_unknown = g.faces.iter().any(|f| f.roughness.is_range());
+        let implied_faces: Vec<_> = g
             .faces
             .iter()
-            .any(|f| f.roughness == FaceRoughness::Unknown);
-        let roughness_undeclared = g
-            .faces
-            .iter()
-            .all(|f| f.roughness == FaceRoughness::NotDeclared);
+            .filter_map(|f| match f.roughness {
+                FaceRoughness::Implied(gf) => Some((f.role, gf)),
+                _ => None,
+            })
+            .collect();
+        if !implied_faces.is_empty() {
+            notes.push(implied_note(&g, &implied_faces, s));
+        }
         let mut dk = BTreeMap::new();
         for sl in &g.slabs {
             if let Some(d) = dk_at(sl.layer, f) {
@@ -331,6 +379,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .map(|sm| loss::line_loss(&g, &dk, f, sm));
         let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
         let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);
+        let ply_shares = p
+            .plies
+            .iter()
+            .filter_map(|&(layer, bulk, apparent, m)| {
+                Some(PlyShare {
+                    layer,
+                    bulk,
+                    apparent,
+                    numbers: numbers(&p.family, m).ok()?,
+                })
+            })
+            .collect();
         classes.push(ClassAnalysis {
             frequency: f,
             geometry: Ok(g),
@@ -338,7 +398,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             rough_best: best,
             rough_worst: worst,
             roughness_unknown,
-            roughness_undeclared,
+            implied_faces,
             width_for_target,
             loss,
             dk,
@@ -346,6 +406,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             notes,
             limits,
             mode_skew,
+            ply_shares,
         });
     }
     solver.settle();
@@ -364,6 +425,33 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
     a
 }
 
+/// The note on a line whose faces carry no roughness data: which faces, on
+/// which layers, and the range each is carried as.
+fn implied_note(
+    g: &LineGeometry,
+    implied: &[(section::FaceRole, section::GenericFace)],
+    s: &Stackup,
+) -> String {
+    let mut parts: Vec<String> = Vec::new();
+    for kind in [section::GenericFace::Foil, section::GenericFace::Treated] {
+        let faces: Vec<String> = implied
+            .iter()
+            .filter(|(_, k)| *k == kind)
+            .filter_map(|(role, _)| {
+                let f = g.faces.iter().find(|f| f.role == *role)?;
+                Some(format!("{} (`{}`)", role.as_str(), s.layers[f.layer].name))
+            })
+            .collect();
+        if !faces.is_empty() {
+            parts.push(format!("{}: {}", faces.join(", "), kind.describe()));
+        }
+    }
+    format!(
+        "no roughness data for {}; the numbers are a best/worst range, not smooth copper (declare the foils with `up:`/`down:` on the copper layers to narrow it)",
+        parts.join("; ")
+    )
+}
+
 impl ClassAnalysis {
     /// A class with no numbers: its section could not be built or solved.
     fn unsolved(
@@ -379,7 +467,7 @@ impl ClassAnalysis {
             rough_best: None,
             rough_worst: None,
             roughness_unknown: false,
-            roughness_undeclared: true,
+            implied_faces: Vec::new(),
             width_for_target: None,
             loss: None,
             dk: BTreeMap::new(),
@@ -387,6 +475,7 @@ impl ClassAnalysis {
             notes,
             limits: None,
             mode_skew: None,
+            ply_shares: Vec::new(),
         }
     }
 

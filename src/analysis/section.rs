@@ -12,11 +12,54 @@ use crate::model::{DielectricKind, Face, LayerKind, NetClass, Stackup, Structure
 /// Roughness of one copper face as the analysis carries it.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum FaceRoughness {
-    /// No face data given: treated as smooth copper.
+    /// No face data given (a ply's contact faces; smooth where a surface
+    /// is needed). A line's faces never stay here: they become `Implied`.
     NotDeclared,
     Known(RoughSurface),
     /// A bond-enhancement treatment with no data: a best/worst range.
     Unknown,
+    /// A line's face with no data: the best/worst range of the generic
+    /// surface its position in the build implies, never silently smooth.
+    Implied(GenericFace),
+}
+
+/// What an undeclared copper face most likely is, from where it sits.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum GenericFace {
+    /// A foil's bonding side: the face against a core, or an outer layer's
+    /// face against its prepreg. Low-profile to standard foil.
+    Foil,
+    /// A surface the fabricator treats: an inner layer's face against
+    /// prepreg (bond enhancement), or an outer surface under solder mask
+    /// or in air (cleaned and micro-etched before mask).
+    Treated,
+}
+
+impl GenericFace {
+    /// The surface in the best (smoothest) or worst case (constants and
+    /// their provenance in `stackup_physics::roughness`).
+    pub fn surface(self, worst: bool) -> RoughSurface {
+        use stackup_physics::roughness::{
+            BOND_TREATMENT_UNKNOWN_BEST, BOND_TREATMENT_UNKNOWN_WORST, LOW_PROFILE_FOIL,
+            STANDARD_ED_FOIL,
+        };
+        match (self, worst) {
+            (GenericFace::Foil, false) => LOW_PROFILE_FOIL,
+            (GenericFace::Foil, true) => STANDARD_ED_FOIL,
+            (GenericFace::Treated, false) => BOND_TREATMENT_UNKNOWN_BEST,
+            (GenericFace::Treated, true) => BOND_TREATMENT_UNKNOWN_WORST,
+        }
+    }
+
+    /// In words, with the range carried.
+    pub fn describe(self) -> &'static str {
+        match self {
+            GenericFace::Foil => {
+                "foil of unknown profile, carried as low-profile (Rz 2 µm) to standard (Rz 9 µm)"
+            }
+            GenericFace::Treated => "treated copper of unknown roughness, carried as Rz 1 to 5 µm",
+        }
+    }
 }
 
 impl FaceRoughness {
@@ -40,7 +83,41 @@ impl FaceRoughness {
             FaceRoughness::Known(s) => s,
             FaceRoughness::Unknown if worst => BOND_TREATMENT_UNKNOWN_WORST,
             FaceRoughness::Unknown => BOND_TREATMENT_UNKNOWN_BEST,
+            FaceRoughness::Implied(g) => g.surface(worst),
         }
+    }
+
+    /// Carried as a best/worst range (no data for the face).
+    pub fn is_range(self) -> bool {
+        matches!(self, FaceRoughness::Unknown | FaceRoughness::Implied(_))
+    }
+}
+
+/// The generic surface an undeclared face of copper layer `layer` implies,
+/// the face pointing up the board (`up`) or down: against a core, a foil's
+/// bonding side; against prepreg, a foil's bonding side on an outer layer
+/// (foil lamination) and a bond-enhancement treatment on an inner one;
+/// under solder mask or in air, a cleaned and micro-etched surface (common
+/// practice, no source).
+pub fn implied_face(s: &Stackup, layer: usize, up: bool) -> GenericFace {
+    let toward = if up {
+        layer.checked_sub(1)
+    } else {
+        Some(layer + 1)
+    };
+    let away = if up {
+        Some(layer + 1)
+    } else {
+        layer.checked_sub(1)
+    };
+    let kind = |j: Option<usize>| j.and_then(|j| s.dielectric(j)).map(|d| d.kind);
+    match kind(toward) {
+        Some(DielectricKind::Core) => GenericFace::Foil,
+        Some(DielectricKind::Prepreg) => match kind(away) {
+            None | Some(DielectricKind::SolderMask) => GenericFace::Foil,
+            _ => GenericFace::Treated,
+        },
+        _ => GenericFace::Treated,
     }
 }
 
@@ -347,16 +424,17 @@ pub fn geometry(
         (trace.down.as_ref(), trace.up.as_ref())
     };
     let mut faces = Vec::new();
+    // A face without data carries the range its position implies.
+    let line_face = |layer: usize, up: bool, f: Option<&Face>| match FaceRoughness::of(f) {
+        FaceRoughness::NotDeclared => FaceRoughness::Implied(implied_face(s, layer, up)),
+        r => r,
+    };
     let face_of = |layer: usize, up_in_frame: bool| -> (Option<String>, FaceRoughness) {
         let c = s.copper(layer);
-        let f = c.and_then(|c| {
-            // up_in_frame: the face pointing up in the solver frame.
-            match (up_in_frame, flipped) {
-                (true, false) | (false, true) => c.up.as_ref(),
-                _ => c.down.as_ref(),
-            }
-        });
-        (f.map(|f| f.pointer.clone()), FaceRoughness::of(f))
+        // up_in_frame: the face pointing up in the solver frame.
+        let up = up_in_frame != flipped;
+        let f = c.and_then(|c| if up { c.up.as_ref() } else { c.down.as_ref() });
+        (f.map(|f| f.pointer.clone()), line_face(layer, up, f))
     };
     let (p, r) = face_of(first, true);
     faces.push(LineFace {
@@ -369,13 +447,13 @@ pub fn geometry(
         role: FaceRole::TraceBottom,
         layer: i,
         pointer: face_lo.map(|f| f.pointer.clone()),
-        roughness: FaceRoughness::of(face_lo),
+        roughness: line_face(i, flipped, face_lo),
     });
     faces.push(LineFace {
         role: FaceRole::TraceTop,
         layer: i,
         pointer: face_hi.map(|f| f.pointer.clone()),
-        roughness: FaceRoughness::of(face_hi),
+        roughness: line_face(i, !flipped, face_hi),
     });
     if let Some(sp) = second {
         let (p, r) = face_of(sp, false);

@@ -265,7 +265,11 @@ pub(super) fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option
             ptr,
             format!("material `{name}` needs either `dk` (with `df` and `frequency`) or `points`, not {}", if has_points { "both" } else { "neither" }),
             "incomplete material",
-            Some("add `dk: 3.5`, `df: 0.002` and `frequency: 10 GHz`".into()),
+            Some(if has_points {
+                "keep one: `points` (Dk/Df at several frequencies) or the single `dk`/`df` at `frequency`; both at once would give two Dk values for the same material".into()
+            } else {
+                "add `dk: 3.5`, `df: 0.002` and `frequency: 10 GHz`".into()
+            }),
         );
         return None;
     }

@@ -258,6 +258,17 @@ pub struct DielectricLayer {
     pub modelled_dk: Option<f64>,
 }
 
+impl DielectricLayer {
+    /// `thickness` is a pressed thickness: a prepreg or bonding film (given
+    /// as pressed, or pressed from its nominal thickness).
+    pub fn is_pressed(&self) -> bool {
+        matches!(
+            self.kind,
+            DielectricKind::Prepreg | DielectricKind::BondingFilm
+        )
+    }
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum MeasurementMethod {
     Resonator,
@@ -544,6 +555,16 @@ impl Stackup {
     }
 
     /// Copper layers, as indices, top to bottom.
+    /// Nearest copper layer above (`up`) or below layer `i`, whatever its
+    /// role.
+    pub fn nearest_copper(&self, i: usize, up: bool) -> Option<usize> {
+        if up {
+            (0..i).rev().find(|&j| self.copper(j).is_some())
+        } else {
+            (i + 1..self.layers.len()).find(|&j| self.copper(j).is_some())
+        }
+    }
+
     pub fn copper_indices(&self) -> Vec<usize> {
         (0..self.layers.len())
             .filter(|&i| self.copper(i).is_some())

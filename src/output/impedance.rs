@@ -305,6 +305,7 @@ pub fn dielectric_rows(s: &Stackup, a: &Analysis) -> Vec<DielectricRow> {
                             .map_or("?".into(), |rq| format!("Rq {:.2} um", rq * 1e6)),
                         FaceRoughness::Unknown => "unknown".into(),
                         FaceRoughness::NotDeclared => "no data".into(),
+                        FaceRoughness::Implied(_) => "no data (generic range)".into(),
                     };
                     format!("{} {what}", s.layers[*j].name)
                 })

@@ -29,22 +29,76 @@ fn range(lo: f64, hi: f64) -> String {
     }
 }
 
-static OPTIONS: [OptionSpec; 2] = [
+static OPTIONS: [OptionSpec; 3] = [
     OptionSpec {
         key: "margin",
         kind: OptionKind::Quantity(Dimension::Fraction),
-        default: 0.05,
-        default_text: "0.05",
-        doc: "how far the apparent Dk may exceed the Dk a ply is modelled with",
+        // About the spread of a resonator Dk measurement (common practice,
+        // no source).
+        default: 0.015,
+        default_text: "1.5 %",
+        doc: "how far, relative to it, the apparent Dk may exceed the Dk a ply is modelled with",
     },
     OptionSpec {
         key: "assumed-dk-margin",
         kind: OptionKind::Quantity(Dimension::Fraction),
-        default: 0.05,
-        default_text: "0.05",
-        doc: "how far a class's `assumed-dk` may lie outside its line's apparent-Dk range",
+        default: 0.015,
+        default_text: "1.5 %",
+        doc: "how far, relative to it, a class's `assumed-dk` may lie outside its line's apparent-Dk range",
+    },
+    OptionSpec {
+        key: "tolerance-share",
+        kind: OptionKind::Quantity(Dimension::Fraction),
+        // A fifth of the tolerance: less is lost in etch and thickness
+        // spread (common practice, no source).
+        default: 0.2,
+        default_text: "20 %",
+        doc: "share of a line's impedance tolerance that a ply's mis-modelled Dk must move it by before the rule fires",
     },
 ];
+
+/// What modelling one ply with `assigned` instead of its apparent Dk does
+/// to one line: the ply's own share of the shift, from the line solved
+/// with that ply alone raised (`ClassAnalysis::ply_shares`).
+struct Effect {
+    class: usize,
+    dz: f64,
+    tolerance: f64,
+    /// s/m.
+    ddelay: f64,
+}
+
+/// The effect on every line with an impedance target that runs in the ply,
+/// except lines already sized for their rough copper (roughness moves them
+/// towards their target, so their width accounts for it).
+fn effects(cx: &RuleContext<'_>, ply: &Ply, assigned: f64) -> Vec<Effect> {
+    let (s, a) = (cx.stackup, cx.analysis);
+    ply.users
+        .iter()
+        .filter_map(|&i| {
+            let (nc, ca) = (&s.net_classes[i], &a.classes[i]);
+            let t = nc.impedance?;
+            let sm = ca.smooth.as_ref().ok()?;
+            let rough = ca.rough_worst?;
+            if (rough.z - t.target).abs() <= (sm.z - t.target).abs() {
+                return None;
+            }
+            let share = ca.ply_shares.iter().find(|p| p.layer == ply.layer)?;
+            let span = share.apparent - share.bulk;
+            let scale = if span > 1e-9 {
+                ((share.apparent - assigned) / span).max(0.0)
+            } else {
+                0.0
+            };
+            Some(Effect {
+                class: i,
+                dz: (share.numbers.z - sm.z) * scale,
+                tolerance: t.tolerance,
+                ddelay: (share.numbers.delay - sm.delay) * scale,
+            })
+        })
+        .collect()
+}
 
 impl Rule for CopperContactDkMismatch {
     fn meta(&self) -> &'static RuleMeta {
@@ -56,6 +110,7 @@ impl Rule for CopperContactDkMismatch {
         let a = cx.analysis;
         let margin = cx.option(&OPTIONS[0]);
         let class_margin = cx.option(&OPTIONS[1]);
+        let share = cx.option(&OPTIONS[2]);
         let mut out = Vec::new();
         for ply in &a.plies {
             let k = ply.layer;
@@ -71,7 +126,9 @@ impl Rule for CopperContactDkMismatch {
                 .filter(|(_, _, r)| match r {
                     FaceRoughness::Known(sf) => sf.rq().is_ok_and(|rq| rq > 0.0),
                     FaceRoughness::Unknown => true,
-                    FaceRoughness::NotDeclared => false,
+                    // No data: the class's own note and the impedance
+                    // rules carry the range; the ply claims nothing.
+                    FaceRoughness::NotDeclared | FaceRoughness::Implied(_) => false,
                 })
                 .collect();
             let primary = match d.modelled_dk {
@@ -83,19 +140,32 @@ impl Rule for CopperContactDkMismatch {
             let already_apparent = apparent_data && d.modelled_dk.is_none();
             let carries_lines = ply.carries_lines();
             let touches_rough = !rough_faces.is_empty();
+            // The largest effect on a line, if it matters against that
+            // line's tolerance.
+            let effect = effects(cx, ply, assigned)
+                .into_iter()
+                .filter(|e| e.dz.abs() >= share * e.tolerance)
+                .max_by(|x, y| {
+                    (x.dz / x.tolerance)
+                        .abs()
+                        .total_cmp(&(y.dz / y.tolerance).abs())
+                });
             if carries_lines
                 && touches_rough
                 && !already_apparent
-                && c.apparent_worst - assigned > margin
+                && assigned < c.apparent_worst * (1.0 - margin)
             {
-                out.push(rough_finding(
-                    cx,
-                    ply,
-                    assigned,
-                    d.modelled_dk.is_some(),
-                    primary,
-                    margin,
-                ));
+                if let Some(e) = effect {
+                    out.push(rough_finding(
+                        cx,
+                        ply,
+                        assigned,
+                        d.modelled_dk.is_some(),
+                        primary,
+                        c.apparent_worst * (1.0 - margin),
+                        &e,
+                    ));
+                }
             } else if c.faces.is_empty()
                 && (apparent_data || d.modelled_dk.is_some_and(|dk| dk - c.bulk.dk > margin))
             {
@@ -131,7 +201,7 @@ impl Rule for CopperContactDkMismatch {
             let (Some(assumed), Some((lo, hi))) = (nc.assumed_dk, ca.apparent_dk()) else {
                 continue;
             };
-            if assumed < lo - class_margin || assumed > hi + class_margin {
+            if assumed < lo * (1.0 - class_margin) || assumed > hi * (1.0 + class_margin) {
                 let dz = ca
                     .smooth
                     .as_ref()
@@ -178,11 +248,11 @@ fn rough_finding(
     assigned: f64,
     design: bool,
     primary: crate::source::Location,
-    margin: f64,
+    accepted_from: f64,
+    e: &Effect,
 ) -> Finding {
-    let (k, c, users) = (ply.layer, &ply.contact, &ply.users);
+    let (k, c) = (ply.layer, &ply.contact);
     let s = cx.stackup;
-    let a = cx.analysis;
     let d = s.dielectric(k).expect("dielectric layer");
     let layer = &s.layers[k];
     let faces: Vec<String> = c
@@ -190,46 +260,40 @@ fn rough_finding(
         .iter()
         .map(|(j, _, r)| {
             let what = match r {
-                FaceRoughness::Known(sf) => format!(
-                    "{} copper",
-                    sf.rz()
-                        .map_or("?".into(), |rz| format!("Rz {}", fmt_length(rz)))
-                ),
+                // As given: an Rz is never derived from an Rq in a message.
+                FaceRoughness::Known(sf) => match (sf.rz, sf.rq) {
+                    (Some(rz), _) => format!("Rz {} copper", fmt_length(rz)),
+                    (None, Some(rq)) => format!("Rq {} copper", fmt_length(rq)),
+                    (None, None) => "rough copper".to_string(),
+                },
                 FaceRoughness::Unknown => "bond-treated copper of unknown roughness".to_string(),
-                FaceRoughness::NotDeclared => "copper with no roughness data".to_string(),
+                FaceRoughness::NotDeclared | FaceRoughness::Implied(_) => {
+                    "copper with no roughness data".to_string()
+                }
             };
             format!("`{}` ({what})", s.layers[*j].name)
         })
         .collect();
     let unknown = c.faces.iter().any(|(_, _, r)| *r == FaceRoughness::Unknown);
-    // The impedance error on the line most affected.
-    let worst_line = users
-        .iter()
-        .filter_map(|&i| {
-            let ca = &a.classes[i];
-            let sm = ca.smooth.as_ref().ok()?;
-            let r = ca.rough_worst?;
-            Some((i, sm.z, r.z))
-        })
-        .max_by(|x, y| (x.1 - x.2).abs().total_cmp(&(y.1 - y.2).abs()));
-    let z_text = worst_line
-        .map(|(i, zs, zr)| {
-            format!(
-                "; net class `{}` reads {zr:.1} Ω instead of the {zs:.1} Ω its bulk Dk gives ({:+.1} Ω)",
-                s.net_classes[i].name,
-                zr - zs
-            )
-        })
-        .unwrap_or_default();
+    let nc = &s.net_classes[e.class];
+    let z_text = format!(
+        "; on its own this moves net class `{}` by {:+.1} Ω ({:.0} % of its ±{:.1} Ω tolerance) and {:+.3} ps/mm",
+        nc.name,
+        e.dz,
+        100.0 * e.dz.abs() / e.tolerance,
+        e.tolerance,
+        e.ddelay * 1e9
+    );
     let given = if design { "modelled Dk" } else { "bulk Dk" };
     let mut f = Finding::new(
         META.name,
         primary,
         format!(
-            "{} `{}` ({}) touches {} but is modelled with its {given} {assigned:.2}; its apparent Dk at {} is {}{z_text}",
+            "{} `{}` ({}{}) touches {} but is modelled with its {given} {assigned:.2}; its apparent Dk at {} is {}{z_text}",
             d.kind.as_str(),
             layer.name,
             fmt_length(d.thickness),
+            if d.is_pressed() { " pressed" } else { "" },
             faces.join(" and "),
             fmt_frequency(c.frequency),
             range(c.apparent_best, c.apparent_worst),
@@ -238,11 +302,15 @@ fn rough_finding(
     .label(format!("{given} {assigned:.2}"))
     .with_help(if unknown {
         format!(
-            "model this ply with Dk {} and ask the fabricator for the Rz/Rq of its bond-enhancement treatment to close the range (the unknown face is carried as best/worst case); tolerance margin {margin:.2}",
-            range(c.apparent_best, c.apparent_worst)
+            "ask the fabricator for the Rz/Rq of its bond-enhancement treatment to close the range {}; until then size the lines with Dk {:.2} for this ply (the worst case) in the impedance model the widths come from, and record it as `modelled-dk` (any value from {accepted_from:.2} is accepted)",
+            range(c.apparent_best, c.apparent_worst),
+            c.apparent_worst
         )
     } else {
-        format!("model this ply with `modelled-dk: {:.2}` (its apparent Dk at this frequency), or specify smoother foil", c.apparent_worst)
+        format!(
+            "size the lines with Dk {:.2} for this ply (its apparent Dk at this frequency) in the impedance model the widths come from, then record it as `modelled-dk: {:.2}` (any value from {accepted_from:.2} is accepted); `modelled-dk` states what the design used and does not change this tool's solve. Or specify smoother foil",
+            c.apparent_worst, c.apparent_worst
+        )
     })
     // Solved apparent Dk: 0.02 steps (see the range above).
     .key(format!(

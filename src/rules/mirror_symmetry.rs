@@ -9,6 +9,11 @@ use crate::units::fmt_length;
 
 pub struct StackupMirrorAsymmetry;
 
+/// Resin contents of mirror plies further apart than this (absolute) differ
+/// (common practice, no source: prepreg data give resin content to a few
+/// per cent).
+const RESIN_CONTENT_TOLERANCE: f64 = 0.03;
+
 static META: RuleMeta = RuleMeta {
     name: "stackup-mirror-asymmetry",
     summary:
@@ -98,6 +103,25 @@ impl Rule for StackupMirrorAsymmetry {
                         problems.push(format!("material `{}` vs `{}`", da.material, db.material));
                         keys.push(format!("{}/{}", da.material, db.material));
                     }
+                    // Glass style and resin content set a ply's expansion
+                    // and its shrink in pressing, as much as its thickness
+                    // (common practice, no source).
+                    if let (Some(ga), Some(gb)) = (&da.glass_style, &db.glass_style) {
+                        if ga != gb {
+                            problems.push(format!("glass style {ga} vs {gb}"));
+                            keys.push(format!("glass{ga}/{gb}"));
+                        }
+                    }
+                    if let (Some(ra), Some(rb)) = (da.resin_content, db.resin_content) {
+                        if (ra - rb).abs() > RESIN_CONTENT_TOLERANCE {
+                            problems.push(format!(
+                                "resin content {:.0} % vs {:.0} %",
+                                ra * 100.0,
+                                rb * 100.0
+                            ));
+                            keys.push(format!("resin{:.0}/{:.0}", ra * 100.0, rb * 100.0));
+                        }
+                    }
                 }
                 _ => {
                     problems.push(
@@ -123,7 +147,7 @@ impl Rule for StackupMirrorAsymmetry {
             .label("upper half")
             .secondary(cx.at_layer(j), "mirror position in the lower half")
             .with_help(format!(
-                "build the two halves alike (copper weight, dielectric thickness within {:.0} %, ply kind and material) so the board stays flat through reflow; or suppress with the fab's agreement",
+                "build the two halves alike (copper weight, dielectric thickness within {:.0} %, ply kind, material, glass style and resin content) so the board stays flat through reflow; or suppress with the fab's agreement",
                 tol * 100.0
             ));
             for k in keys {

@@ -10,6 +10,7 @@ mod board_thickness;
 mod broadside;
 mod copper_contact_dk;
 mod frequency_validity;
+mod impedance_off_target;
 mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
@@ -90,6 +91,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &mirror_symmetry::StackupMirrorAsymmetry,
         &board_thickness::BoardThicknessOffTarget,
         &copper_contact_dk::CopperContactDkMismatch,
+        &impedance_off_target::ImpedanceOffTarget,
         &roughness_drift::RoughnessImpedanceDrift,
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,

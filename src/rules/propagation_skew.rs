@@ -31,7 +31,7 @@ static OPTIONS: [OptionSpec; 2] = [
         kind: OptionKind::Quantity(Dimension::Length),
         default: 0.1,
         default_text: "100 mm",
-        doc: "coupled length used to state the skew and crosstalk in (a)",
+        doc: "coupled length used to state the skew in (a)",
     },
 ];
 
@@ -57,7 +57,6 @@ impl Rule for PropagationSkew {
             }
             let t_r = m.rise_time;
             let skew_len = m.per_metre * coupled;
-            let fext = m.fext_per_metre * coupled;
             let dielectrics: Vec<String> = ca
                 .geometry
                 .as_ref()
@@ -77,24 +76,28 @@ impl Rule for PropagationSkew {
                         .collect()
                 })
                 .unwrap_or_default();
+            let (faster, slower) = if ee > eo {
+                ("differential (odd)", "common (even)")
+            } else {
+                ("common (even)", "differential (odd)")
+            };
             out.push(
                 Finding::new(
                     META.name,
                     cx.at(&format!("{}/layer", nc.pointer)),
                     format!(
-                        "pair `{}` is a stripline in unequal dielectrics ({}): even-mode eps_eff {ee:.3} vs odd-mode {eo:.3}, a mode skew of {:.3} ps/mm ({:.2} ps over {}); far-end crosstalk about {:.1} % of the step for {} coupled at a {:.1} ps rise time",
+                        "pair `{}` is a stripline in unequal dielectrics ({}): even-mode eps_eff {ee:.3} vs odd-mode {eo:.3}, a mode skew of {:.3} ps/mm ({:.2} ps over {}, {:.0} % of a {:.1} ps rise time); the {faster} mode runs ahead of the {slower} mode, so common-mode noise converted along the route (bends, vias, intra-pair length mismatch) no longer lines up with the differential edge and turns partly into differential noise",
                         nc.name,
                         dielectrics.join(", "),
                         per_mm * 1e12,
-                        skew_len * 1e12,
+                        skew_len.abs() * 1e12,
                         fmt_length(coupled),
-                        fext * 100.0,
-                        fmt_length(coupled),
+                        100.0 * skew_len.abs() / t_r,
                         t_r * 1e12
                     ),
                 )
                 .label("inhomogeneous stripline")
-                .with_help("use prepreg and core of matching Dk on both sides of the pair (or a spread-glass, resin-matched build), centre the trace in the lower-Dk ply less, or keep coupled parallel runs short")
+                .with_help("use prepreg and core of matching Dk on both sides of the pair (a resin-matched build), or keep the coupled run short; length matching within the pair cannot cancel a mode skew")
                 // 0.01 ps/mm: 1 ps over 100 mm of coupled route.
                 .key(key_step(per_mm * 1e12, 0.01)),
             );

@@ -2,7 +2,7 @@
 //! reference planes its structure needs.
 
 use crate::finding::{Finding, Severity};
-use crate::model::{Stackup, Structure};
+use crate::model::{CopperRole, Structure};
 use crate::rules::{Rule, RuleContext, RuleMeta};
 
 pub struct MissingReferencePlane;
@@ -16,15 +16,6 @@ static META: RuleMeta = RuleMeta {
     options: &[],
 };
 
-/// Nearest copper layer above / below layer `i`, whatever its role.
-fn nearest_copper(s: &Stackup, i: usize, up: bool) -> Option<usize> {
-    if up {
-        (0..i).rev().find(|&j| s.copper(j).is_some())
-    } else {
-        (i + 1..s.layers.len()).find(|&j| s.copper(j).is_some())
-    }
-}
-
 impl Rule for MissingReferencePlane {
     fn meta(&self) -> &'static RuleMeta {
         &META
@@ -33,11 +24,11 @@ impl Rule for MissingReferencePlane {
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
         let mut out = Vec::new();
-        for nc in &s.net_classes {
+        for (nc, ca) in s.net_classes.iter().zip(&cx.analysis.classes) {
             let i = nc.layer_index;
             let layer = &s.layers[i];
-            let above = nearest_copper(s, i, true);
-            let below = nearest_copper(s, i, false);
+            let above = s.nearest_copper(i, true);
+            let below = s.nearest_copper(i, false);
             let is_ref = |j: Option<usize>| {
                 j.and_then(|j| s.copper(j))
                     .is_some_and(|c| c.role.is_reference())
@@ -119,6 +110,25 @@ impl Rule for MissingReferencePlane {
                             .secondary(layer_loc, "signal layer")
                             .with_help("add a plane on the missing side, or declare `structure: embedded-microstrip` and resize the trace for it")
                             .key(missing.join(",")),
+                        );
+                    }
+                }
+            }
+            // A mixed (split) layer as a reference: the numbers hold only
+            // over its solid pour.
+            if let Ok(g) = &ca.geometry {
+                for p in [Some(g.bottom_plane), g.top_plane].into_iter().flatten() {
+                    if s.copper(p).is_some_and(|c| c.role == CopperRole::Mixed) {
+                        out.push(
+                            Finding::new(META.name, cx.at(&format!("{}/layer", nc.pointer)), format!(
+                                "net class `{}` uses `{}`, a mixed (split) layer, as a reference: its impedance holds only where the pour under the route is continuous",
+                                nc.name, s.layers[p].name
+                            ))
+                            .with_severity(Severity::Note)
+                            .label("reference is a mixed layer")
+                            .secondary(cx.at_layer(p), "mixed layer")
+                            .with_help("keep the route over solid pour, never across a split or a void; where it must cross, stitch a capacitor or a via across the split next to it")
+                            .key(format!("mixed:{}", s.layers[p].name)),
                         );
                     }
                 }

@@ -16,6 +16,7 @@ mod determinism;
 mod examples;
 mod fuzz_regressions;
 mod hostile_input;
+mod judgement;
 mod materials_wiring;
 mod pre_commit;
 mod report;

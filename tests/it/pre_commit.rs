@@ -214,7 +214,7 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
     assert!(text.contains("Failed"), "hook did not fail:\n{text}");
     // The hook's own report reaches the user: an error-level rule, the file.
     assert!(
-        text.contains("roughness-impedance-drift")
+        text.contains("impedance-off-target")
             && text.contains("boards/line-card/board.stackup.yaml"),
         "{text}"
     );

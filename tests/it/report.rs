@@ -168,7 +168,7 @@ fn report_numbers_agree_with_the_impedance_command() {
     assert_eq!(code, Some(0));
     let v: serde_json::Value = serde_json::from_str(&json).unwrap();
     let classes = v[0]["net_classes"].as_array().unwrap();
-    assert_eq!(classes.len(), 4);
+    assert_eq!(classes.len(), 5);
     let header: Vec<&str> = md
         .lines()
         .find(|l| l.starts_with("| net class |"))

@@ -161,7 +161,7 @@ fn an_unused_inline_suppression_is_reported_at_its_entry() {
 fn sarif_carries_inline_suppressions_in_source_with_their_justification() {
     let (dir, _) = board_with(&[(
         "- name: host-56g-pam4",
-        "    suppress: [{rule: roughness-impedance-drift, reason: \"width retuned on the fab's coupon\"}]",
+        "    suppress: [{rule: impedance-off-target, reason: \"width retuned on the fab's coupon\"}]",
     )]);
     let sarif = dir.path().join("out.sarif");
     run(
@@ -172,7 +172,7 @@ fn sarif_carries_inline_suppressions_in_source_with_their_justification() {
     let results = log["runs"][0]["results"].as_array().unwrap();
     let r = results
         .iter()
-        .find(|r| r["ruleId"] == "roughness-impedance-drift")
+        .find(|r| r["ruleId"] == "impedance-off-target")
         .expect("the finding is still in the log");
     let s = &r["suppressions"][0];
     assert_eq!(s["kind"], "inSource");

@@ -574,6 +574,16 @@ pub const STANDARD_ED_FOIL: RoughSurface = RoughSurface {
     rz: Some(9.0e-6),
 };
 
+/// Low-profile electrodeposited foil, treated side: Rz 2 µm, Rq 0.5 µm, the
+/// smooth end of the foils a laminate is commonly built with (the
+/// "very low" and "hyper very low" profile classes, around Rz 1.5 to 3 µm;
+/// common practice, no source). The best case of a foil face whose profile
+/// the stackup does not state.
+pub const LOW_PROFILE_FOIL: RoughSurface = RoughSurface {
+    rq: Some(0.5e-6),
+    rz: Some(2.0e-6),
+};
+
 /// Fabricator's bond-enhancement treatment of unknown roughness, best case:
 /// Rz 1 µm, Rq 0.25 µm (low-etch treatments; common practice, no source).
 pub const BOND_TREATMENT_UNKNOWN_BEST: RoughSurface = RoughSurface {

@@ -79,7 +79,7 @@ fn copper_label(name: &str, c: &CopperLayer) -> Vec<String> {
                     _ => "smooth".into(),
                 },
                 FaceRoughness::Unknown => "roughness unknown".into(),
-                FaceRoughness::NotDeclared => "no data".into(),
+                FaceRoughness::NotDeclared | FaceRoughness::Implied(_) => "no data".into(),
             };
             let foil = f
                 .foil
@@ -193,7 +193,7 @@ fn teeth(out: &mut String, x0: f64, x1: f64, y: f64, dir: f64, face: &FaceRoughn
             );
             return;
         }
-        FaceRoughness::NotDeclared => return,
+        FaceRoughness::NotDeclared | FaceRoughness::Implied(_) => return,
     };
     let mut d = format!("M{x0:.1} {y:.1}");
     let mut x = x0;
