@@ -10,6 +10,7 @@ mod board_thickness;
 mod broadside;
 mod copper_contact_dk;
 mod frequency_validity;
+mod glass_weave_skew;
 mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
@@ -93,6 +94,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &roughness_drift::RoughnessImpedanceDrift,
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,
+        &glass_weave_skew::GlassWeaveSkew,
     ]
 }
 
