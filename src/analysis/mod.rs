@@ -18,6 +18,7 @@ mod loss;
 pub mod materials;
 pub mod section;
 mod solve;
+pub mod weave;
 
 pub use solve::{family_sections, AnalysisOptions, DEFAULT_MAX_MESH_NODES, MAX_FEATURE_RATIO};
 use solve::{solvable, Solver};
@@ -188,6 +189,9 @@ pub struct Analysis {
     pub plies: Vec<dielectrics::Ply>,
     /// The delays of each matched group's nets, same order as the groups.
     pub groups: Vec<delay::GroupDelays>,
+    /// Fibre-weave skew per net class (same order; `None` for classes that
+    /// are not pairs or have no ply naming a glass style).
+    pub weave: Vec<Option<weave::WeaveSkew>>,
 }
 
 /// The project's field-solver model name, as reported.
@@ -420,8 +424,10 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         materials,
         plies: Vec::new(),
         groups,
+        weave: Vec::new(),
     };
     a.plies = dielectrics::plies(s, &a);
+    a.weave = weave::weave_skews(s, &a.classes);
     a
 }
 

@@ -100,6 +100,7 @@ pub(super) fn estimate_resin_plies(
                 sys.glass_dk,
                 w * 100.0
             )),
+            glass_dk: Some(sys.glass_dk),
         });
     }
 }

@@ -377,6 +377,18 @@ pub(super) fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option
             ok = false;
         }
     }
+    // Dk of the glass fabric of a woven laminate, for the fibre-weave
+    // estimate (E-glass when not given; see stackup_physics::fab::E_GLASS_DK).
+    let glass_dk = r.number(&format!("{ptr}/glass-dk"), "glass Dk");
+    if let Some(g) = glass_dk.filter(|g| !(1.0..=20.0).contains(g)) {
+        r.error(
+            &format!("{ptr}/glass-dk"),
+            format!("`glass-dk` of material `{name}` is {g}, outside 1 to 20"),
+            "not physical",
+            None,
+        );
+        ok = false;
+    }
     if !ok || points.is_empty() {
         return None;
     }
@@ -395,6 +407,7 @@ pub(super) fn read_material(r: &mut Reader<'_>, ptr: &str, name: &str) -> Option
         method,
         dk_tolerance,
         estimate: None,
+        glass_dk,
     })
 }
 

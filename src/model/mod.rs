@@ -305,6 +305,9 @@ pub struct Material {
     /// Set when the Dk is an estimate from resin content (see
     /// [`ResinSystem`]), with a sentence saying how it was made.
     pub estimate: Option<String>,
+    /// Dk of the glass fabric, when the material (or its resin system)
+    /// gives it: the fibre-weave estimate's glass (E-glass when `None`).
+    pub glass_dk: Option<f64>,
 }
 
 /// A resin system: plies made of it get a Dk estimated from their resin

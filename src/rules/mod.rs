@@ -10,6 +10,7 @@ mod board_thickness;
 mod broadside;
 mod copper_contact_dk;
 mod frequency_validity;
+mod glass_weave_skew;
 mod impedance_off_target;
 mod mirror_symmetry;
 mod propagation_skew;
@@ -95,6 +96,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &roughness_drift::RoughnessImpedanceDrift,
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,
+        &glass_weave_skew::GlassWeaveSkew,
     ]
 }
 

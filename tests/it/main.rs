@@ -15,6 +15,7 @@ mod core_rules;
 mod determinism;
 mod examples;
 mod fuzz_regressions;
+mod glass_weave;
 mod hostile_input;
 mod judgement;
 mod materials_wiring;

@@ -120,6 +120,36 @@ pub fn lichtenecker_dk(components: &[(f64, f64)]) -> Result<f64, InputError> {
     Ok((ln_eps / sum_v).exp())
 }
 
+/// The Dk of the one unknown component of a two-component Lichtenecker mix
+/// (the inverse of [`lichtenecker_dk`]): ln eps_x = (ln eps_mix - v ln
+/// eps_k)/(1 - v), with `v` the volume fraction and `eps_known` the Dk of
+/// the known component. Used to recover the resin Dk of a ply from its
+/// measured Dk and its glass content.
+///
+/// Source: as [`lichtenecker_dk`] (solved for one component).
+///
+/// Errors: `mix_dk` or `eps_known` not a Dk >= 1; `v` outside [0, 1) (the
+/// unknown component must have some volume); a result below 1 or not
+/// finite (the mix cannot be made from the known component).
+pub fn lichtenecker_other_dk(mix_dk: f64, v: f64, eps_known: f64) -> Result<f64, InputError> {
+    require_eps_r("mixture Dk", mix_dk)?;
+    require_eps_r("component Dk", eps_known)?;
+    require_fraction("volume fraction", v)?;
+    if v >= 1.0 {
+        return Err(InputError::new(
+            "the unknown component has no volume (volume fraction 1)",
+        ));
+    }
+    let eps = ((mix_dk.ln() - v * eps_known.ln()) / (1.0 - v)).exp();
+    if eps.is_finite() && eps >= 1.0 {
+        Ok(eps)
+    } else {
+        Err(InputError::new(format!(
+            "Dk {mix_dk} is no mix of Dk {eps_known} at volume fraction {v} with a material of Dk >= 1 (got {eps})"
+        )))
+    }
+}
+
 /// Resin volume fraction of a glass/resin ply from its resin content by
 /// weight: v_r = (w/rho_r) / [w/rho_r + (1 - w)/rho_g] (definition of mass and
 /// volume fractions; voids neglected).
@@ -158,7 +188,30 @@ pub fn glass_ply_dk(
     lichtenecker_dk(&[(v, resin_dk), (1.0 - v, glass_dk)])
 }
 
-/// A woven glass style with its typical prepreg build.
+/// How open a glass fabric's weave is: whether resin-rich windows remain
+/// between its yarn bundles (the source of the fibre-weave Dk variation a
+/// trace sees).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Weave {
+    /// Round yarn bundles with resin-rich windows between them (106, 1080,
+    /// 2116, 7628): the classic open styles.
+    Open,
+    /// Mechanically spread (flattened) yarns or a weave tight enough that
+    /// the bundles nearly close the windows (1035, 1067, 1078, 1086, 2113,
+    /// 3313): the usual mitigation of fibre-weave skew.
+    Spread,
+}
+
+impl Weave {
+    pub fn as_str(self) -> &'static str {
+        match self {
+            Weave::Open => "open",
+            Weave::Spread => "spread",
+        }
+    }
+}
+
+/// A woven glass style with its typical prepreg build and weave geometry.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct GlassStyle {
     /// Style number (IPC-4412 designation, from memory).
@@ -167,46 +220,110 @@ pub struct GlassStyle {
     pub pressed_thickness: f64,
     /// Typical resin content by weight, fraction.
     pub resin_content: f64,
+    /// Open or spread weave (common practice, no source).
+    pub weave: Weave,
+    /// Centre-to-centre pitch of the yarn bundles in the coarser direction,
+    /// m: 25.4 mm over the lower of the warp and fill thread counts (ends
+    /// per inch; thread counts as IPC-4412 tabulates them, from memory).
+    pub yarn_pitch: f64,
+    /// Fraction of the width the bundles of one direction cover as pressed
+    /// in a ply (1 = no resin window left). Estimates, no source: the
+    /// weave's openness as a number, for [`crate::weave`].
+    pub coverage: f64,
 }
 
-/// Common glass styles with typical pressed thickness per ply and resin
-/// content by weight. Common practice, no source: fabricators offer several
-/// resin contents per style, so treat these as defaults to override.
-pub const GLASS_STYLES: [GlassStyle; 7] = [
+/// Yarn pitch from a thread count in ends per inch.
+const fn pitch(ends_per_inch: f64) -> f64 {
+    25.4e-3 / ends_per_inch
+}
+
+/// Common glass styles with typical pressed thickness per ply, resin
+/// content by weight and weave geometry. Thickness and resin content:
+/// common practice, no source (fabricators offer several resin contents
+/// per style, so treat these as defaults to override). Thread counts (warp
+/// x fill, ends per inch) from memory of IPC-4412: 106 56x56, 1035 66x68,
+/// 1067 70x70, 1078 54x54, 1080 60x47, 1086 60x62, 2113 60x56, 3313 61x62,
+/// 2116 60x58, 7628 44x32. Coverage: estimates, no source.
+pub const GLASS_STYLES: [GlassStyle; 10] = [
     GlassStyle {
         name: "106",
         pressed_thickness: 50e-6,
         resin_content: 0.72,
+        weave: Weave::Open,
+        yarn_pitch: pitch(56.0),
+        coverage: 0.45,
     },
     GlassStyle {
         name: "1035",
         pressed_thickness: 60e-6,
         resin_content: 0.68,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(66.0),
+        coverage: 0.95,
+    },
+    GlassStyle {
+        name: "1067",
+        pressed_thickness: 55e-6,
+        resin_content: 0.70,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(70.0),
+        coverage: 0.95,
     },
     GlassStyle {
         name: "1078",
         pressed_thickness: 75e-6,
         resin_content: 0.67,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(54.0),
+        coverage: 0.95,
     },
     GlassStyle {
         name: "1080",
         pressed_thickness: 70e-6,
         resin_content: 0.63,
+        weave: Weave::Open,
+        yarn_pitch: pitch(47.0),
+        coverage: 0.55,
+    },
+    GlassStyle {
+        name: "1086",
+        pressed_thickness: 70e-6,
+        resin_content: 0.62,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(60.0),
+        coverage: 0.95,
+    },
+    GlassStyle {
+        name: "2113",
+        pressed_thickness: 90e-6,
+        resin_content: 0.57,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(56.0),
+        coverage: 0.88,
     },
     GlassStyle {
         name: "3313",
         pressed_thickness: 100e-6,
         resin_content: 0.56,
+        weave: Weave::Spread,
+        yarn_pitch: pitch(61.0),
+        coverage: 0.9,
     },
     GlassStyle {
         name: "2116",
         pressed_thickness: 115e-6,
         resin_content: 0.54,
+        weave: Weave::Open,
+        yarn_pitch: pitch(58.0),
+        coverage: 0.75,
     },
     GlassStyle {
         name: "7628",
         pressed_thickness: 185e-6,
         resin_content: 0.44,
+        weave: Weave::Open,
+        yarn_pitch: pitch(32.0),
+        coverage: 0.8,
     },
 ];
 

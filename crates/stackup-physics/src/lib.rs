@@ -21,3 +21,4 @@ pub mod dispersion;
 pub mod fab;
 pub mod loss;
 pub mod roughness;
+pub mod weave;

@@ -10,6 +10,8 @@ mod materials_fab;
 mod materials_loss;
 mod materials_roughness;
 mod materials_roughness_properties;
+mod materials_weave;
+mod reference;
 mod tline_fieldsolver;
 mod tline_properties;
 mod tline_reference;

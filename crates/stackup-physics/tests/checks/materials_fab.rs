@@ -97,7 +97,7 @@ fn glass_ply_dk_trends() {
                 && (0.40..=0.75).contains(&g.resin_content)
         );
     }
-    assert_eq!(GLASS_STYLES.len(), 7);
+    assert_eq!(GLASS_STYLES.len(), 10);
 }
 
 /// W_top = W_bottom - 2t/EF (common practice; etch factor per IPC-T-50, from

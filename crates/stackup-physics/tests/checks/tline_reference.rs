@@ -16,32 +16,10 @@
 use stackup_physics::cpw::gcpw;
 use stackup_physics::microstrip::{hammerstad_jensen, microstrip_dispersive};
 
-struct Row {
-    kind: String,
-    v: Vec<f64>,
-}
+use crate::reference::{self, Row};
 
 fn table() -> (String, Vec<Row>) {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/tests/reference/tline_reference.tsv"
-    );
-    let text = std::fs::read_to_string(path).expect("reference table present");
-    let mut lines = text.lines();
-    let header = lines.next().unwrap().to_string();
-    let cols = lines.next().unwrap();
-    assert!(cols.starts_with("kind\tw\ts\th\tt\teps_r\tf\t"));
-    let rows = lines
-        .filter(|l| !l.trim().is_empty())
-        .map(|l| {
-            let mut it = l.split('\t');
-            let kind = it.next().unwrap().to_string();
-            let v = it.map(|x| x.parse::<f64>().unwrap()).collect::<Vec<_>>();
-            assert_eq!(v.len(), 10, "{l}");
-            Row { kind, v }
-        })
-        .collect();
-    (header, rows)
+    reference::table("tline_reference.tsv", "kind\tw\ts\th\tt\teps_r\tf\t", 10)
 }
 
 fn rel(a: f64, b: f64) -> f64 {
