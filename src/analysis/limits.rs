@@ -3,6 +3,7 @@
 //! dielectrics: computed once here, judged by the rules.
 
 use stackup_physics::consts::C0;
+use stackup_physics::coupled::ModalPair;
 use stackup_physics::modes;
 pub use stackup_physics::modes::{PitchCheck, PitchClass};
 
@@ -129,11 +130,44 @@ pub fn mode_skew(nc: &NetClass, numbers: Option<&LineNumbers>, f: f64) -> Option
     let p = n.pair?;
     let (ee, eo) = (p.eps_eff_even, p.eps_eff_odd);
     let per_metre = (ee.sqrt() - eo.sqrt()) / C0;
-    let rise_time = 0.35 / f.max(1.0);
+    let rise_time = rise_time(f);
     Some(ModeSkew {
         eps_eff_even: ee,
         eps_eff_odd: eo,
         per_metre,
         rise_time,
     })
+}
+
+/// Crosstalk from a neighbouring pair of the same class at `pitch`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PairCrosstalk {
+    /// Centre-to-centre pitch of the pairs, m.
+    pub pitch: f64,
+    /// Saturated near-end crosstalk, differential to differential.
+    pub next: f64,
+    /// Far-end crosstalk per metre of coupled length at `rise_time`, 1/m.
+    pub fext_per_metre: f64,
+    /// Rise time the class's frequency implies (0.35/f), s.
+    pub rise_time: f64,
+}
+
+/// Pair-to-pair crosstalk from the modes of two single traces at the three
+/// edge gaps of `stackup_physics::crosstalk::pair_gaps` (superposition,
+/// weak coupling).
+pub fn pair_crosstalk(pitch: f64, modes: [ModalPair; 3], f: f64) -> PairCrosstalk {
+    use stackup_physics::crosstalk::{fext_per_metre, next_coefficient, pair_to_pair};
+    let rise_time = rise_time(f);
+    PairCrosstalk {
+        pitch,
+        next: pair_to_pair(modes.map(|m| next_coefficient(&m))),
+        fext_per_metre: pair_to_pair(modes.map(|m| fext_per_metre(&m, rise_time))),
+        rise_time,
+    }
+}
+
+/// The rise time a class's frequency implies, t_r = 0.35/f (the knee
+/// frequency, common practice), s.
+fn rise_time(f: f64) -> f64 {
+    0.35 / f.max(1.0)
 }

@@ -161,6 +161,8 @@ pub struct ClassAnalysis {
     pub limits: Option<limits::StructureLimits>,
     /// Mode skew of a differential stripline.
     pub mode_skew: Option<limits::ModeSkew>,
+    /// Crosstalk to the neighbouring pair at the class's `pair-pitch`.
+    pub pair_crosstalk: Option<limits::PairCrosstalk>,
     /// Each ply of the section that touches rough copper, with the line
     /// solved with that ply alone at its apparent Dk (smooth copper, every
     /// other ply at its bulk Dk): the ply's own share of the line's shift.
@@ -205,6 +207,9 @@ struct Pending {
     /// Plies solved alone at their apparent Dk: (layer, bulk, apparent,
     /// member index).
     plies: Vec<(usize, f64, f64, usize)>,
+    /// Two single traces at the three gaps of the neighbouring pair
+    /// (`pair-pitch`): member indices.
+    neighbours: Option<[usize; 3]>,
     /// Why the section is not solved (outside the solver's range).
     blocked: Option<ClassError>,
     /// Key of the family (smooth, best-case rough, worst-case rough
@@ -237,6 +242,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             Ok((Err(why), g)) => {
                 pending.push(Ok(Pending {
                     plies: Vec::new(),
+                    neighbours: None,
                     family: String::new(),
                     smooth: 0,
                     best: 0,
@@ -277,8 +283,19 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                     let m = index_of(section::cross_section(&raised, None));
                     plies.push((sl.layer, c.bulk.dk, c.apparent_worst, m));
                 }
+                // The neighbouring pair: two of its traces at each of the
+                // three edge gaps the superposition needs.
+                let neighbours = nc.pair_pitch.zip(nc.spacing).map(|(pitch, sp)| {
+                    let gap = pitch - 2.0 * nc.width - sp;
+                    stackup_physics::crosstalk::pair_gaps(gap, nc.width, sp).map(|d| {
+                        let mut two = g.clone();
+                        two.spacing = Some(d);
+                        index_of(section::cross_section(&two, None))
+                    })
+                });
                 let p = Pending {
                     plies,
+                    neighbours,
                     family: solver.family_key(&members),
                     smooth: 0,
                     best,
@@ -383,6 +400,14 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .map(|sm| loss::line_loss(&g, &dk, f, sm));
         let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
         let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);
+        let pair_crosstalk = p.neighbours.and_then(|m| {
+            let modes = |i: usize| numbers(&p.family, m[i]).ok().and_then(|n| n.pair);
+            Some(limits::pair_crosstalk(
+                nc.pair_pitch?,
+                [modes(0)?, modes(1)?, modes(2)?],
+                f,
+            ))
+        });
         let ply_shares = p
             .plies
             .iter()
@@ -410,6 +435,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             notes,
             limits,
             mode_skew,
+            pair_crosstalk,
             ply_shares,
         });
     }
@@ -481,6 +507,7 @@ impl ClassAnalysis {
             notes,
             limits: None,
             mode_skew: None,
+            pair_crosstalk: None,
             ply_shares: Vec::new(),
         }
     }

@@ -401,6 +401,9 @@ pub struct NetClass {
     pub modulation: Option<Modulation>,
     pub assumed_dk: Option<f64>,
     pub via_fence_pitch: Option<f64>,
+    /// Centre-to-centre distance to the neighbouring pair of the same
+    /// class (differential classes), m.
+    pub pair_pitch: Option<f64>,
     pub launch_valid_to: Option<f64>,
 }
 

@@ -75,6 +75,7 @@ pub(super) fn read_net_class(
     let spacing = len(r, "spacing", "pair spacing");
     let gap = len(r, "gap", "coplanar gap");
     let pitch = len(r, "via-fence-pitch", "via-fence pitch");
+    let pair_pitch = len(r, "pair-pitch", "pair pitch");
     let etch_factor = r.number(&format!("{ptr}/etch-factor"), "etch factor");
     if let Some(ef) = etch_factor {
         if ef <= 0.0 {
@@ -159,6 +160,7 @@ pub(super) fn read_net_class(
         None
     };
     let (width, top_width, spacing, gap, pitch) = (width??, top_width?, spacing?, gap?, pitch?);
+    let pair_pitch = pair_pitch?;
     let (max_frequency, launch, data_rate) = (max_frequency?, launch?, data_rate?);
     if structure.is_differential() && spacing.is_none() {
         r.error(
@@ -168,6 +170,34 @@ pub(super) fn read_net_class(
             Some("add e.g. `spacing: 0.15 mm`".into()),
         );
         return None;
+    }
+    if let Some(pp) = pair_pitch {
+        let at = format!("{ptr}/pair-pitch");
+        if !structure.is_differential() {
+            r.error(
+                &at,
+                format!("`pair-pitch` is the centre-to-centre distance to the neighbouring pair, but net class `{name}` is not a differential pair"),
+                "not a pair",
+                Some("remove it, or declare a diff- structure with `spacing`".into()),
+            );
+            return None;
+        }
+        let own = 2.0 * width + spacing.unwrap_or(0.0);
+        if pp <= own {
+            r.error(
+                &at,
+                format!(
+                    "pair pitch {} is not wider than the pair itself ({} for two {} traces {} apart): the neighbouring pair would overlap it",
+                    fmt_len(pp),
+                    fmt_len(own),
+                    fmt_len(width),
+                    fmt_len(spacing.unwrap_or(0.0))
+                ),
+                "pairs overlap",
+                Some("give the centre-to-centre distance of the two pairs".into()),
+            );
+            return None;
+        }
     }
     if structure == Structure::CoplanarGrounded && gap.is_none() {
         r.error(
@@ -265,6 +295,7 @@ pub(super) fn read_net_class(
         modulation,
         assumed_dk,
         via_fence_pitch: pitch,
+        pair_pitch,
         launch_valid_to: launch,
     })
 }

@@ -76,6 +76,19 @@ impl Rule for PropagationSkew {
                         .collect()
                 })
                 .unwrap_or_default();
+            // Crosstalk only to a real neighbour at a stated pitch.
+            let neighbour = ca.pair_crosstalk.map_or_else(
+                || " (give `pair-pitch` for the crosstalk to a neighbouring pair)".to_string(),
+                |x| {
+                    format!(
+                        "; to a neighbouring pair at {} pitch: near-end crosstalk about {:.2} %, far-end about {:.2} % over {} (superposition estimate)",
+                        fmt_length(x.pitch),
+                        100.0 * x.next.abs(),
+                        100.0 * (x.fext_per_metre * coupled).abs(),
+                        fmt_length(coupled)
+                    )
+                },
+            );
             let (faster, slower) = if ee > eo {
                 ("differential (odd)", "common (even)")
             } else {
@@ -86,7 +99,7 @@ impl Rule for PropagationSkew {
                     META.name,
                     cx.at(&format!("{}/layer", nc.pointer)),
                     format!(
-                        "pair `{}` is a stripline in unequal dielectrics ({}): even-mode eps_eff {ee:.3} vs odd-mode {eo:.3}, a mode skew of {:.3} ps/mm ({:.2} ps over {}, {:.0} % of a {:.1} ps rise time); the {faster} mode runs ahead of the {slower} mode, so common-mode noise converted along the route (bends, vias, intra-pair length mismatch) no longer lines up with the differential edge and turns partly into differential noise",
+                        "pair `{}` is a stripline in unequal dielectrics ({}): even-mode eps_eff {ee:.3} vs odd-mode {eo:.3}, a mode skew of {:.3} ps/mm ({:.2} ps over {}, {:.0} % of a {:.1} ps rise time); the {faster} mode runs ahead of the {slower} mode, so common-mode noise converted along the route (bends, vias, intra-pair length mismatch) no longer lines up with the differential edge and turns partly into differential noise{neighbour}",
                         nc.name,
                         dielectrics.join(", "),
                         per_mm * 1e12,

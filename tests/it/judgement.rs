@@ -3,6 +3,7 @@
 //! Each scenario names where its expectation comes from.
 
 use crate::common::board::Board;
+use stackup_lint::analysis::limits::PairCrosstalk;
 use stackup_lint::analysis::{analyze, Analysis};
 use stackup_lint::engine;
 use stackup_lint::engine::load_text;
@@ -392,4 +393,95 @@ fn missing_facts_are_noted() {
         assert!(help.contains("plane on the layer next to it"), "{help}");
     }
     assert!(!of(&f, "missing-reference-plane").is_empty(), "{f:#?}");
+}
+
+/// An asymmetric differential stripline (core Dk 3.45 below, resin-rich
+/// prepreg Dk 3.05 above), with `extra` added to the class.
+fn asymmetric_pair(extra: &str) -> String {
+    Board::new()
+        .material("core", "dk: 3.45, df: 0.004, frequency: 10 GHz, valid-to: 50 GHz")
+        .material("pp", "dk: 3.05, df: 0.005, frequency: 10 GHz, valid-to: 50 GHz")
+        .copper("P1", "role: plane, thickness: 17 um")
+        .dielectric("c1", "kind: core, material: core, thickness: 0.13 mm")
+        .copper("S", "role: signal, thickness: 17 um")
+        .dielectric("p1", "kind: prepreg, material: pp, thickness: 0.13 mm")
+        .copper("P2", "role: plane, thickness: 17 um")
+        .class(&format!(
+            "name: d, structure: diff-stripline, layer: S, width: 0.12 mm, spacing: 0.15 mm, impedance: {{target: 90 ohm, tolerance: 10 %}}, data-rate: 56 Gbps, modulation: pam4{extra}"
+        ))
+        .yaml()
+}
+
+#[test]
+fn mode_skew_is_not_reported_as_crosstalk_between_the_pairs_own_halves() {
+    // A pair driven differentially runs in the odd mode alone, so the
+    // even/odd delay difference is no aggressor-victim crosstalk: the
+    // message gives the mode skew and asks for the neighbour's pitch.
+    let f = all(&asymmetric_pair(""));
+    let m = of(&f, "propagation-skew");
+    assert_eq!(m.len(), 1, "{f:#?}");
+    let text = &m[0].message;
+    assert!(text.contains("mode skew of"), "{text}");
+    assert!(!text.contains("far-end crosstalk about"), "{text}");
+    assert!(text.contains("give `pair-pitch`"), "{text}");
+    let help = m[0].help.as_deref().unwrap();
+    assert!(!help.contains("less"), "{help}");
+}
+
+#[test]
+fn pair_to_pair_crosstalk_needs_a_pitch_and_falls_with_it() {
+    // Common practice, no source: far-end crosstalk between neighbouring
+    // pairs on one board is about 0.1-1.3 % at practical pair gaps (edge
+    // gap of two to three dielectric heights here).
+    let x = |pitch_mm: f64| {
+        let (_, a) = analysed(&asymmetric_pair(&format!(", pair-pitch: {pitch_mm} mm")));
+        a.classes[0].pair_crosstalk.unwrap()
+    };
+    let (near, mid, far) = (x(0.6), x(0.8), x(1.0));
+    let (n, f) = (
+        |c: PairCrosstalk| c.next.abs(),
+        |c: PairCrosstalk| (c.fext_per_metre * 0.1).abs(),
+    );
+    assert!(
+        n(near) > n(mid) && n(mid) > n(far),
+        "{near:?} {mid:?} {far:?}"
+    );
+    assert!(
+        f(near) > f(mid) && f(mid) > f(far),
+        "{near:?} {mid:?} {far:?}"
+    );
+    // A 0.21 mm edge gap (0.8 of the plane spacing) is a practical one.
+    assert!(
+        (0.001..=0.013).contains(&f(near)),
+        "{near:?}: FEXT over 100 mm"
+    );
+    assert!(n(near) < 0.02, "{near:?}");
+    let f = all(&asymmetric_pair(", pair-pitch: 0.8 mm"));
+    let m = of(&f, "propagation-skew");
+    assert!(
+        m[0].message.contains("neighbouring pair at 800.0 µm pitch"),
+        "{}",
+        m[0].message
+    );
+}
+
+#[test]
+fn a_pair_pitch_must_fit_the_pair_and_belong_to_a_pair() {
+    for (text, want) in [
+        (
+            asymmetric_pair(", pair-pitch: 0.3 mm"),
+            "is not wider than the pair itself",
+        ),
+        (
+            stripline("0.088 mm", SMOOTH_FACES, ", pair-pitch: 1 mm"),
+            "is not a differential pair",
+        ),
+    ] {
+        let loaded = load_text("t.stackup.yaml", &text, &InputLimits::default());
+        assert!(
+            loaded.problems.iter().any(|p| p.message.contains(want)),
+            "{:#?}",
+            loaded.problems
+        );
+    }
 }

@@ -8,6 +8,7 @@ pub mod consts;
 // Transmission-line engine.
 pub mod coupled;
 pub mod cpw;
+pub mod crosstalk;
 pub mod elliptic;
 pub mod fieldsolver;
 pub mod microstrip;
