@@ -23,6 +23,8 @@ pub enum Dimension {
     Fraction,
     /// Surface roughness, a length (um by convention but the unit is required).
     Roughness,
+    /// A loss in decibels. Units: dB.
+    Loss,
 }
 
 impl Dimension {
@@ -35,6 +37,7 @@ impl Dimension {
             Dimension::Time => "a time (s, ns, ps, fs)",
             Dimension::Impedance => "an impedance (ohm)",
             Dimension::Fraction => "a fraction (0 to 1) or a percentage (%)",
+            Dimension::Loss => "a loss in dB",
         }
     }
 
@@ -120,6 +123,7 @@ fn unit_scale(unit: &str) -> Option<(f64, Family)> {
         "mohm" | "mΩ" => (1e-3, Ohm),
         "kohm" | "kΩ" => (1e3, Ohm),
         "%" => (1e-2, Frac),
+        "dB" | "db" => (1.0, Db),
         _ => return None,
     };
     Some(s)
@@ -134,6 +138,7 @@ enum Family {
     Time,
     Ohm,
     Frac,
+    Db,
 }
 
 fn accepts(dim: Dimension, fam: Family) -> bool {
@@ -148,6 +153,7 @@ fn accepts(dim: Dimension, fam: Family) -> bool {
             | (Dimension::Time, Family::Time)
             | (Dimension::Impedance, Family::Ohm)
             | (Dimension::Fraction, Family::Frac)
+            | (Dimension::Loss, Family::Db)
     )
 }
 

@@ -151,6 +151,10 @@ pub struct ClassAnalysis {
     /// Width that brings the worst-case rough line back to its target, m.
     pub width_for_target: Option<f64>,
     pub loss: Option<LossNumbers>,
+    /// For a class with a `loss-budget`: the frequency it is judged at (the
+    /// Nyquist frequency of a data rate, else the analysis frequency) and
+    /// the loss per metre there.
+    pub budget_loss: Option<(f64, LossNumbers)>,
     /// Dk of each dielectric of the section at the frequency (layer index).
     pub dk: BTreeMap<usize, DkAt>,
     /// Name of the model that produced the numbers.
@@ -398,6 +402,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .as_ref()
             .ok()
             .map(|sm| loss::line_loss(&g, &dk, f, sm));
+        let budget_loss = nc.loss_budget.and(smooth.as_ref().ok()).and_then(|sm| {
+            let fb = nc.nyquist.unwrap_or(f);
+            if fb == f {
+                return loss.map(|l| (f, l));
+            }
+            let dk_b: BTreeMap<usize, DkAt> = g
+                .slabs
+                .iter()
+                .filter_map(|sl| Some((sl.layer, dk_at(sl.layer, fb)?)))
+                .collect();
+            Some((fb, loss::line_loss(&g, &dk_b, fb, sm)))
+        });
         let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
         let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);
         let pair_crosstalk = p.neighbours.and_then(|m| {
@@ -430,6 +446,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             implied_faces,
             width_for_target,
             loss,
+            budget_loss,
             dk,
             model: FIELD_SOLVER,
             notes,
@@ -502,6 +519,7 @@ impl ClassAnalysis {
             implied_faces: Vec::new(),
             width_for_target: None,
             loss: None,
+            budget_loss: None,
             dk: BTreeMap::new(),
             model: FIELD_SOLVER,
             notes,

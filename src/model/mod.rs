@@ -372,6 +372,15 @@ pub struct ImpedanceTarget {
     pub tolerance: f64,
 }
 
+/// An insertion-loss budget: at most `loss` dB over `length` of route.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LossBudget {
+    /// dB.
+    pub loss: f64,
+    /// m.
+    pub length: f64,
+}
+
 #[derive(Debug, Clone)]
 pub struct NetClass {
     pub name: String,
@@ -404,6 +413,9 @@ pub struct NetClass {
     /// Centre-to-centre distance to the neighbouring pair of the same
     /// class (differential classes), m.
     pub pair_pitch: Option<f64>,
+    /// Insertion-loss budget, judged at the Nyquist frequency of a data
+    /// rate, else at the highest frequency.
+    pub loss_budget: Option<LossBudget>,
     pub launch_valid_to: Option<f64>,
 }
 

@@ -76,6 +76,30 @@ pub(super) fn read_net_class(
     let gap = len(r, "gap", "coplanar gap");
     let pitch = len(r, "via-fence-pitch", "via-fence pitch");
     let pair_pitch = len(r, "pair-pitch", "pair pitch");
+    let loss_budget = if r.node(&format!("{ptr}/loss-budget")).is_some() {
+        let loss = r.bounded(
+            &format!("{ptr}/loss-budget/loss"),
+            Dimension::Loss,
+            "loss budget",
+            0.0,
+            1000.0,
+            |v| format!("{v:.1} dB"),
+        );
+        let length = r.bounded(
+            &format!("{ptr}/loss-budget/length"),
+            Dimension::Length,
+            "budgeted length",
+            0.0,
+            10.0,
+            fmt_len,
+        );
+        Some(
+            loss.zip(length)
+                .map(|(loss, length)| LossBudget { loss, length }),
+        )
+    } else {
+        Some(None)
+    };
     let etch_factor = r.number(&format!("{ptr}/etch-factor"), "etch factor");
     if let Some(ef) = etch_factor {
         if ef <= 0.0 {
@@ -161,6 +185,7 @@ pub(super) fn read_net_class(
     };
     let (width, top_width, spacing, gap, pitch) = (width??, top_width?, spacing?, gap?, pitch?);
     let pair_pitch = pair_pitch?;
+    let loss_budget = loss_budget?;
     let (max_frequency, launch, data_rate) = (max_frequency?, launch?, data_rate?);
     if structure.is_differential() && spacing.is_none() {
         r.error(
@@ -296,6 +321,7 @@ pub(super) fn read_net_class(
         assumed_dk,
         via_fence_pitch: pitch,
         pair_pitch,
+        loss_budget,
         launch_valid_to: launch,
     })
 }

@@ -12,6 +12,7 @@ mod copper_contact_dk;
 mod frequency_validity;
 mod glass_weave_skew;
 mod impedance_off_target;
+mod loss_budget;
 mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
@@ -93,6 +94,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &board_thickness::BoardThicknessOffTarget,
         &copper_contact_dk::CopperContactDkMismatch,
         &impedance_off_target::ImpedanceOffTarget,
+        &loss_budget::InsertionLossBudget,
         &roughness_drift::RoughnessImpedanceDrift,
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,

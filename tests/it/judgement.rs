@@ -485,3 +485,40 @@ fn a_pair_pitch_must_fit_the_pair_and_belong_to_a_pair() {
         );
     }
 }
+
+#[test]
+fn a_loss_budget_is_judged_at_nyquist_with_the_textbook_dielectric_loss() {
+    // Homogeneous stripline, smooth copper: the dielectric part is exactly
+    // alpha_d = pi f sqrt(eps_r) tan(delta) / c0 Np/m (Pozar, Microwave
+    // Engineering, 4th ed., sec. 3.8), 8.686 dB/Np, at the Nyquist
+    // frequency of 10 Gbps NRZ (5 GHz), whatever the class's max-frequency.
+    let text = |budget: &str| {
+        stripline(
+            "0.088 mm",
+            SMOOTH_FACES,
+            &format!(", data-rate: 10 Gbps, modulation: nrz, loss-budget: {{loss: {budget}, length: 200 mm}}"),
+        )
+    };
+    let (_, a) = analysed(&text("10 dB"));
+    let ca = &a.classes[0];
+    let (f, l) = ca.budget_loss.unwrap();
+    assert_eq!(f, 5e9);
+    let m = &a.materials["fr4"];
+    let d = m.at(5e9);
+    let want = std::f64::consts::PI * f * d.dk.sqrt() * d.df / 299_792_458.0 * 8.685_889_638;
+    assert!(
+        (l.dielectric / want - 1.0).abs() < 0.01,
+        "{} vs {want} dB/m",
+        l.dielectric
+    );
+    // Over 200 mm the line loses about 3-4 dB: a 2 dB budget fails, 3.6 dB
+    // warns (more than 90 % used), 10 dB passes.
+    let total = l.total_rough() * 0.2;
+    let sev = |budget: f64| {
+        let f = all(&text(&format!("{budget} dB")));
+        of(&f, "insertion-loss-budget").first().map(|f| f.severity)
+    };
+    assert_eq!(sev(total * 0.8), Some(Severity::Error));
+    assert_eq!(sev(total * 1.05), Some(Severity::Warning));
+    assert_eq!(sev(total * 2.0), None);
+}
