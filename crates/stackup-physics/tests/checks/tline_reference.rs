@@ -21,18 +21,11 @@ struct Row {
     v: Vec<f64>,
 }
 
-fn table() -> (String, Vec<Row>) {
-    let path = concat!(
-        env!("CARGO_MANIFEST_DIR"),
-        "/tests/reference/tline_reference.tsv"
-    );
-    let text = std::fs::read_to_string(path).expect("reference table present");
-    let mut lines = text.lines();
-    let header = lines.next().unwrap().to_string();
-    let cols = lines.next().unwrap();
-    assert!(cols.starts_with("kind\tw\ts\th\tt\teps_r\tf\t"));
-    let rows = lines
-        .filter(|l| !l.trim().is_empty())
+fn table() -> Vec<Row> {
+    let lines = crate::scikit_rf_table("tline_reference.tsv");
+    assert!(lines[0].starts_with("kind\tw\ts\th\tt\teps_r\tf\t"));
+    lines[1..]
+        .iter()
         .map(|l| {
             let mut it = l.split('\t');
             let kind = it.next().unwrap().to_string();
@@ -40,8 +33,7 @@ fn table() -> (String, Vec<Row>) {
             assert_eq!(v.len(), 10, "{l}");
             Row { kind, v }
         })
-        .collect();
-    (header, rows)
+        .collect()
 }
 
 fn rel(a: f64, b: f64) -> f64 {
@@ -50,18 +42,15 @@ fn rel(a: f64, b: f64) -> f64 {
 
 #[test]
 fn table_names_the_library() {
-    let (header, rows) = table();
-    assert!(
-        header.starts_with("# reference library: scikit-rf "),
-        "{header}"
-    );
+    // The header's library name is checked by `scikit_rf_table`.
+    let rows = table();
     assert!(rows.iter().filter(|r| r.kind == "mline").count() > 300);
     assert!(rows.iter().filter(|r| r.kind == "gcpw").count() > 200);
 }
 
 #[test]
 fn microstrip_matches_scikit_rf() {
-    let (_, rows) = table();
+    let rows = table();
     let mut worst = [0.0f64; 4];
     for r in rows.iter().filter(|r| r.kind == "mline") {
         let [w, _s, h, t, er, f, z_s, e_s, z_f, e_f] = r.v[..] else {
@@ -93,7 +82,7 @@ fn microstrip_matches_scikit_rf() {
 
 #[test]
 fn gcpw_matches_scikit_rf() {
-    let (_, rows) = table();
+    let rows = table();
     let mut worst = [0.0f64; 2];
     for r in rows.iter().filter(|r| r.kind == "gcpw") {
         let [w, s, h, t, er, _f, z_s, e_s, _, _] = r.v[..] else {
