@@ -18,6 +18,7 @@ mod loss;
 pub mod materials;
 pub mod section;
 mod solve;
+pub mod vias;
 
 pub use solve::{family_sections, AnalysisOptions, DEFAULT_MAX_MESH_NODES, MAX_FEATURE_RATIO};
 use solve::{solvable, Solver};
@@ -170,6 +171,9 @@ pub struct Analysis {
     pub plies: Vec<dielectrics::Ply>,
     /// The delays of each matched group's nets, same order as the groups.
     pub groups: Vec<delay::GroupDelays>,
+    /// The through-via stubs of each net class, same order as the classes
+    /// (`None` on an outer layer).
+    pub via_stubs: Vec<Option<vias::StubResonance>>,
 }
 
 /// The project's field-solver model name, as reported.
@@ -359,8 +363,10 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         materials,
         plies: Vec::new(),
         groups,
+        via_stubs: Vec::new(),
     };
     a.plies = dielectrics::plies(s, &a);
+    a.via_stubs = vias::stubs(s, &a);
     a
 }
 
