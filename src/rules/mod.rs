@@ -14,6 +14,7 @@ mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
 mod roughness_drift;
+mod via_stub_resonance;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
@@ -93,6 +94,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &roughness_drift::RoughnessImpedanceDrift,
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,
+        &via_stub_resonance::ViaStubResonance,
     ]
 }
 
