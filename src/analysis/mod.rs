@@ -18,6 +18,7 @@ mod loss;
 pub mod materials;
 pub mod section;
 mod solve;
+pub mod vias;
 pub mod weave;
 
 pub use solve::{family_sections, AnalysisOptions, DEFAULT_MAX_MESH_NODES, MAX_FEATURE_RATIO};
@@ -198,6 +199,9 @@ pub struct Analysis {
     /// Fibre-weave skew per net class (same order; `None` for classes that
     /// are not pairs or have no ply naming a glass style).
     pub weave: Vec<Option<weave::WeaveSkew>>,
+    /// The through-via stubs of each net class, same order as the classes
+    /// (`None` on an outer layer).
+    pub via_stubs: Vec<Option<vias::StubResonance>>,
 }
 
 /// The project's field-solver model name, as reported.
@@ -468,9 +472,11 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         plies: Vec::new(),
         groups,
         weave: Vec::new(),
+        via_stubs: Vec::new(),
     };
     a.plies = dielectrics::plies(s, &a);
     a.weave = weave::weave_skews(s, &a.classes);
+    a.via_stubs = vias::stubs(s, &a);
     a
 }
 

@@ -17,6 +17,7 @@ mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
 mod roughness_drift;
+mod via_stub_resonance;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
@@ -99,6 +100,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &propagation_skew::PropagationSkew,
         &frequency_validity::FrequencyBeyondValidity,
         &glass_weave_skew::GlassWeaveSkew,
+        &via_stub_resonance::ViaStubResonance,
     ]
 }
 

@@ -26,4 +26,5 @@ mod rule_docs;
 mod sarif;
 mod suppressions;
 mod untrusted;
+mod via_stubs;
 mod width_for_target;

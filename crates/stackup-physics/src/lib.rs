@@ -15,6 +15,7 @@ pub mod microstrip;
 pub mod modes;
 pub mod stripline;
 pub mod validity;
+pub mod vias;
 
 // Materials and copper.
 pub mod copper;
