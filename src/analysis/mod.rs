@@ -10,6 +10,7 @@
 //! unknown roughness carried as best and worst case. Identical sections are
 //! solved once; distinct ones in parallel.
 
+pub mod broadside;
 pub mod cache;
 pub mod delay;
 pub mod dielectrics;
@@ -194,6 +195,9 @@ pub struct Analysis {
     /// Every dielectric ply but solder mask, with its copper contact and
     /// apparent Dk (one frequency policy for rules and outputs).
     pub plies: Vec<dielectrics::Ply>,
+    /// Facing signal layers (no plane between them) with a class on at
+    /// least one: the coupling of their widest traces stacked.
+    pub broadside: Vec<broadside::Broadside>,
     /// The delays of each matched group's nets, same order as the groups.
     pub groups: Vec<delay::GroupDelays>,
     /// Fibre-weave skew per net class (same order; `None` for classes that
@@ -317,6 +321,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             Err(e) => pending.push(Err(ClassError::Section(e.0))),
         }
     }
+    // Facing signal layers: one section each, solved with the rest.
+    let broadside_pending =
+        broadside::sections(s, &|layer, f| dk_at(layer, f).map_or(1.0, |d| d.dk));
+    let broadside_keys: Vec<String> = broadside_pending
+        .iter()
+        .map(|p| {
+            let members = vec![p.section.clone()];
+            let key = solver.family_key(&members);
+            families.push(members);
+            key
+        })
+        .collect();
     let solved = solver.solve_all(families);
     let numbers = |family: &str, i: usize| -> Result<LineNumbers, ClassError> {
         match solved.get(family).and_then(|v| v.get(i)) {
@@ -466,8 +482,17 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         .iter()
         .map(|g| delay::group_delays(s, &classes, g))
         .collect();
+    let broadside: Vec<broadside::Broadside> = broadside_pending
+        .iter()
+        .zip(&broadside_keys)
+        .filter_map(|(p, k)| match solved.get(k)?.first()? {
+            Ok(line) => broadside::coupling(p, line),
+            Err(_) => None,
+        })
+        .collect();
     let mut a = Analysis {
         classes,
+        broadside,
         materials,
         plies: Vec::new(),
         groups,

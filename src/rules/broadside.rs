@@ -5,7 +5,7 @@ use crate::finding::{Finding, Severity};
 use crate::model::LayerKind;
 use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
-use crate::units::fmt_length;
+use crate::units::{fmt_length, Dimension};
 
 pub struct BroadsideSignalLayers;
 
@@ -17,13 +17,24 @@ static META: RuleMeta = RuleMeta {
     options: &OPTIONS,
 };
 
-static OPTIONS: [OptionSpec; 1] = [OptionSpec {
-    key: "min-separation-ratio",
-    kind: OptionKind::Ratio { max: 10.0 },
-    default: 3.0,
-    default_text: "3",
-    doc: "separation between the signal layers divided by the larger distance from either layer to its own plane, below which the rule fires",
-}];
+static OPTIONS: [OptionSpec; 2] = [
+    OptionSpec {
+        key: "min-separation-ratio",
+        kind: OptionKind::Ratio { max: 10.0 },
+        default: 3.0,
+        default_text: "3",
+        doc: "separation between the signal layers divided by the larger distance from either layer to its own plane, below which the rule fires (layers without a net class)",
+    },
+    OptionSpec {
+        key: "max-coupling",
+        kind: OptionKind::Quantity(Dimension::Fraction),
+        // A single aggressor's share of a typical 3-5 % crosstalk budget
+        // (common practice, no source).
+        default: 0.02,
+        default_text: "2 %",
+        doc: "near-end crosstalk between the widest traces of the two layers, overlapping, above which the rule fires (layers with a net class)",
+    },
+];
 
 impl Rule for BroadsideSignalLayers {
     fn meta(&self) -> &'static RuleMeta {
@@ -33,6 +44,7 @@ impl Rule for BroadsideSignalLayers {
     fn check(&self, cx: &RuleContext<'_>) -> Vec<Finding> {
         let s = cx.stackup;
         let ratio_limit = cx.option(&OPTIONS[0]);
+        let max_coupling = cx.option(&OPTIONS[1]);
         let copper = s.copper_indices();
         let mut out = Vec::new();
         for w in copper.windows(2) {
@@ -62,8 +74,17 @@ impl Rule for BroadsideSignalLayers {
                 (x, y) => x.or(y),
             };
             let ratio = h.map(|h| sep / h);
-            if ratio.is_some_and(|r| r >= ratio_limit) {
-                continue;
+            // With a class on either layer the traces' own coupling decides
+            // (width and overlap, solved); without, the geometry ratio.
+            let solved = cx
+                .analysis
+                .broadside
+                .iter()
+                .find(|x| x.upper == a && x.lower == b);
+            match solved {
+                Some(x) if x.next <= max_coupling => continue,
+                None if ratio.is_some_and(|r| r >= ratio_limit) => continue,
+                _ => {}
             }
             let dielectrics: Vec<String> = (a + 1..b)
                 .filter_map(|k| match &s.layers[k].kind {
@@ -73,6 +94,17 @@ impl Rule for BroadsideSignalLayers {
                     LayerKind::Copper(_) => None,
                 })
                 .collect();
+            let coupling = solved.map_or(String::new(), |x| {
+                format!(
+                    "; their widest traces ({} on `{}`, {} on `{}`), run over each other in parallel, couple with near-end crosstalk of about {:.1} % (above {:.1} %)",
+                    fmt_length(x.width_upper),
+                    s.layers[a].name,
+                    fmt_length(x.width_lower),
+                    s.layers[b].name,
+                    100.0 * x.next,
+                    100.0 * max_coupling
+                )
+            });
             let detail = match (h, ratio) {
                 (Some(h), Some(r)) => format!(
                     "; they are {} apart but each is {} from its own plane, a ratio of {:.1} (below {:.1})",
@@ -85,7 +117,7 @@ impl Rule for BroadsideSignalLayers {
                     META.name,
                     cx.at_layer(a),
                     format!(
-                        "signal layers `{}` and `{}` face each other across {} with no plane between{}",
+                        "signal layers `{}` and `{}` face each other across {} with no plane between{}{coupling}",
                         s.layers[a].name, s.layers[b].name, dielectrics.join(" and "), detail
                     ),
                 )

@@ -117,3 +117,55 @@ mod tests {
         assert!((pair_to_pair([0.02, 0.008, 0.004]) - 0.5 * (0.016 - 0.024)).abs() < 1e-15);
     }
 }
+
+/// Saturated near-end crosstalk between two lines of any shapes from their
+/// 2×2 Maxwell capacitance and inductance matrices (row-major):
+/// K_b = (1/4)(|C12|/√(C11·C22) + L12/√(L11·L22)), the weak-coupling form
+/// above with each ratio taken against both lines' self terms (Johnson &
+/// Graham 2003, §10, from memory). For two equal lines it equals
+/// [`next_coefficient`] of their even and odd modes.
+pub fn next_coefficient_matrices(c: &[f64], l: &[f64]) -> f64 {
+    if c.len() != 4 || l.len() != 4 {
+        return f64::NAN;
+    }
+    0.25 * (c[1].abs() / (c[0] * c[3]).sqrt() + l[1] / (l[0] * l[3]).sqrt())
+}
+
+#[cfg(test)]
+mod matrix_tests {
+    use super::*;
+
+    #[test]
+    fn matrices_of_two_equal_lines_give_the_modal_form() {
+        // Equal lines: C11 = (Ce + Co)/2, C12 = (Ce − Co)/2 and likewise L,
+        // with the modal C and L of the module's formulas.
+        let m = ModalPair {
+            z_even: 61.0,
+            z_odd: 43.0,
+            eps_eff_even: 3.3,
+            eps_eff_odd: 3.1,
+        };
+        let (ce, co) = (
+            m.eps_eff_even.sqrt() / (C0 * m.z_even),
+            m.eps_eff_odd.sqrt() / (C0 * m.z_odd),
+        );
+        let (le, lo) = (
+            m.z_even * m.eps_eff_even.sqrt() / C0,
+            m.z_odd * m.eps_eff_odd.sqrt() / C0,
+        );
+        let c = [
+            (ce + co) / 2.0,
+            (ce - co) / 2.0,
+            (ce - co) / 2.0,
+            (ce + co) / 2.0,
+        ];
+        let l = [
+            (le + lo) / 2.0,
+            (le - lo) / 2.0,
+            (le - lo) / 2.0,
+            (le + lo) / 2.0,
+        ];
+        assert!((next_coefficient_matrices(&c, &l) - next_coefficient(&m)).abs() < 1e-12);
+        assert!(next_coefficient_matrices(&c[..3], &l).is_nan());
+    }
+}

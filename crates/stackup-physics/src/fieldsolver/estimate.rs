@@ -216,10 +216,15 @@ fn covered_band(e_sub: f64, eps_sub: f64, cover: f64, tol: f64) -> (f64, f64) {
 }
 
 /// The closed-form estimate of `cs`, or `None` when no form applies (more
-/// than two traces, a section the forms cannot take); only the physical
+/// than two traces, two on different layers, a section the forms cannot
+/// take); only the physical
 /// bounds then hold.
 pub fn estimate(cs: &CrossSection) -> Option<SectionEstimate> {
     if !cs.bottom_plane || cs.conductors.is_empty() || cs.conductors.len() > 2 {
+        return None;
+    }
+    // Two traces on different layers (broadside): no form applies.
+    if cs.conductors.len() == 2 && cs.conductors[0].y_bottom != cs.conductors[1].y_bottom {
         return None;
     }
     let c = cs.conductors[0];
