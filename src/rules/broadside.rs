@@ -106,8 +106,12 @@ impl Rule for BroadsideSignalLayers {
                 )
             });
             let detail = match (h, ratio) {
-                (Some(h), Some(r)) => format!(
+                (Some(h), Some(r)) if r < ratio_limit => format!(
                     "; they are {} apart but each is {} from its own plane, a ratio of {:.1} (below {:.1})",
+                    fmt_length(sep), fmt_length(h), r, ratio_limit
+                ),
+                (Some(h), Some(r)) => format!(
+                    "; they are {} apart and each is {} from its own plane, a ratio of {:.1} (the rule of thumb's {:.1} is met)",
                     fmt_length(sep), fmt_length(h), r, ratio_limit
                 ),
                 _ => format!("; they are {} apart and at least one has no plane of its own", fmt_length(sep)),

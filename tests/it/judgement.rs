@@ -572,3 +572,63 @@ fn broadside_coupling_is_judged_by_the_traces_not_only_the_layer_ratio() {
     let (_, a) = analysed(&bare);
     assert!(a.broadside.is_empty());
 }
+
+/// Every scenario board above, rendered as the terminal shows it (no
+/// colour, 100 columns): one snapshot each, so a change of judgement shows
+/// as a reviewed diff. The pairs are a board that passed wrongly and now
+/// fires, and one that fired wrongly and now passes.
+#[test]
+fn scenarios_render_as_reviewed() {
+    use stackup_lint::output::human::{render, HumanOptions};
+    let std_ed = [
+        ", down: {side: treated, foil: std-ed}",
+        ", up: {side: treated, foil: std-ed}, down: {side: treated, foil: std-ed}",
+        ", up: {side: treated, foil: std-ed}",
+    ];
+    let scenarios: Vec<(&str, String)> = vec![
+        // Passed clean before (faces without data were smooth copper).
+        (
+            "no_foil_data_now_warns",
+            stripline("0.088 mm", NO_FACES, ""),
+        ),
+        // Hidden before by a roughness suppression.
+        (
+            "width_miss_not_hidden_by_a_roughness_suppression",
+            stripline(
+                "0.04 mm",
+                SMOOTH_FACES,
+                ", suppress: [{rule: roughness-impedance-drift, reason: fab tunes widths}]",
+            ),
+        ),
+        ("roughness_share_only", stripline("0.088 mm", std_ed, "")),
+        // Fired before for a 0.4 ohm effect against ±5 ohm at 1 GHz.
+        (
+            "small_ply_effect_now_silent",
+            microstrip(254.0, 1.0, 620.0, 1.0, 10.0),
+        ),
+        (
+            "ply_effect_that_matters",
+            microstrip(127.0, 2.25, 300.0, 50.0, 5.0),
+        ),
+        // Silent before: wide traces over a ratio-3.5 gap.
+        ("broadside_wide_traces", dual_stripline("0.35 mm", "0.4 mm")),
+        (
+            "pair_mode_skew_with_neighbour",
+            asymmetric_pair(", pair-pitch: 0.8 mm"),
+        ),
+    ];
+    for (name, text) in scenarios {
+        let loaded = load_text("scenario.stackup.yaml", &text, &InputLimits::default());
+        let outcome = engine::lint(loaded, &Default::default());
+        let out = render(
+            &outcome.findings,
+            &outcome.db,
+            HumanOptions {
+                color: false,
+                width: 100,
+                pool: stackup_lint::pool::Pool::single(),
+            },
+        );
+        insta::assert_snapshot!(name, out);
+    }
+}
