@@ -27,9 +27,37 @@ struct Row<'a> {
     conductor_loss_smooth_db_per_mm: Option<f64>,
     /// Total loss over `--length`, dB (vias and connectors not included).
     loss_db_over_length: Option<f64>,
+    /// The loss budget's frequency and the line's loss over its length.
+    loss_budget: Option<BudgetJson>,
+    /// Crosstalk from the neighbouring pair at `pair-pitch`.
+    pair_crosstalk: Option<CrosstalkJson>,
+    /// The worst through-via stub of an inner-layer class.
+    via_stub: Option<StubJson>,
     model: &'a str,
     error: Option<String>,
     notes: &'a [String],
+}
+
+#[derive(Serialize)]
+struct BudgetJson {
+    frequency_ghz: f64,
+    budget_db: f64,
+    length_mm: f64,
+    loss_db: f64,
+}
+
+#[derive(Serialize)]
+struct CrosstalkJson {
+    pitch_um: f64,
+    next_percent: f64,
+    fext_percent_per_100_mm: f64,
+    rise_time_ps: f64,
+}
+
+#[derive(Serialize)]
+struct StubJson {
+    length_mm: f64,
+    resonance_ghz: f64,
 }
 
 #[derive(Serialize)]
@@ -37,6 +65,10 @@ struct Numbers {
     z_ohm: f64,
     z_even_ohm: Option<f64>,
     z_odd_ohm: Option<f64>,
+    /// Common-mode impedance Z_even/2 of a pair.
+    z_common_ohm: Option<f64>,
+    eps_eff_even: Option<f64>,
+    eps_eff_odd: Option<f64>,
     eps_eff: f64,
     delay_ps_per_mm: f64,
     rel_error: f64,
@@ -47,6 +79,9 @@ fn numbers(n: &LineNumbers) -> Numbers {
         z_ohm: round(n.z, 2),
         z_even_ohm: n.pair.map(|p| round(p.z_even, 2)),
         z_odd_ohm: n.pair.map(|p| round(p.z_odd, 2)),
+        z_common_ohm: n.pair.map(|p| round(p.z_common(), 2)),
+        eps_eff_even: n.pair.map(|p| round(p.eps_eff_even, 4)),
+        eps_eff_odd: n.pair.map(|p| round(p.eps_eff_odd, 4)),
         eps_eff: round(n.eps_eff, 4),
         delay_ps_per_mm: round(n.ps_per_mm(), 3),
         rel_error: round(n.rel_error, 5),
@@ -62,7 +97,8 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
     s.net_classes
         .iter()
         .zip(&a.classes)
-        .map(|(nc, ca): (_, &ClassAnalysis)| Row {
+        .enumerate()
+        .map(|(i, (nc, ca)): (usize, (_, &ClassAnalysis))| Row {
             net_class: &nc.name,
             structure: nc.structure.as_str(),
             layer: &nc.layer,
@@ -82,6 +118,25 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             conductor_loss_smooth_db_per_mm: ca.loss.map(|l| round(l.conductor_smooth / 1e3, 5)),
             loss_db_over_length: length
                 .and_then(|len| ca.loss.map(|l| round(l.total_rough() * len, 3))),
+            loss_budget: nc
+                .loss_budget
+                .zip(ca.budget_loss)
+                .map(|(b, (f, l))| BudgetJson {
+                    frequency_ghz: round(f / 1e9, 4),
+                    budget_db: b.loss,
+                    length_mm: round(b.length * 1e3, 3),
+                    loss_db: round(l.total_rough() * b.length, 3),
+                }),
+            pair_crosstalk: ca.pair_crosstalk.map(|x| CrosstalkJson {
+                pitch_um: round(x.pitch * 1e6, 2),
+                next_percent: round(100.0 * x.next.abs(), 3),
+                fext_percent_per_100_mm: round(100.0 * (x.fext_per_metre * 0.1).abs(), 3),
+                rise_time_ps: round(x.rise_time * 1e12, 2),
+            }),
+            via_stub: a.via_stubs.get(i).copied().flatten().map(|v| StubJson {
+                length_mm: round(v.worst.length * 1e3, 3),
+                resonance_ghz: round(v.worst.resonance / 1e9, 3),
+            }),
             model: ca.model,
             error: ca.smooth.as_ref().err().map(ToString::to_string),
             notes: &ca.notes,
@@ -89,18 +144,57 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
         .collect()
 }
 
-/// JSON: `{"file": …, "net_classes": [ … ]}` per stackup.
+/// One dielectric ply in the JSON: the same numbers as the table and the
+/// rules (`Analysis::plies`).
+#[derive(Serialize)]
+struct PlyJson<'a> {
+    layer: &'a str,
+    kind: &'a str,
+    material: &'a str,
+    thickness_um: f64,
+    frequency_ghz: f64,
+    bulk_dk: f64,
+    bulk_df: f64,
+    apparent_dk_best: f64,
+    apparent_dk_worst: f64,
+    carries_lines: bool,
+    copper_faces: Vec<String>,
+}
+
+/// JSON: `{"file": …, "net_classes": [ … ], "dielectrics": [ … ]}` per
+/// stackup.
 pub fn json(items: &[(&str, &Stackup, &Analysis)], length: Option<f64>) -> String {
     #[derive(Serialize)]
     struct File<'a> {
         file: &'a str,
         net_classes: Vec<Row<'a>>,
+        dielectrics: Vec<PlyJson<'a>>,
     }
     let files: Vec<File> = items
         .iter()
         .map(|(name, s, a)| File {
             file: name,
             net_classes: rows(s, a, length),
+            dielectrics: dielectric_rows(s, a)
+                .into_iter()
+                .filter_map(|r| {
+                    let d = s.dielectric(r.layer)?;
+                    let c = &r.contact;
+                    Some(PlyJson {
+                        layer: &s.layers[r.layer].name,
+                        kind: d.kind.as_str(),
+                        material: &d.material,
+                        thickness_um: round(d.thickness * 1e6, 2),
+                        frequency_ghz: round(r.frequency / 1e9, 4),
+                        bulk_dk: round(c.bulk.dk, 4),
+                        bulk_df: round(c.bulk.df, 5),
+                        apparent_dk_best: round(c.apparent_best, 4),
+                        apparent_dk_worst: round(c.apparent_worst, 4),
+                        carries_lines: r.carries_lines,
+                        copper_faces: r.faces,
+                    })
+                })
+                .collect(),
         })
         .collect();
     let mut out = serde_json::to_string_pretty(&files).unwrap_or_default();

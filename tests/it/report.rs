@@ -217,6 +217,32 @@ fn report_numbers_agree_with_the_impedance_command() {
                 "{name}: {h} {got} in the report, {want} from `impedance`"
             );
         }
+        // A pair's common-mode impedance is half its even-mode impedance.
+        if let Some(ze) = c["smooth"]["z_even_ohm"].as_f64() {
+            let zc = c["smooth"]["z_common_ohm"].as_f64().unwrap();
+            assert!((zc - ze / 2.0).abs() <= 0.01, "{name}: {zc} vs {ze}/2");
+        }
+    }
+    // The plies' apparent Dk in the JSON is the one the report prints.
+    let plies = v[0]["dielectrics"].as_array().unwrap();
+    assert!(!plies.is_empty());
+    for p in plies {
+        let name = p["layer"].as_str().unwrap();
+        let row = md
+            .lines()
+            .find(|l| l.starts_with(&format!("| {name} |")))
+            .unwrap_or_else(|| panic!("no dielectric row for {name}"));
+        let cell = row.split(" | ").nth(7).unwrap().trim();
+        let (best, worst) = (
+            p["apparent_dk_best"].as_f64().unwrap(),
+            p["apparent_dk_worst"].as_f64().unwrap(),
+        );
+        let want = if format!("{best:.2}") == format!("{worst:.2}") {
+            format!("{best:.2}")
+        } else {
+            format!("{best:.2}..{worst:.2}")
+        };
+        assert_eq!(cell, want, "{name}: report vs `impedance` JSON");
     }
 }
 
