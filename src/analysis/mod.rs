@@ -406,11 +406,19 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             notes.push(implied_note(&g, &implied_faces, s));
         }
         let mut dk = BTreeMap::new();
-        for sl in &g.slabs {
-            if let Some(d) = dk_at(sl.layer, f) {
-                dk.insert(sl.layer, d);
+        for m in g.slabs.iter().filter_map(|sl| sl.material) {
+            if let Some(d) = dk_at(m, f) {
+                dk.insert(m, d);
             }
         }
+        // The signal mode's share of electric energy per dielectric region
+        // of the smooth section (single: its one mode; pair: the odd mode).
+        let energy: Option<Vec<f64>> = solved
+            .get(&p.family)
+            .and_then(|v| v.get(p.smooth))
+            .and_then(|r| r.as_ref().ok())
+            .and_then(|line| line.energy_shares(&section::cross_section(&g, None)))
+            .and_then(|mut modes| modes.pop());
         let width_for_target = match (nc.impedance, worst) {
             (Some(t), Some(w)) if (w.z - t.target).abs() > 1e-3 * t.target => {
                 widths.get(&i).copied().flatten()
@@ -421,7 +429,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         let loss = smooth
             .as_ref()
             .ok()
-            .map(|sm| loss::line_loss(&g, &dk, f, sm));
+            .map(|sm| loss::line_loss(&g, &dk, f, sm, energy.as_deref()));
         let budget_loss = nc.loss_budget.and(smooth.as_ref().ok()).and_then(|sm| {
             let fb = nc.nyquist.unwrap_or(f);
             if fb == f {
@@ -430,9 +438,10 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             let dk_b: BTreeMap<usize, DkAt> = g
                 .slabs
                 .iter()
-                .filter_map(|sl| Some((sl.layer, dk_at(sl.layer, fb)?)))
+                .filter_map(|sl| sl.material)
+                .filter_map(|m| Some((m, dk_at(m, fb)?)))
                 .collect();
-            Some((fb, loss::line_loss(&g, &dk_b, fb, sm)))
+            Some((fb, loss::line_loss(&g, &dk_b, fb, sm, energy.as_deref())))
         });
         let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
         let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);

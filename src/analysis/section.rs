@@ -172,6 +172,10 @@ pub struct Slab {
     pub eps: f64,
     /// The stackup layer it comes from.
     pub layer: usize,
+    /// The dielectric layer whose material fills it: `layer` itself for a
+    /// dielectric, the resin, mask or core that fills a copper slot, `None`
+    /// for air.
+    pub material: Option<usize>,
 }
 
 /// The geometry of a net class's line, before roughness.
@@ -335,9 +339,9 @@ pub fn geometry(
     }
     // Fill of a copper slot: the neighbouring prepreg (resin flows into the
     // etched copper), else solder mask, else the neighbour on the open side.
-    let fill_eps = |j: usize| -> f64 {
+    let fill_eps = |j: usize| -> (f64, Option<usize>) {
         let nb = [j.checked_sub(1), Some(j + 1)];
-        let mut best: Option<(u8, f64)> = None;
+        let mut best: Option<(u8, usize)> = None;
         for n in nb.into_iter().flatten() {
             if let Some(d) = s.dielectric(n) {
                 let rank = match d.kind {
@@ -346,11 +350,11 @@ pub fn geometry(
                     DielectricKind::Core => 1,
                 };
                 if best.is_none_or(|(r, _)| rank > r) {
-                    best = Some((rank, eps_of(n)));
+                    best = Some((rank, n));
                 }
             }
         }
-        best.map_or(1.0, |b| b.1)
+        best.map_or((1.0, None), |b| (eps_of(b.1), Some(b.1)))
     };
     let mut slabs = Vec::new();
     let mut trace_slot = None;
@@ -360,21 +364,24 @@ pub fn geometry(
                 thickness: d.thickness,
                 eps: eps_of(j),
                 layer: j,
+                material: Some(j),
             }),
             LayerKind::Copper(c) => {
                 if j == i {
                     trace_slot = Some(slabs.len());
                     // Open side (outer layer): solder mask fills around the
                     // trace if the next layer out is mask, else air.
-                    let eps = if second.is_none() {
+                    let (eps, material) = if second.is_none() {
                         let pos = order.iter().position(|&x| x == j).unwrap_or(0);
                         match order
                             .get(pos + 1)
                             .and_then(|&n| s.dielectric(n).map(|d| (n, d)))
                         {
-                            Some((n, d)) if d.kind == DielectricKind::SolderMask => eps_of(n),
+                            Some((n, d)) if d.kind == DielectricKind::SolderMask => {
+                                (eps_of(n), Some(n))
+                            }
                             Some(_) => fill_eps(j),
-                            None => 1.0,
+                            None => (1.0, None),
                         }
                     } else {
                         fill_eps(j)
@@ -383,6 +390,7 @@ pub fn geometry(
                         thickness: c.thickness,
                         eps,
                         layer: j,
+                        material,
                     });
                 } else {
                     if !c.role.is_reference() {
@@ -391,10 +399,12 @@ pub fn geometry(
                             s.layers[j].name
                         ));
                     }
+                    let (eps, material) = fill_eps(j);
                     slabs.push(Slab {
                         thickness: c.thickness,
-                        eps: fill_eps(j),
+                        eps,
                         layer: j,
+                        material,
                     });
                 }
             }

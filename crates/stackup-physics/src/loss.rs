@@ -16,6 +16,42 @@ fn require_loss_tangent(tan_d: f64) -> Result<(), InputError> {
     require_non_negative("loss tangent", tan_d)
 }
 
+/// Dielectric attenuation of one quasi-TEM mode of any cross-section from
+/// the share s_r of its electric energy in each dielectric region
+/// (`SolvedLine::energy_shares`): tanδ_eff = Σ s_r·tanδ_r and
+/// alpha_d = pi f sqrt(eps_eff) tanδ_eff / c0, Np/m.
+///
+/// Source: the quasi-TEM perturbation result G = ω·Σ_r tanδ_r·ε_r·∂C/∂ε_r
+/// (each region's loss weighted by the electric energy stored in it), with
+/// alpha_d = G·Z0/2; for one dielectric it is [`dielectric_loss_stripline`]
+/// and for microstrip the filling-factor form of
+/// [`dielectric_loss_microstrip`] (Pozar, *Microwave Engineering*, 4th ed.,
+/// sec. 3.8, from memory), both of which the tests check.
+///
+/// Errors: `f` not finite and > 0; `eps_eff` < 1; shares and loss tangents
+/// of different length, negative or not finite.
+pub fn dielectric_loss_of_mode(
+    f: f64,
+    eps_eff: f64,
+    shares: &[f64],
+    tan_d: &[f64],
+) -> Result<f64, InputError> {
+    if shares.len() != tan_d.len() {
+        return Err(InputError::new(
+            "energy shares and loss tangents differ in length",
+        ));
+    }
+    let mut tand_eff = 0.0;
+    for (s, t) in shares.iter().zip(tan_d) {
+        require_non_negative("loss tangent", *t)?;
+        if !s.is_finite() || *s < -1e-9 {
+            return Err(InputError::new(format!("energy share {s} is not valid")));
+        }
+        tand_eff += s.max(0.0) * t;
+    }
+    dielectric_loss_stripline(f, eps_eff, tand_eff)
+}
+
 /// Dielectric attenuation of a TEM line filled with one dielectric
 /// (stripline): alpha_d = pi f sqrt(eps_r) tan_d / c0, Np/m.
 ///

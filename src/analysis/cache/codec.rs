@@ -42,6 +42,8 @@ pub(super) fn encode(digest: &[u8], value: &Result<SolvedLine, String>) -> Vec<u
             push_floats(&mut out, "capacitance_vacuum", &s.capacitance_vacuum);
             push_floats(&mut out, "inductance", &s.inductance);
             push_floats(&mut out, "modal_eps_eff", &s.modal_eps_eff);
+            let flat: Vec<f64> = s.filling.iter().flatten().copied().collect();
+            push_floats(&mut out, "filling", &flat);
             match s.single {
                 Some(x) => push_floats(&mut out, "single", &[x.z0, x.eps_eff]),
                 None => push_floats(&mut out, "single", &[]),
@@ -158,6 +160,13 @@ pub(super) fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, S
     let capacitance_vacuum = floats("capacitance_vacuum")?;
     let inductance = floats("inductance")?;
     let modal_eps_eff = floats("modal_eps_eff")?;
+    // One n×n matrix per dielectric region.
+    let flat = floats("filling")?;
+    let nn = n.checked_mul(n).filter(|&k| k > 0)?;
+    if flat.len() % nn != 0 {
+        return None;
+    }
+    let filling: Vec<Vec<f64>> = flat.chunks(nn).map(<[f64]>::to_vec).collect();
     let single = match floats("single")?.as_slice() {
         [] => None,
         [z0, eps_eff] => Some(SingleEnded {
@@ -197,6 +206,7 @@ pub(super) fn decode(bytes: &[u8], digest: &[u8]) -> Option<Result<SolvedLine, S
         modal_eps_eff,
         single,
         pair,
+        filling,
         z_rel_error,
         eps_rel_error,
         unknowns,

@@ -15,7 +15,7 @@ use super::DiskCache;
 /// Bump when the field solver, its default options or the entry layout
 /// change in a way that changes results (the executable's identity is in
 /// the key as well, but an explicit version keeps installed builds honest).
-pub const FORMAT: u32 = 2;
+pub const FORMAT: u32 = 3;
 
 /// Default bound on the disk space of the cache directory: 1 GiB. One
 /// entry (a solved section, or a class's width for target) takes one 4 KiB

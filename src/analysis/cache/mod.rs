@@ -67,6 +67,10 @@ mod tests {
                 eps_eff_even: 3.1,
                 eps_eff_odd: 2.9,
             }),
+            filling: vec![
+                vec![1.0e-11, -2.0e-13, -2.0e-13, 1.0e-11],
+                vec![f64::MIN_POSITIVE, 0.0, -0.0, 1.0 / 7.0],
+            ],
             z_rel_error: 1e-3,
             eps_rel_error: 5e-17,
             unknowns: 12345,
@@ -96,6 +100,7 @@ mod tests {
                 eps_eff: 3.3,
             }),
             pair: None,
+            filling: vec![vec![1.0e-11], vec![2.0e-12], vec![0.0]],
             ..sample()
         };
         c.put("section 2", &Ok(single.clone()));

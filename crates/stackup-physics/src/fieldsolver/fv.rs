@@ -230,12 +230,37 @@ impl<'g> Solver<'g> {
     /// with the cell permittivities `eps` (row-major, (nx-1)·(ny-1)) or in
     /// vacuum (`None`).
     pub fn capacitance(&self, eps: Option<&[f64]>) -> Result<Vec<f64>, String> {
+        Ok(self.capacitance_filling(eps, None)?.0)
+    }
+
+    /// [`Self::capacitance`] and, when `regions` gives each cell's region
+    /// and the number of regions, the derivative of the capacitance matrix
+    /// with respect to each region's relative permittivity (÷ε0, one
+    /// row-major n_cond × n_cond matrix per region).
+    ///
+    /// The discrete capacitance is the minimum of the energy form
+    /// C_km = Σ_links a·Δφ_k·Δφ_m over the potentials that meet the
+    /// conductor values, and each link coefficient a is a sum of cell
+    /// terms ε_cell·w_cell. By the envelope theorem (the solution is
+    /// stationary) ∂C_km/∂ε_r = Σ_links Σ_{cells of r} w_cell·Δφ_k·Δφ_m
+    /// exactly, for the discrete system, with no extra solve. C is
+    /// homogeneous of degree one in the permittivities, so
+    /// Σ_r ε_r·∂C/∂ε_r = C (Euler), which the tests check.
+    pub fn capacitance_filling(
+        &self,
+        eps: Option<&[f64]>,
+        regions: Option<(&[u32], usize)>,
+    ) -> Result<(Vec<f64>, Vec<Vec<f64>>), String> {
         let g = self.grid;
         let n = g.n_free;
         let nc = g.n_cond;
         let nx = g.nx();
         let nn = g.nodes.len();
-        if eps.is_some_and(|e| e.len() != (nx - 1) * (g.ny() - 1)) {
+        if eps.is_some_and(|e| e.len() != (nx - 1) * (g.ny() - 1))
+            || regions.is_some_and(|(r, k)| {
+                r.len() != (nx - 1) * (g.ny() - 1) || r.iter().any(|&v| v as usize >= k)
+            })
+        {
             return Err("internal error: permittivity map does not fit the mesh".into());
         }
         let (east, north) = g.links(eps);
@@ -346,7 +371,98 @@ impl<'g> Solver<'g> {
         if c.iter().any(|v| !v.is_finite()) {
             return Err("non-finite capacitance (degenerate mesh)".into());
         }
-        Ok(c)
+        let Some((region, n_regions)) = regions else {
+            return Ok((c, Vec::new()));
+        };
+        // Energy of every link, split over the (up to two) cells whose
+        // halves its dual face crosses.
+        let ny = g.ny();
+        let ncx = nx - 1;
+        let potential = |q: usize, m: usize| -> f64 {
+            match g.nodes[q] {
+                Node::Free(iq) => phi[(iq, m)],
+                Node::Fixed(k) => {
+                    if k > 0 && k - 1 == m {
+                        1.0
+                    } else {
+                        0.0
+                    }
+                }
+            }
+        };
+        let mut fill = vec![vec![0.0; nc * nc]; n_regions];
+        let mut dphi = vec![0.0; nc];
+        let mut add = |p: usize, q: usize, cells: [(usize, f64); 2], dphi: &mut [f64]| {
+            for (m, d) in dphi.iter_mut().enumerate() {
+                *d = potential(q, m) - potential(p, m);
+            }
+            if dphi.iter().all(|d| *d == 0.0) {
+                return;
+            }
+            for (cell, w) in cells {
+                if w == 0.0 {
+                    continue;
+                }
+                let f = &mut fill[region[cell] as usize];
+                for k in 0..nc {
+                    for m in 0..nc {
+                        f[k * nc + m] += w * dphi[k] * dphi[m];
+                    }
+                }
+            }
+        };
+        for j in 0..ny {
+            for i in 0..nx {
+                let p = j * nx + i;
+                if i + 1 < nx {
+                    let dx = g.xs[i + 1] - g.xs[i];
+                    let below = if j > 0 { (j - 1) * ncx + i } else { usize::MAX };
+                    let cells = [
+                        (
+                            below,
+                            if j > 0 {
+                                0.5 * (g.ys[j] - g.ys[j - 1]) / dx
+                            } else {
+                                0.0
+                            },
+                        ),
+                        (
+                            j * ncx + i,
+                            if j + 1 < ny {
+                                0.5 * (g.ys[j + 1] - g.ys[j]) / dx
+                            } else {
+                                0.0
+                            },
+                        ),
+                    ];
+                    add(p, p + 1, cells, &mut dphi);
+                }
+                if j + 1 < ny {
+                    let dy = g.ys[j + 1] - g.ys[j];
+                    let left = if i > 0 { j * ncx + i - 1 } else { usize::MAX };
+                    let cells = [
+                        (
+                            left,
+                            if i > 0 {
+                                0.5 * (g.xs[i] - g.xs[i - 1]) / dy
+                            } else {
+                                0.0
+                            },
+                        ),
+                        (
+                            j * ncx + i,
+                            if i + 1 < nx {
+                                0.5 * (g.xs[i + 1] - g.xs[i]) / dy
+                            } else {
+                                0.0
+                            },
+                        ),
+                    ];
+                    add(p, p + nx, cells, &mut dphi);
+                }
+            }
+        }
+        Ok((c, fill))
     }
 }
 

@@ -123,6 +123,55 @@ pub struct CrossSection {
     pub coplanar_grounds: Option<CoplanarGrounds>,
 }
 
+/// A dielectric region of a cross-section, as the solver's filling
+/// results are ordered ([`CrossSection::regions`]).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Region {
+    /// `layers[k]`, where no block covers it.
+    Layer(usize),
+    /// `blocks[b]`.
+    Block(usize),
+    /// Outside every layer and block (the air over an open section).
+    Air,
+}
+
+impl CrossSection {
+    /// The dielectric regions in the order of `SolvedLine::filling`:
+    /// every layer, every block, then the air.
+    pub fn regions(&self) -> Vec<Region> {
+        (0..self.layers.len())
+            .map(Region::Layer)
+            .chain((0..self.blocks.len()).map(Region::Block))
+            .chain(std::iter::once(Region::Air))
+            .collect()
+    }
+
+    /// The layer holding height `y` (from the bottom of the first layer),
+    /// `None` above the stack.
+    pub fn layer_at(&self, y: f64) -> Option<usize> {
+        let mut acc = 0.0;
+        for (k, l) in self.layers.iter().enumerate() {
+            if y >= acc && y < acc + l.thickness {
+                return Some(k);
+            }
+            acc += l.thickness;
+        }
+        None
+    }
+
+    /// Relative permittivity of each region, same order as [`Self::regions`].
+    pub fn region_eps(&self) -> Vec<f64> {
+        self.regions()
+            .into_iter()
+            .map(|r| match r {
+                Region::Layer(k) => self.layers[k].eps_r,
+                Region::Block(b) => self.blocks[b].eps_r,
+                Region::Air => 1.0,
+            })
+            .collect()
+    }
+}
+
 pub(super) fn finite_pos(name: &str, v: f64) -> Result<(), SolveError> {
     if v.is_finite() && v > 0.0 {
         Ok(())

@@ -260,11 +260,17 @@ pub(super) fn prepare<'a>(
 }
 
 /// Relative permittivity of every cell (row-major, (nx-1)·(ny-1)) of the
-/// mesh `xs` × `ys` for the layers and blocks of `cs`.
-pub(super) fn cell_eps(cs: &CrossSection, xs: &[f64], ys: &[f64]) -> Vec<f64> {
+/// mesh `xs` × `ys` for the layers and blocks of `cs`, and the dielectric
+/// region each cell belongs to: layer k is region k, block b region
+/// L + b (L layers), the air outside every layer and block region L + B
+/// (see [`CrossSection::region_layers`]).
+pub(super) fn cell_eps(cs: &CrossSection, xs: &[f64], ys: &[f64]) -> (Vec<f64>, Vec<u32>) {
     let (nx, ny) = (xs.len(), ys.len());
+    let n_layers = cs.layers.len();
+    let air = (n_layers + cs.blocks.len()) as u32;
     let mut eps = vec![1.0; (nx - 1) * (ny - 1)];
-    let mut bounds = Vec::with_capacity(cs.layers.len());
+    let mut region = vec![air; (nx - 1) * (ny - 1)];
+    let mut bounds = Vec::with_capacity(n_layers);
     let mut acc = 0.0;
     for l in &cs.layers {
         bounds.push((acc, acc + l.thickness, l.eps_r));
@@ -272,23 +278,23 @@ pub(super) fn cell_eps(cs: &CrossSection, xs: &[f64], ys: &[f64]) -> Vec<f64> {
     }
     for j in 0..ny - 1 {
         let yc = 0.5 * (ys[j] + ys[j + 1]);
-        let layer_eps = bounds
+        let (layer_eps, layer_region) = bounds
             .iter()
-            .find(|(a, b, _)| yc >= *a && yc < *b)
-            .map(|l| l.2)
-            .unwrap_or(1.0);
+            .position(|(a, b, _)| yc >= *a && yc < *b)
+            .map_or((1.0, air), |k| (bounds[k].2, k as u32));
         for i in 0..nx - 1 {
             let xc = 0.5 * (xs[i] + xs[i + 1]);
-            let mut e = layer_eps;
-            for b in &cs.blocks {
+            let (mut e, mut r) = (layer_eps, layer_region);
+            for (k, b) in cs.blocks.iter().enumerate() {
                 if xc >= b.x0 && xc <= b.x1 && yc >= b.y0 && yc <= b.y1 {
-                    e = b.eps_r;
+                    (e, r) = (b.eps_r, (n_layers + k) as u32);
                 }
             }
             eps[j * (nx - 1) + i] = e;
+            region[j * (nx - 1) + i] = r;
         }
     }
-    eps
+    (eps, region)
 }
 
 /// The mesh `xs` × `ys` with every node marked free or fixed (box walls,
@@ -416,6 +422,8 @@ pub(super) type Topology = Vec<(Vec<usize>, Vec<usize>)>;
 /// unknowns of the finest mesh, and the mesh topology used.
 pub(super) struct Levels {
     pub(super) c: Vec<Vec<Vec<f64>>>,
+    /// ∂C/∂ε_r (÷ε0) per member, level and region (`fill[member][level][region]`).
+    pub(super) fill: Vec<Vec<Vec<Vec<f64>>>>,
     pub(super) c0: Vec<Vec<f64>>,
     pub(super) unknowns: usize,
     pub(super) topology: Topology,
@@ -433,6 +441,7 @@ pub(super) fn run_levels(
 ) -> Result<Levels, SolveError> {
     let mut out = Levels {
         c: vec![Vec::new(); members.len()],
+        fill: vec![Vec::new(); members.len()],
         c0: Vec::new(),
         unknowns: 0,
         topology: Vec::new(),
@@ -456,31 +465,33 @@ pub(super) fn run_levels(
             (true, 1) => &[false],
             _ => &[false, true],
         };
-        let mut per_wall: Vec<(Vec<Vec<f64>>, Vec<f64>)> = Vec::new();
+        #[allow(clippy::type_complexity)]
+        let mut per_wall: Vec<(Vec<Vec<f64>>, Vec<f64>, Vec<Vec<Vec<f64>>>)> = Vec::new();
         out.unknowns = 0;
         for &electric in walls {
             let grid = build_grid(p, xs.clone(), ys.clone(), electric)?;
             out.unknowns += grid.n_free;
             let solver = Solver::new(&grid).map_err(SolveError::new)?;
             let mut cm = Vec::with_capacity(members.len());
+            let mut fm = Vec::with_capacity(members.len());
             for cs in members {
-                let eps = cell_eps(cs, &grid.xs, &grid.ys);
-                cm.push(solver.capacitance(Some(&eps)).map_err(SolveError::new)?);
+                let (eps, region) = cell_eps(cs, &grid.xs, &grid.ys);
+                let n_regions = cs.layers.len() + cs.blocks.len() + 1;
+                let (c, f) = solver
+                    .capacitance_filling(Some(&eps), Some((&region, n_regions)))
+                    .map_err(SolveError::new)?;
+                cm.push(c);
+                fm.push(f);
             }
             let c0 = solver.capacitance(None).map_err(SolveError::new)?;
-            per_wall.push((cm, c0));
+            per_wall.push((cm, c0, fm));
         }
-        // Back to the whole section's Maxwell matrix.
-        let whole = |k: Option<usize>| -> Vec<f64> {
-            let q = |w: usize| match k {
-                Some(k) => per_wall[w].0[k][0],
-                None => per_wall[w].1[0],
-            };
+        // Back to the whole section's Maxwell matrix (or its derivative
+        // for one region: the same linear combination).
+        let combine = |of: Vec<&Vec<f64>>| -> Vec<f64> {
+            let q = |w: usize| of[w][0];
             match (p.mirror, n) {
-                (false, _) => match k {
-                    Some(k) => per_wall[0].0[k].clone(),
-                    None => per_wall[0].1.clone(),
-                },
+                (false, _) => of[0].clone(),
                 // the half carries half the trace's charge
                 (true, 1) => vec![2.0 * q(0)],
                 // even: C11 + C12, odd: C11 − C12
@@ -492,9 +503,16 @@ pub(super) fn run_levels(
             }
         };
         for k in 0..members.len() {
-            out.c[k].push(whole(Some(k)));
+            out.c[k].push(combine(per_wall.iter().map(|w| &w.0[k]).collect()));
+            let regions = per_wall[0].2[k].len();
+            out.fill[k].push(
+                (0..regions)
+                    .map(|r| combine(per_wall.iter().map(|w| &w.2[k][r]).collect()))
+                    .collect(),
+            );
         }
-        out.c0.push(whole(None));
+        out.c0
+            .push(combine(per_wall.iter().map(|w| &w.1).collect()));
     }
     Ok(out)
 }

@@ -57,7 +57,9 @@ mod synthesis;
 
 use extrapolate::*;
 use geometry::*;
-pub use geometry::{CoplanarGrounds, CrossSection, DielectricBlock, DielectricLayer, Trace};
+pub use geometry::{
+    CoplanarGrounds, CrossSection, DielectricBlock, DielectricLayer, Region, Trace,
+};
 use grid::*;
 use linalg::*;
 pub use synthesis::{coarse_mesh, secant_width, solve_coarse, width_for_target, CoarseMesh};
@@ -212,12 +214,65 @@ pub struct SolvedLine {
     pub single: Option<SingleEnded>,
     /// Two conductors: even/odd results.
     pub pair: Option<Pair>,
+    /// Derivative of the capacitance matrix with respect to each dielectric
+    /// region's relative permittivity, F/m, one row-major n×n matrix per
+    /// region in the order of [`CrossSection::region_layers`] (layers,
+    /// blocks, then the air outside them). Σ_r ε_r·∂C/∂ε_r = C. Dividing
+    /// a mode's entry by its vacuum capacitance gives the filling factor
+    /// q_r = ∂εeff/∂ε_r that dielectric loss is weighted by.
+    pub filling: Vec<Vec<f64>>,
     /// Estimated relative error of the impedances.
     pub z_rel_error: f64,
     /// Estimated relative error of the effective permittivities.
     pub eps_rel_error: f64,
     /// Number of unknowns of the finest mesh.
     pub unknowns: usize,
+}
+
+impl SolvedLine {
+    /// Share of each dielectric region in the electric energy of each
+    /// mode, s_r = ε_r·(∂C_mode/∂ε_r)/C_mode (they sum to one): one list
+    /// for a single conductor, `[even, odd]` for a pair; regions in the
+    /// order of [`CrossSection::regions`] of the section `cs` this line
+    /// was solved from. `None` without filling data or for a section
+    /// that does not match.
+    ///
+    /// A mode's conductance per metre is G = ω·Σ_r tanδ_r·ε_r·∂C/∂ε_r
+    /// (quasi-TEM perturbation: each region's loss weighted by the
+    /// electric energy stored in it), so its effective loss tangent is
+    /// Σ_r s_r·tanδ_r and α_d = π·f·√εeff·tanδ_eff/c0 (see
+    /// [`crate::loss::dielectric_loss_of_mode`]).
+    pub fn energy_shares(&self, cs: &CrossSection) -> Option<Vec<Vec<f64>>> {
+        let eps = cs.region_eps();
+        if self.filling.len() != eps.len() || self.n == 0 || self.n > 2 {
+            return None;
+        }
+        let n = self.n;
+        // The mode's capacitance from an n×n matrix.
+        let modes = |m: &[f64]| -> Vec<f64> {
+            if n == 1 {
+                vec![m[0]]
+            } else {
+                let (s, c) = (0.5 * (m[0] + m[3]), 0.5 * (m[1] + m[2]));
+                vec![s + c, s - c]
+            }
+        };
+        let total = modes(&self.capacitance);
+        let per_region: Vec<Vec<f64>> = self.filling.iter().map(|f| modes(f)).collect();
+        let shares: Vec<Vec<f64>> = (0..total.len())
+            .map(|k| {
+                eps.iter()
+                    .zip(&per_region)
+                    .map(|(e, d)| e * d[k] / total[k])
+                    .collect()
+            })
+            .collect();
+        shares
+            .iter()
+            .flatten()
+            .all(|v| v.is_finite())
+            .then_some(shares)
+    }
 }
 
 /// Vacuum-only result.
@@ -266,9 +321,20 @@ pub fn solve_family(
     let lv = run_levels(&p, &refs, opt, None)?;
     let (c0, c0e) = extrapolate(&opt.refinements, &lv.c0, opt.assumed_order, n);
     lv.c.iter()
-        .map(|cm| {
+        .zip(&lv.fill)
+        .map(|(cm, fm)| {
             let (c, ce) = extrapolate(&opt.refinements, cm, opt.assumed_order, n);
-            finish(c, c0.clone(), ce, c0e, n, lv.unknowns)
+            let regions = fm.first().map_or(0, Vec::len);
+            let filling = (0..regions)
+                .map(|r| {
+                    let per_level: Vec<Vec<f64>> = fm.iter().map(|l| l[r].clone()).collect();
+                    let (d, _) = extrapolate(&opt.refinements, &per_level, opt.assumed_order, n);
+                    d.iter().map(|v| v * EPS0).collect()
+                })
+                .collect();
+            let mut line = finish(c, c0.clone(), ce, c0e, n, lv.unknowns)?;
+            line.filling = filling;
+            Ok(line)
         })
         .collect()
 }
@@ -365,6 +431,7 @@ fn finish(
         modal_eps_eff,
         single,
         pair,
+        filling: Vec::new(),
         z_rel_error: 0.5 * (ce + c0e),
         eps_rel_error: ce + c0e,
         unknowns,
