@@ -9,19 +9,7 @@ use stackup_physics::loss::{
     dielectric_loss_microstrip, dielectric_loss_of_mode, dielectric_loss_stripline,
 };
 
-fn layer(thickness: f64, eps_r: f64) -> DielectricLayer {
-    DielectricLayer { thickness, eps_r }
-}
-
-fn microstrip(w: f64, h: f64, t: f64, er: f64) -> CrossSection {
-    CrossSection {
-        layers: vec![layer(h, er)],
-        bottom_plane: true,
-        top_plane: false,
-        conductors: vec![Trace::rect(0.0, h, w, t)],
-        ..Default::default()
-    }
-}
+use crate::tline_fieldsolver::{layer, microstrip};
 
 /// A two-ply stripline with a resin-filled copper slot and a pair.
 fn pair_in_two_plies() -> CrossSection {

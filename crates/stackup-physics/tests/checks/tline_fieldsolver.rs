@@ -12,7 +12,7 @@ fn rel(a: f64, b: f64) -> f64 {
     ((a - b) / b).abs()
 }
 
-fn layer(thickness: f64, eps_r: f64) -> DielectricLayer {
+pub(crate) fn layer(thickness: f64, eps_r: f64) -> DielectricLayer {
     DielectricLayer { thickness, eps_r }
 }
 
@@ -27,7 +27,7 @@ fn stripline(w: f64, b: f64, er: f64) -> CrossSection {
     }
 }
 
-fn microstrip(w: f64, h: f64, t: f64, er: f64) -> CrossSection {
+pub(crate) fn microstrip(w: f64, h: f64, t: f64, er: f64) -> CrossSection {
     CrossSection {
         layers: vec![layer(h, er)],
         bottom_plane: true,
