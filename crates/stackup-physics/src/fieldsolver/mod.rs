@@ -54,6 +54,7 @@ mod geometry;
 mod grid;
 mod linalg;
 mod synthesis;
+mod wheeler;
 
 use extrapolate::*;
 use geometry::*;
@@ -62,6 +63,9 @@ pub use geometry::{
 };
 use grid::*;
 use linalg::*;
+pub use wheeler::{
+    inductance_derivatives, modal_resistance, resistance_matrix, InductanceDerivative, MetalFaces,
+};
 pub use synthesis::{coarse_mesh, secant_width, solve_coarse, width_for_target, CoarseMesh};
 
 /// Solver settings. The defaults aim at about 0.3 % on Z0.

@@ -12,6 +12,7 @@ mod materials_roughness;
 mod materials_roughness_properties;
 mod materials_weave;
 mod reference;
+mod tline_conductor_loss;
 mod tline_dielectric_loss;
 mod tline_fieldsolver;
 mod tline_properties;
