@@ -30,7 +30,9 @@ use std::collections::{BTreeMap, HashMap};
 use stackup_physics::consts::C0;
 use stackup_physics::copper::SIGMA_ANNEALED_COPPER;
 use stackup_physics::coupled::ModalPair;
-use stackup_physics::fieldsolver::{CrossSection, SolveError, SolveErrorKind, SolvedLine};
+use stackup_physics::fieldsolver::{
+    CrossSection, InductanceDerivative, SolveError, SolveErrorKind, SolvedLine,
+};
 
 use crate::model::Stackup;
 use materials::{DkAt, MaterialModel};
@@ -86,12 +88,17 @@ impl LineNumbers {
 }
 
 /// Loss per unit length at the analysis frequency, dB/m.
-#[derive(Debug, Clone, Copy, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct LossNumbers {
     pub dielectric: f64,
     pub conductor_smooth: f64,
     /// Worst case of the declared roughness.
     pub conductor_rough: f64,
+    /// The rough conductor loss split over the groups of metal faces
+    /// (solver frame), when it comes from the solved section.
+    pub conductor_faces: Option<Vec<(stackup_physics::fieldsolver::MetalFaces, f64)>>,
+    /// How the conductor loss was computed.
+    pub conductor_model: &'static str,
 }
 
 impl LossNumbers {
@@ -366,6 +373,23 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         (i, solver.width_for_target(g, f, target, z))
     });
     let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
+    // Conductor loss by Wheeler's rule: each solvable class's metal faces
+    // receded group by group, spread over the solver threads.
+    let wheeler_items: Vec<(usize, &LineGeometry)> = pending
+        .iter()
+        .enumerate()
+        .filter_map(|(i, p)| {
+            let p = p.as_ref().ok().filter(|p| p.blocked.is_none())?;
+            Some((i, &p.geometry))
+        })
+        .collect();
+    let wheeler: HashMap<usize, Option<Vec<InductanceDerivative>>> = solver
+        .pool()
+        .map(&wheeler_items, |&(i, g)| {
+            (i, solver.inductance_derivatives(g))
+        })
+        .into_iter()
+        .collect();
     // Second pass: assemble each class.
     let mut classes = Vec::new();
     for (i, (nc, p)) in s.net_classes.iter().zip(pending).enumerate() {
@@ -426,14 +450,15 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             (Some(_), Some(_)) => Some(nc.width),
             _ => None,
         };
+        let derivs = wheeler.get(&i).and_then(|d| d.as_deref());
         let loss = smooth
             .as_ref()
             .ok()
-            .map(|sm| loss::line_loss(&g, &dk, f, sm, energy.as_deref()));
+            .map(|sm| loss::line_loss(&g, &dk, f, sm, energy.as_deref(), derivs));
         let budget_loss = nc.loss_budget.and(smooth.as_ref().ok()).and_then(|sm| {
             let fb = nc.nyquist.unwrap_or(f);
             if fb == f {
-                return loss.map(|l| (f, l));
+                return loss.clone().map(|l| (f, l));
             }
             let dk_b: BTreeMap<usize, DkAt> = g
                 .slabs
@@ -441,7 +466,10 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 .filter_map(|sl| sl.material)
                 .filter_map(|m| Some((m, dk_at(m, fb)?)))
                 .collect();
-            Some((fb, loss::line_loss(&g, &dk_b, fb, sm, energy.as_deref())))
+            Some((
+                fb,
+                loss::line_loss(&g, &dk_b, fb, sm, energy.as_deref(), derivs),
+            ))
         });
         let limits = Some(limits::structure_limits(nc, &g, smooth.as_ref().ok()));
         let mode_skew = limits::mode_skew(nc, worst.as_ref().or(smooth.as_ref().ok()), f);

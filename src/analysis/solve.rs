@@ -8,7 +8,8 @@ use std::sync::atomic::{AtomicU64, AtomicUsize, Ordering};
 use std::sync::Arc;
 
 use stackup_physics::fieldsolver::{
-    self, estimate, solve, solve_family, CrossSection, SolveError, SolvedLine, SolverOptions,
+    self, estimate, solve, solve_family, CrossSection, InductanceDerivative, MetalFaces,
+    SolveError, SolvedLine, SolverOptions,
 };
 use stackup_physics::roughness::RoughLayerModel;
 
@@ -221,6 +222,67 @@ impl<'a> Solver<'a> {
             self.tally.stored.fetch_add(n, Ordering::Relaxed);
         }
         w
+    }
+
+    /// ∂L/∂n of each group of metal faces of a class's smooth section
+    /// (`fieldsolver::inductance_derivatives`, Wheeler's rule), through the
+    /// disk cache as one entry: per group its index in `MetalFaces::ALL`
+    /// and its n×n matrix. A cached entry is used only if its shape fits the
+    /// section and every self term is finite and positive; the loss it
+    /// gives is further held against the closed forms (`loss::line_loss`).
+    pub(super) fn inductance_derivatives(
+        &self,
+        g: &LineGeometry,
+    ) -> Option<Vec<InductanceDerivative>> {
+        let cs = section::cross_section(g, None);
+        let n = cs.conductors.len();
+        let k = format!("wheeler | {}", self.key(&cs));
+        let decode = |v: &[f64]| -> Option<Vec<InductanceDerivative>> {
+            let per = 1 + n * n;
+            if v.is_empty() || v.len() % per != 0 {
+                return None;
+            }
+            let out: Vec<InductanceDerivative> = v
+                .chunks(per)
+                .map(|c| {
+                    let faces = *MetalFaces::ALL.get(c[0] as usize)?;
+                    let ok = c[0].fract() == 0.0
+                        && c[1..].iter().all(|x| x.is_finite())
+                        && (0..n).all(|i| c[1 + i * n + i] > 0.0);
+                    ok.then(|| InductanceDerivative {
+                        faces,
+                        dl_dn: c[1..].to_vec(),
+                    })
+                })
+                .collect::<Option<_>>()?;
+            Some(out)
+        };
+        if let Some(c) = self.cache() {
+            if let Some(v) = c.get_numbers(&k) {
+                if let Some(d) = decode(&v) {
+                    self.tally.add(1, 0);
+                    return Some(d);
+                }
+                self.tally.rejected.fetch_add(1, Ordering::Relaxed);
+            }
+        }
+        self.tally.add(0, 1);
+        let d = fieldsolver::inductance_derivatives(&cs, &self.solver).ok()?;
+        let flat: Vec<f64> = d
+            .iter()
+            .flat_map(|x| {
+                let i = MetalFaces::ALL
+                    .iter()
+                    .position(|f| *f == x.faces)
+                    .unwrap_or(0);
+                std::iter::once(i as f64).chain(x.dl_dn.iter().copied())
+            })
+            .collect();
+        if let Some(c) = self.cache() {
+            let stored = c.put_numbers(&k, &flat);
+            self.tally.stored.fetch_add(stored, Ordering::Relaxed);
+        }
+        decode(&flat)
     }
 
     /// Count what this analysis stored against the cache's bound (evicting

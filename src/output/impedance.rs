@@ -1,6 +1,8 @@
 //! The `impedance` command's table: per net class, what the stackup really
 //! gives (field-solved), with smooth and rough copper.
 
+use std::collections::BTreeMap;
+
 use serde::Serialize;
 
 use crate::analysis::{Analysis, ClassAnalysis, LineNumbers};
@@ -25,6 +27,11 @@ struct Row<'a> {
     dielectric_loss_db_per_mm: Option<f64>,
     conductor_loss_db_per_mm: Option<f64>,
     conductor_loss_smooth_db_per_mm: Option<f64>,
+    /// The rough conductor loss per group of metal faces, dB/mm (solver
+    /// frame: the first plane below), when it comes from the solved section.
+    conductor_loss_faces_db_per_mm: Option<BTreeMap<&'static str, f64>>,
+    /// How the conductor loss was computed.
+    conductor_loss_model: Option<&'static str>,
     /// Total loss over `--length`, dB (vias and connectors not included).
     loss_db_over_length: Option<f64>,
     /// The loss budget's frequency and the line's loss over its length.
@@ -111,16 +118,27 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             rough_worst: ca.rough_worst.as_ref().map(numbers),
             roughness_unknown: ca.roughness_unknown,
             width_for_target_um: ca.width_for_target.map(|w| round(w * 1e6, 1)),
-            loss_db_per_mm: ca.loss.map(|l| round(l.total_rough() / 1e3, 5)),
-            loss_db_per_inch: ca.loss.map(|l| round(l.total_rough() * 0.0254, 4)),
-            dielectric_loss_db_per_mm: ca.loss.map(|l| round(l.dielectric / 1e3, 5)),
-            conductor_loss_db_per_mm: ca.loss.map(|l| round(l.conductor_rough / 1e3, 5)),
-            conductor_loss_smooth_db_per_mm: ca.loss.map(|l| round(l.conductor_smooth / 1e3, 5)),
+            loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.total_rough() / 1e3, 5)),
+            loss_db_per_inch: ca.loss.as_ref().map(|l| round(l.total_rough() * 0.0254, 4)),
+            dielectric_loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.dielectric / 1e3, 5)),
+            conductor_loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.conductor_rough / 1e3, 5)),
+            conductor_loss_smooth_db_per_mm: ca
+                .loss
+                .as_ref()
+                .map(|l| round(l.conductor_smooth / 1e3, 5)),
+            conductor_loss_faces_db_per_mm: ca.loss.as_ref().and_then(|l| {
+                l.conductor_faces.as_ref().map(|v| {
+                    v.iter()
+                        .map(|(f, db)| (face_name(*f), round(db / 1e3, 6)))
+                        .collect()
+                })
+            }),
+            conductor_loss_model: ca.loss.as_ref().map(|l| l.conductor_model),
             loss_db_over_length: length
-                .and_then(|len| ca.loss.map(|l| round(l.total_rough() * len, 3))),
+                .and_then(|len| ca.loss.as_ref().map(|l| round(l.total_rough() * len, 3))),
             loss_budget: nc
                 .loss_budget
-                .zip(ca.budget_loss)
+                .zip(ca.budget_loss.as_ref())
                 .map(|(b, (f, l))| BudgetJson {
                     frequency_ghz: round(f / 1e9, 4),
                     budget_db: b.loss,
@@ -272,6 +290,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
                 format!("{delay:.2}")
             },
             ca.loss
+                .as_ref()
                 .map_or("—".into(), |l| format!("{:.4}", l.total_rough() / 1e3)),
             ca.width_for_target
                 .map_or("—".into(), |w| format!("{:.1} um", w * 1e6)),
@@ -308,7 +327,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
     }
     if let Some(len) = length {
         for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
-            if let Some(l) = ca.loss {
+            if let Some(l) = &ca.loss {
                 out.push_str(&format!(
                     "  {}: {:.2} dB over {} at {} ({:.2} dB conductor with rough copper, {:.2} dB with smooth; {:.2} dB dielectric; {:.3} dB/inch)\n",
                     nc.name,
@@ -336,6 +355,19 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
         }
     }
     out.push_str(&format!("  model: {}\n", crate::analysis::FIELD_SOLVER));
+    let mut loss_models: Vec<&str> = a
+        .classes
+        .iter()
+        .filter_map(|c| c.loss.as_ref().map(|l| l.conductor_model))
+        .collect();
+    loss_models.sort_unstable();
+    loss_models.dedup();
+    for m in loss_models {
+        out.push_str(&format!("  conductor loss: {m}\n"));
+    }
+    out.push_str(
+        "  dielectric loss: each material's Df weighted by the share of the field's energy in it\n",
+    );
     out.push_str(&dielectric_table(s, a));
     out
 }
@@ -488,4 +520,16 @@ fn dielectric_table(s: &Stackup, a: &Analysis) -> String {
     }
     out.push_str("  apparent Dk: effective-roughness-layer model, parallel-plate form; a range where a face's roughness is unknown\n");
     out
+}
+
+/// A group of metal faces as the JSON names it.
+fn face_name(f: stackup_physics::fieldsolver::MetalFaces) -> &'static str {
+    use stackup_physics::fieldsolver::MetalFaces as F;
+    match f {
+        F::PlaneBelow => "plane below",
+        F::LayerBottom => "trace bottom",
+        F::LayerTop => "trace top",
+        F::Edges => "trace edges",
+        F::PlaneAbove => "plane above",
+    }
 }

@@ -37,7 +37,7 @@ impl Rule for InsertionLossBudget {
         let warn_share = cx.option(&OPTIONS[0]);
         let mut out = Vec::new();
         for (nc, ca) in s.net_classes.iter().zip(&cx.analysis.classes) {
-            let (Some(b), Some((f, l))) = (nc.loss_budget, ca.budget_loss) else {
+            let (Some(b), Some(&(f, ref l))) = (nc.loss_budget, ca.budget_loss.as_ref()) else {
                 continue;
             };
             let total = l.total_rough() * b.length;

@@ -276,7 +276,10 @@ pub(super) fn impedance_section(s: &Stackup, a: &Analysis, opts: &ReportOptions)
                 opt(z_rough),
                 opt(apparent),
                 opt(delay),
-                opt(ca.loss.map(|l| format!("{:.4}", l.total_rough() / 1e3))),
+                opt(ca
+                    .loss
+                    .as_ref()
+                    .map(|l| format!("{:.4}", l.total_rough() / 1e3))),
                 opt(ca.width_for_target.map(|w| format!("{:.1}", w * 1e6))),
             ],
             tone,
@@ -284,7 +287,7 @@ pub(super) fn impedance_section(s: &Stackup, a: &Analysis, opts: &ReportOptions)
         if let Err(e) = &ca.smooth {
             notes.push(format!("{}: not solved: {e}", nc.name));
         }
-        if let (Some(len), Some(l)) = (opts.length, ca.loss) {
+        if let (Some(len), Some(l)) = (opts.length, ca.loss.as_ref()) {
             notes.push(format!(
                 "{}: {:.2} dB over {} at {} ({:.2} dB conductor with rough copper, {:.2} dB with smooth; {:.2} dB dielectric).",
                 nc.name,

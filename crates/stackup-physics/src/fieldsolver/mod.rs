@@ -63,10 +63,10 @@ pub use geometry::{
 };
 use grid::*;
 use linalg::*;
+pub use synthesis::{coarse_mesh, secant_width, solve_coarse, width_for_target, CoarseMesh};
 pub use wheeler::{
     inductance_derivatives, modal_resistance, resistance_matrix, InductanceDerivative, MetalFaces,
 };
-pub use synthesis::{coarse_mesh, secant_width, solve_coarse, width_for_target, CoarseMesh};
 
 /// Solver settings. The defaults aim at about 0.3 % on Z0.
 #[derive(Debug, Clone, PartialEq)]

@@ -302,7 +302,11 @@ mod tests {
         assert_eq!(a.len(), 5);
         for (x, y) in a.iter().zip(&b) {
             let (p, q) = (x.dl_dn[0], y.dl_dn[0]);
-            assert!(p > 0.0 && ((p - q) / q).abs() < 5e-3, "{:?}: {p} vs {q}", x.faces);
+            assert!(
+                p > 0.0 && ((p - q) / q).abs() < 5e-3,
+                "{:?}: {p} vs {q}",
+                x.faces
+            );
         }
     }
 }

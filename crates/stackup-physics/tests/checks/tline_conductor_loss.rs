@@ -77,11 +77,17 @@ fn closed_forms_where_they_hold() {
     for (w, b) in [(0.2e-3, 0.5e-3), (0.5e-3, 1.0e-3), (1.0e-3, 1.0e-3)] {
         let t = 5e-6;
         let cs = stripline(w, b, t, 3.0);
-        let s = solve(&cs, &SolverOptions::default()).unwrap().single.unwrap();
+        let s = solve(&cs, &SolverOptions::default())
+            .unwrap()
+            .single
+            .unwrap();
         let solved = alpha_c(&cs, rs);
         let closed = conductor_loss_stripline_pozar(rs, 3.0, s.z0, w, b, t).unwrap();
         eprintln!("stripline W {w} b {b}: solved {solved:.4}, Pozar {closed:.4} Np/m");
-        assert!(((solved - closed) / closed).abs() < 0.05, "{solved} {closed}");
+        assert!(
+            ((solved - closed) / closed).abs() < 0.05,
+            "{solved} {closed}"
+        );
     }
 }
 
@@ -106,7 +112,10 @@ fn hammerstad_jensen_loss_is_high() {
             conductors: vec![Trace::rect(0.0, h, w, t)],
             ..Default::default()
         };
-        let s = solve(&cs, &SolverOptions::default()).unwrap().single.unwrap();
+        let s = solve(&cs, &SolverOptions::default())
+            .unwrap()
+            .single
+            .unwrap();
         let solved = alpha_c(&cs, rs);
         let closed = conductor_loss_microstrip_hj(rs, s.z0, w, 1.0).unwrap();
         eprintln!(
@@ -145,6 +154,25 @@ fn pair_modes_and_face_groups() {
     let (even, odd) = (r[0] / (2.0 * sol.z_even), r[1] / (2.0 * sol.z_odd));
     eprintln!("pair alpha_c even {even:.4}, odd {odd:.4} Np/m");
     assert!(odd > even, "odd {odd} even {even}");
+    // Far apart, both modes tend to the single line.
+    let wide = CrossSection {
+        conductors: vec![
+            Trace::rect(-0.5 * (w + 12.0 * h), h, w, t),
+            Trace::rect(0.5 * (w + 12.0 * h), h, w, t),
+        ],
+        ..pair.clone()
+    };
+    let dw = inductance_derivatives(&wide, &opt).unwrap();
+    let rw = modal_resistance(&resistance_matrix(&dw, |_| rs));
+    let sw = solve(&wide, &opt).unwrap().pair.unwrap();
+    let single = alpha_c(&stripline(w, 2.0 * h + t, t, 3.5), rs);
+    for a in [rw[0] / (2.0 * sw.z_even), rw[1] / (2.0 * sw.z_odd)] {
+        assert!(
+            ((a - single) / single).abs() < 0.01,
+            "{a} vs single {single}"
+        );
+    }
+    assert!(odd > 1.05 * single, "tight pair {odd}, single {single}");
     let total: f64 = d.iter().map(|g| g.dl_dn[0]).sum();
     let one = resistance_matrix(&d, |_| 1.0)[0] * stackup_physics::consts::MU0;
     assert!(((one - total) / total).abs() < 1e-12);
@@ -162,8 +190,17 @@ fn wheeler_rule_on_the_closed_forms() {
     use stackup_physics::stripline::wheeler_stripline;
     let rs = surface_resistance(10e9, 5.8e7).unwrap();
     let dl = |l: &dyn Fn(f64) -> f64, d: f64| (l(d) - l(-d)) / (2.0 * d);
-    for (w, h, t) in [(1.0e-3, 0.5e-3, 5e-6), (0.2e-3, 0.1e-3, 18e-6), (0.12e-3, 0.1e-3, 35e-6)] {
-        let l = |d: f64| hammerstad_jensen(w - 2.0 * d, h + 2.0 * d, t - 2.0 * d, 1.0).unwrap().z0 / C0;
+    for (w, h, t) in [
+        (1.0e-3, 0.5e-3, 5e-6),
+        (0.2e-3, 0.1e-3, 18e-6),
+        (0.12e-3, 0.1e-3, 35e-6),
+    ] {
+        let l = |d: f64| {
+            hammerstad_jensen(w - 2.0 * d, h + 2.0 * d, t - 2.0 * d, 1.0)
+                .unwrap()
+                .z0
+                / C0
+        };
         let z = hammerstad_jensen(w, h, t, 3.0).unwrap().z0;
         let closed = rs / (2.0 * z * MU0) * dl(&l, 1e-3 * t);
         let cs = CrossSection {
@@ -174,15 +211,28 @@ fn wheeler_rule_on_the_closed_forms() {
             ..Default::default()
         };
         let solved = alpha_c(&cs, rs);
-        eprintln!("microstrip W {w} h {h} t {t}: solved {solved:.4}, Wheeler on HJ {closed:.4} Np/m");
-        assert!(((solved - closed) / closed).abs() < 0.04, "{solved} {closed}");
+        eprintln!(
+            "microstrip W {w} h {h} t {t}: solved {solved:.4}, Wheeler on HJ {closed:.4} Np/m"
+        );
+        assert!(
+            ((solved - closed) / closed).abs() < 0.04,
+            "{solved} {closed}"
+        );
     }
     for (w, b, t) in [(2.66e-3, 3.2e-3, 0.01e-3), (0.15e-3, 0.3e-3, 18e-6)] {
-        let l = |d: f64| wheeler_stripline(w - 2.0 * d, b + 2.0 * d, t - 2.0 * d, 1.0).unwrap().z0 / C0;
+        let l = |d: f64| {
+            wheeler_stripline(w - 2.0 * d, b + 2.0 * d, t - 2.0 * d, 1.0)
+                .unwrap()
+                .z0
+                / C0
+        };
         let z = wheeler_stripline(w, b, t, 2.2).unwrap().z0;
         let closed = rs / (2.0 * z * MU0) * dl(&l, 1e-3 * t);
         let solved = alpha_c(&stripline(w, b, t, 2.2), rs);
         eprintln!("stripline W {w} b {b} t {t}: solved {solved:.4}, Wheeler on Wheeler 1978 {closed:.4} Np/m");
-        assert!(((solved - closed) / closed).abs() < 0.04, "{solved} {closed}");
+        assert!(
+            ((solved - closed) / closed).abs() < 0.04,
+            "{solved} {closed}"
+        );
     }
 }
