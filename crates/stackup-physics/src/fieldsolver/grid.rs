@@ -474,11 +474,14 @@ pub(super) fn run_levels(
             let solver = Solver::new(&grid).map_err(SolveError::new)?;
             let mut cm = Vec::with_capacity(members.len());
             let mut fm = Vec::with_capacity(members.len());
-            for cs in members {
+            for (k, cs) in members.iter().enumerate() {
                 let (eps, region) = cell_eps(cs, &grid.xs, &grid.ys);
                 let n_regions = cs.layers.len() + cs.blocks.len() + 1;
+                // The energy per region for the family's first member only
+                // (the reference section, smooth copper in the analysis).
+                let regions = (k == 0).then_some((region.as_slice(), n_regions));
                 let (c, f) = solver
-                    .capacitance_filling(Some(&eps), Some((&region, n_regions)))
+                    .capacitance_filling(Some(&eps), regions)
                     .map_err(SolveError::new)?;
                 cm.push(c);
                 fm.push(f);

@@ -223,7 +223,9 @@ pub struct SolvedLine {
     /// region in the order of [`CrossSection::region_layers`] (layers,
     /// blocks, then the air outside them). Σ_r ε_r·∂C/∂ε_r = C. Dividing
     /// a mode's entry by its vacuum capacitance gives the filling factor
-    /// q_r = ∂εeff/∂ε_r that dielectric loss is weighted by.
+    /// q_r = ∂εeff/∂ε_r that dielectric loss is weighted by. Computed for
+    /// a single section and for the first member of a family; empty for
+    /// the other members.
     pub filling: Vec<Vec<f64>>,
     /// Estimated relative error of the impedances.
     pub z_rel_error: f64,
