@@ -109,12 +109,8 @@ enum Command {
         /// Exit 0 instead of 2 when the paths hold no stackup file
         #[arg(long)]
         allow_empty: bool,
-        /// Threads for field solves (0 = one per core); output does not depend on it
-        #[arg(long, default_value_t = 0, value_name = "N")]
-        threads: usize,
-        /// Largest field-solver mesh (nodes of one grid); bigger sections are reported, not solved
-        #[arg(long, default_value_t = stackup_lint::analysis::DEFAULT_MAX_MESH_NODES, value_name = "NODES")]
-        max_mesh_nodes: usize,
+        #[command(flatten)]
+        solve: SolveArgs,
         /// Base address of the rule pages linked from SARIF
         #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
         rule_docs_url: String,
@@ -146,6 +142,8 @@ enum Command {
         /// Also give the total loss over this routed length, e.g. "150 mm"
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
+        #[command(flatten)]
+        solve: SolveArgs,
     },
     /// Write the fabrication-note report of one stackup: a self-contained
     /// HTML page, a Markdown file and the SVG drawings it links to
@@ -162,7 +160,30 @@ enum Command {
         /// Also give the total loss over this routed length, e.g. "150 mm"
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
+        #[command(flatten)]
+        solve: SolveArgs,
     },
+}
+
+/// How field solves run (`check`, `impedance`, `report`).
+#[derive(Args)]
+struct SolveArgs {
+    /// Threads for field solves (0 = one per core); output does not depend on it
+    #[arg(long, default_value_t = 0, value_name = "N")]
+    threads: usize,
+    /// Largest field-solver mesh (nodes of one grid); bigger sections are reported, not solved
+    #[arg(long, default_value_t = stackup_lint::analysis::DEFAULT_MAX_MESH_NODES, value_name = "NODES")]
+    max_mesh_nodes: usize,
+}
+
+impl SolveArgs {
+    fn options(self, run: AnalysisOptions) -> AnalysisOptions {
+        AnalysisOptions {
+            max_mesh_nodes: self.max_mesh_nodes,
+            pool: Pool::new(clamp_threads(self.threads)),
+            ..run
+        }
+    }
 }
 
 /// Which files a directory walk picks.
@@ -224,8 +245,8 @@ fn clamp_threads(n: usize) -> usize {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    // What every command solves with: the disk cache (if any) and, for
-    // `check`, the mesh budget and threads given.
+    // What every command solves with: the disk cache (if any), and the
+    // mesh budget and threads given to `check`, `impedance` and `report`.
     let run = AnalysisOptions {
         cache: stackup_lint::analysis::cache::from_env(cli.no_cache),
         ..AnalysisOptions::default()
@@ -244,7 +265,9 @@ fn main() -> ExitCode {
             paths,
             format,
             length,
+            solve,
         } => {
+            let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
                 Err(code) => return code,
@@ -256,7 +279,9 @@ fn main() -> ExitCode {
             output,
             to_scale,
             length,
+            solve,
         } => {
+            let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
                 Err(code) => return code,
@@ -307,14 +332,9 @@ fn main() -> ExitCode {
             allow_empty,
             rule_docs_url,
             baseline,
-            threads,
-            max_mesh_nodes,
+            solve,
         } => {
-            let run = AnalysisOptions {
-                max_mesh_nodes,
-                pool: Pool::new(clamp_threads(threads)),
-                ..run
-            };
+            let run = solve.options(run);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
                 Some(Ok(b)) => Some(b),

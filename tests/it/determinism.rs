@@ -50,6 +50,33 @@ fn output_is_identical_across_thread_counts() {
     }
 }
 
+/// `impedance` takes `--threads` too (as the README says), with the same
+/// numbers whatever the count.
+#[test]
+fn impedance_takes_threads_and_gives_the_same_numbers() {
+    let run = |threads: &str| {
+        let o = common::command(common::root())
+            .args([
+                "impedance",
+                "--format",
+                "json",
+                "--threads",
+                threads,
+                "examples/",
+            ])
+            .output()
+            .expect("binary runs");
+        assert_eq!(
+            o.status.code(),
+            Some(0),
+            "{}",
+            String::from_utf8_lossy(&o.stderr)
+        );
+        o.stdout
+    };
+    assert_eq!(run("1"), run("3"));
+}
+
 /// `check examples/` with the field-solver cache in `cache` (or `--no-cache`).
 fn run_cached(cache: Option<&std::path::Path>, format: &str, sarif: &std::path::Path) -> Vec<u8> {
     let mut c = common::command(common::root());
