@@ -14,6 +14,7 @@ pub mod broadside;
 pub mod cache;
 pub mod delay;
 pub mod dielectrics;
+mod dispersion;
 pub mod limits;
 mod loss;
 pub mod materials;
@@ -414,9 +415,16 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             classes.push(ca);
             continue;
         }
-        let smooth = numbers(&p.family, p.smooth);
-        let best = numbers(&p.family, p.best).ok();
-        let worst = numbers(&p.family, p.worst).ok();
+        let disp = dispersion::dispersion(s, &g, f);
+        let static_smooth = numbers(&p.family, p.smooth).ok();
+        let raise = |mut n: LineNumbers| {
+            disp.apply(&mut n);
+            n
+        };
+        let smooth = numbers(&p.family, p.smooth).map(raise);
+        let best = numbers(&p.family, p.best).ok().map(raise);
+        let worst = numbers(&p.family, p.worst).ok().map(raise);
+        notes.extend(disp.note(static_smooth.as_ref(), smooth.as_ref().ok()));
         let roughness_unknown = g.faces.iter().any(|f| f.roughness.is_range());
         let implied_faces: Vec<_> = g
             .faces
@@ -489,7 +497,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                     layer,
                     bulk,
                     apparent,
-                    numbers: numbers(&p.family, m).ok()?,
+                    numbers: raise(numbers(&p.family, m).ok()?),
                 })
             })
             .collect();
