@@ -21,6 +21,30 @@ pub struct DkAt {
     pub extrapolated: bool,
 }
 
+/// A data point the causal fit cannot meet (see [`MaterialModel::misfits`]).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PointMisfit {
+    /// Index of the point in the material's `points`.
+    pub index: usize,
+    pub frequency: f64,
+    /// The stated values.
+    pub dk: f64,
+    pub df: f64,
+    /// The fitted model's values at the same frequency.
+    pub fit_dk: f64,
+    pub fit_df: f64,
+}
+
+/// Largest relative Dk difference between a point and the causal fit that
+/// counts as agreement (common practice, no source: data-sheet Dk is
+/// quoted to about ±1 %).
+pub const DK_MISFIT: f64 = 0.01;
+/// Largest Df difference that counts as agreement: 15 % of the stated Df,
+/// and at least 0.0003 (common practice, no source: data-sheet Df values
+/// carry one or two significant digits).
+pub const DF_MISFIT_REL: f64 = 0.15;
+pub const DF_MISFIT_ABS: f64 = 3e-4;
+
 /// A material's wideband model.
 #[derive(Debug, Clone)]
 pub struct MaterialModel {
@@ -32,6 +56,11 @@ pub struct MaterialModel {
     pub valid_to: f64,
     /// Why the causal fit was not possible, if it was not.
     pub fit_problem: Option<String>,
+    /// The points of a several-point table that one causal
+    /// Djordjevic-Sarkar term cannot meet (Dk off by more than
+    /// [`DK_MISFIT`], or Df by more than [`DF_MISFIT_REL`] and
+    /// [`DF_MISFIT_ABS`]): the numbers use the fit there, not the points.
+    pub misfits: Vec<PointMisfit>,
 }
 
 impl MaterialModel {
@@ -63,19 +92,42 @@ impl MaterialModel {
         .and_then(|ds| ds.with_valid_range(valid_from.min(valid_to), valid_to.max(valid_from)));
         let constant = (m.points[0].dk, m.points[0].df);
         match fitted {
-            Ok(ds) => MaterialModel {
-                ds: Some(ds),
-                constant,
-                valid_from,
-                valid_to,
-                fit_problem: None,
-            },
+            Ok(ds) => {
+                let misfits = m
+                    .points
+                    .iter()
+                    .enumerate()
+                    .filter_map(|(index, p)| {
+                        let e = ds.eval(p.frequency).ok()?;
+                        let dk_off = (e.dk - p.dk).abs() > DK_MISFIT * p.dk;
+                        let df_off =
+                            (e.df - p.df).abs() > (DF_MISFIT_REL * p.df).max(DF_MISFIT_ABS);
+                        (dk_off || df_off).then_some(PointMisfit {
+                            index,
+                            frequency: p.frequency,
+                            dk: p.dk,
+                            df: p.df,
+                            fit_dk: e.dk,
+                            fit_df: e.df,
+                        })
+                    })
+                    .collect();
+                MaterialModel {
+                    ds: Some(ds),
+                    constant,
+                    valid_from,
+                    valid_to,
+                    fit_problem: None,
+                    misfits,
+                }
+            }
             Err(e) => MaterialModel {
                 ds: None,
                 constant,
                 valid_from,
                 valid_to,
                 fit_problem: Some(e.to_string()),
+                misfits: Vec::new(),
             },
         }
     }

@@ -13,6 +13,7 @@ mod frequency_validity;
 mod glass_weave_skew;
 mod impedance_off_target;
 mod loss_budget;
+mod material_data_not_causal;
 mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
@@ -101,6 +102,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &frequency_validity::FrequencyBeyondValidity,
         &glass_weave_skew::GlassWeaveSkew,
         &via_stub_resonance::ViaStubResonance,
+        &material_data_not_causal::MaterialDataNotCausal,
     ]
 }
 

@@ -665,3 +665,40 @@ fn microstrip_eps_eff_includes_dispersion() {
     let d = ca.smooth.as_ref().unwrap().ps_per_mm();
     assert!((d - e.sqrt() / 299_792_458.0 * 1e9).abs() < 1e-9, "{d}");
 }
+
+/// A table written from a causal material and rounded as data sheets
+/// round (Dk to 0.01, Df to 0.0001) is not flagged: Djordjevic et al.
+/// 2001's model evaluated at 1, 10 and 40 GHz for Dk 3.5 / Df 0.004 at
+/// 10 GHz. The same Df beside a Dk that falls twice as fast is.
+#[test]
+fn causal_tables_pass_and_inconsistent_ones_warn() {
+    use stackup_physics::dispersion::DjordjevicSarkar;
+    let ds = DjordjevicSarkar::fit_one_point_default(3.5, 0.004, 10e9).unwrap();
+    let table = |dk_fall: f64| {
+        let pts: Vec<String> = [1e9, 10e9, 40e9]
+            .iter()
+            .map(|&f| {
+                let p = ds.eval(f).unwrap();
+                let dk = 3.5 + dk_fall * (p.dk - 3.5);
+                format!(
+                    "{{frequency: {} GHz, dk: {:.2}, df: {:.4}}}",
+                    f / 1e9,
+                    dk,
+                    p.df
+                )
+            })
+            .collect();
+        Board::new()
+            .material(
+                "m",
+                &format!("points: [{}], valid-to: 40 GHz", pts.join(", ")),
+            )
+            .copper("L1", "role: signal, thickness: 35 um")
+            .dielectric("d", "kind: core, material: m, thickness: 0.2 mm")
+            .copper("L2", "role: plane, thickness: 35 um")
+            .yaml()
+    };
+    assert!(of(&all(&table(1.0)), "material-data-not-causal").is_empty());
+    let f = all(&table(2.0));
+    assert_eq!(of(&f, "material-data-not-causal").len(), 1, "{f:?}");
+}
