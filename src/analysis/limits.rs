@@ -46,7 +46,12 @@ pub fn structure_limits(
     g: &LineGeometry,
     smooth: Option<&LineNumbers>,
 ) -> StructureLimits {
-    let eps_max = g.slabs.iter().map(|sl| sl.eps).fold(1.0_f64, f64::max);
+    let eps_max = g
+        .slabs
+        .iter()
+        .map(|sl| sl.eps)
+        .chain(g.mask.map(|m| m.eps))
+        .fold(1.0_f64, f64::max);
     let w = nc.width;
     let mut limits: Vec<(f64, String)> = Vec::new();
     if g.top_plane.is_some() {

@@ -13,7 +13,7 @@ use stackup_physics::fieldsolver::{
     modal_resistance, resistance_matrix, InductanceDerivative, MetalFaces, Region,
 };
 
-use super::section::{cross_section, FaceRole, LineGeometry};
+use super::section::{cross_section, cross_section_owned, FaceRole, LineGeometry};
 use super::{LineNumbers, LossNumbers, SIGMA};
 
 /// Loss per metre: dielectric loss from the share of the signal mode's
@@ -170,7 +170,7 @@ pub const CLOSED_FORM_MODEL: &str =
 /// slot), a block that of the slab it lies in, the air none (Dk `None`,
 /// loss tangent 0).
 fn region_materials(g: &LineGeometry, dk: &BTreeMap<usize, DkAt>) -> (Vec<Option<f64>>, Vec<f64>) {
-    let cs = cross_section(g, None);
+    let (cs, owners) = cross_section_owned(g, None);
     let slab = |k: usize| -> Option<&DkAt> {
         g.slabs
             .get(k)
@@ -181,10 +181,7 @@ fn region_materials(g: &LineGeometry, dk: &BTreeMap<usize, DkAt>) -> (Vec<Option
         .into_iter()
         .map(|r| match r {
             Region::Layer(k) => slab(k),
-            Region::Block(b) => {
-                let y = 0.5 * (cs.blocks[b].y0 + cs.blocks[b].y1);
-                cs.layer_at(y).and_then(slab)
-            }
+            Region::Block(b) => owners.get(b).copied().flatten().and_then(|m| dk.get(&m)),
             Region::Air => None,
         })
         .map(|d| (d.map(|d| d.dk), d.map_or(0.0, |d| d.df)))

@@ -438,7 +438,13 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             notes.push(implied_note(&g, &implied_faces, s));
         }
         let mut dk = BTreeMap::new();
-        for m in g.slabs.iter().filter_map(|sl| sl.material) {
+        let mask_layer = g.mask.map(|m| m.layer);
+        for m in g
+            .slabs
+            .iter()
+            .filter_map(|sl| sl.material)
+            .chain(mask_layer)
+        {
             if let Some(d) = dk_at(m, f) {
                 dk.insert(m, d);
             }
@@ -472,6 +478,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 .slabs
                 .iter()
                 .filter_map(|sl| sl.material)
+                .chain(g.mask.map(|m| m.layer))
                 .filter_map(|m| Some((m, dk_at(m, fb)?)))
                 .collect();
             Some((

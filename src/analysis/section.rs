@@ -7,7 +7,7 @@ use stackup_physics::fieldsolver::{
 };
 use stackup_physics::roughness::RoughSurface;
 
-use crate::model::{DielectricKind, Face, LayerKind, NetClass, Stackup, Structure};
+use crate::model::{DielectricKind, Face, LayerKind, MaskCoat, NetClass, Stackup, Structure};
 
 /// Roughness of one copper face as the analysis carries it.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -178,11 +178,27 @@ pub struct Slab {
     pub material: Option<usize>,
 }
 
+/// A conformal solder-mask coat over an outer layer's traces (solver
+/// frame: on the open side, above the trace's copper slot).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct MaskGeometry {
+    /// The solder-mask layer.
+    pub layer: usize,
+    pub eps: f64,
+    /// Coat on the bare laminate, and on the copper's tops and sides
+    /// (the side coat is taken as thick as the top coat: common practice,
+    /// no source).
+    pub over_laminate: f64,
+    pub over_copper: f64,
+}
+
 /// The geometry of a net class's line, before roughness.
 #[derive(Debug, Clone, PartialEq)]
 pub struct LineGeometry {
     /// Slabs from the first reference plane upwards (solver frame).
     pub slabs: Vec<Slab>,
+    /// A conformal solder-mask coat over the traces (not among the slabs).
+    pub mask: Option<MaskGeometry>,
     /// Index into `slabs` of the copper slot holding the trace.
     pub trace_slot: usize,
     pub bottom_plane: usize,
@@ -219,6 +235,15 @@ impl LineGeometry {
     /// Dielectric between the trace and the first plane.
     pub fn h_below(&self) -> f64 {
         self.y_trace()
+    }
+
+    /// Stackup layer indices of every layer the section is made of: its
+    /// slabs (copper slots included) and a conformal mask coat.
+    pub fn dielectric_layers(&self) -> impl Iterator<Item = usize> + '_ {
+        self.slabs
+            .iter()
+            .map(|s| s.layer)
+            .chain(self.mask.map(|m| m.layer))
     }
 
     /// Stackup layer indices of the dielectrics below and above the trace.
@@ -358,8 +383,12 @@ pub fn geometry(
     };
     let mut slabs = Vec::new();
     let mut trace_slot = None;
+    let mut skip_mask: Option<usize> = None;
+    let mut mask: Option<MaskGeometry> = None;
     for &j in &order {
         match &s.layers[j].kind {
+            // A conformal coat (or an opened mask) is not a slab: see `mask`.
+            LayerKind::Dielectric(_) if Some(j) == skip_mask => {}
             LayerKind::Dielectric(d) => slabs.push(Slab {
                 thickness: d.thickness,
                 eps: eps_of(j),
@@ -378,7 +407,33 @@ pub fn geometry(
                             .and_then(|&n| s.dielectric(n).map(|d| (n, d)))
                         {
                             Some((n, d)) if d.kind == DielectricKind::SolderMask => {
-                                (eps_of(n), Some(n))
+                                match (nc.mask_open, d.mask) {
+                                    (true, _) => {
+                                        skip_mask = Some(n);
+                                        notes.push(format!(
+                                            "solder mask `{}` opened over the traces (`mask: open`): no mask in the section",
+                                            s.layers[n].name
+                                        ));
+                                        (1.0, None)
+                                    }
+                                    (
+                                        false,
+                                        Some(MaskCoat::Conformal {
+                                            over_laminate,
+                                            over_copper,
+                                        }),
+                                    ) => {
+                                        skip_mask = Some(n);
+                                        mask = Some(MaskGeometry {
+                                            layer: n,
+                                            eps: eps_of(n),
+                                            over_laminate,
+                                            over_copper,
+                                        });
+                                        (1.0, None)
+                                    }
+                                    _ => (eps_of(n), Some(n)),
+                                }
                             }
                             Some(_) => fill_eps(j),
                             None => (1.0, None),
@@ -476,6 +531,7 @@ pub fn geometry(
     }
     Ok(LineGeometry {
         slabs,
+        mask,
         trace_slot,
         bottom_plane: first,
         top_plane: second,
@@ -508,10 +564,22 @@ pub struct RoughLayers {
 
 /// The solver cross-section of a geometry, with optional roughness layers.
 pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSection {
+    cross_section_owned(g, rough).0
+}
+
+/// [`cross_section`] and, for each of its blocks, the dielectric layer
+/// whose material it is (a mask coat: the mask; a roughness layer: the
+/// dielectric it lies in), for weighting loss by material.
+pub fn cross_section_owned(
+    g: &LineGeometry,
+    rough: Option<&RoughLayers>,
+) -> (CrossSection, Vec<Option<usize>>) {
     let y_trace = g.y_trace();
     let t = g.thickness;
     let mut layers: Vec<DielectricLayer> = Vec::new();
-    let mut blocks = Vec::new();
+    // Roughness blocks go after the mask coat, so that a rough trace top
+    // under the coat keeps its roughness layer.
+    let mut rough_blocks: Vec<(DielectricBlock, Option<usize>)> = Vec::new();
     let tr = |k: usize| {
         rough
             .and_then(|r| r.thickness.get(k).copied())
@@ -542,22 +610,28 @@ pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSect
             0.0
         };
         if lo > 0.0 {
-            blocks.push(DielectricBlock {
-                x0: -full,
-                x1: full,
-                y0: acc,
-                y1: acc + lo,
-                eps_r: sl.eps * factor,
-            });
+            rough_blocks.push((
+                DielectricBlock {
+                    x0: -full,
+                    x1: full,
+                    y0: acc,
+                    y1: acc + lo,
+                    eps_r: sl.eps * factor,
+                },
+                sl.material,
+            ));
         }
         if hi > 0.0 {
-            blocks.push(DielectricBlock {
-                x0: -full,
-                x1: full,
-                y0: acc + sl.thickness - hi,
-                y1: acc + sl.thickness,
-                eps_r: sl.eps * factor,
-            });
+            rough_blocks.push((
+                DielectricBlock {
+                    x0: -full,
+                    x1: full,
+                    y0: acc + sl.thickness - hi,
+                    y1: acc + sl.thickness,
+                    eps_r: sl.eps * factor,
+                },
+                sl.material,
+            ));
         }
         acc += sl.thickness;
     }
@@ -589,35 +663,97 @@ pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSect
             thickness: t,
         }],
     };
+    // The conformal mask coat: on the laminate between the traces, over
+    // each trace's top and sides, over the coplanar grounds' tops and
+    // facing edges. Blocks overlapping copper are harmless (copper nodes
+    // are fixed).
+    let mut blocks: Vec<(DielectricBlock, Option<usize>)> = Vec::new();
+    if let Some(m) = g.mask {
+        let owner = Some(m.layer);
+        let coat = |x0: f64, x1: f64, y0: f64, y1: f64| {
+            (
+                DielectricBlock {
+                    x0,
+                    x1,
+                    y0,
+                    y1,
+                    eps_r: m.eps,
+                },
+                owner,
+            )
+        };
+        let c = m.over_copper;
+        if m.over_laminate > 0.0 {
+            blocks.push(coat(-full, full, y_trace, y_trace + m.over_laminate));
+        }
+        if c > 0.0 {
+            for tc in &conductors {
+                let half = 0.5 * tc.width_bottom.max(tc.width_top);
+                blocks.push(coat(
+                    tc.x_center - half - c,
+                    tc.x_center + half + c,
+                    y_trace,
+                    y_trace + t + c,
+                ));
+            }
+            if let Some(gap) = g.gap {
+                let outer = conductors
+                    .iter()
+                    .map(|tc| tc.x_center + 0.5 * tc.width_bottom)
+                    .fold(f64::NEG_INFINITY, f64::max);
+                let edge = outer + gap;
+                for sign in [-1.0, 1.0] {
+                    let (a, b) = (sign * (edge - c), sign * full);
+                    blocks.push(coat(a.min(b), a.max(b), y_trace, y_trace + t + c));
+                }
+            }
+        }
+    }
+    blocks.extend(rough_blocks);
     // Trace faces: blocks just under and over each trace, in the permittivity
-    // of the slab they sit in.
+    // of the slab they sit in (over the trace, the mask coat where there is
+    // one).
     let eps_below = if g.trace_slot > 0 {
         g.slabs[g.trace_slot - 1].eps
     } else {
         1.0
     };
-    let eps_above = g.slabs.get(g.trace_slot + 1).map_or(1.0, |s| s.eps);
+    let (eps_above, room_above, owner_above) = match (g.slabs.get(g.trace_slot + 1), g.mask) {
+        (Some(sl), _) => (sl.eps, sl.thickness, sl.material),
+        (None, Some(m)) if m.over_copper > 0.0 => (m.eps, m.over_copper, Some(m.layer)),
+        (None, _) => (1.0, 0.0, None),
+    };
+    let owner_below = g
+        .trace_slot
+        .checked_sub(1)
+        .and_then(|k| g.slabs[k].material);
     let (tb, tt) = (tr(1), tr(2));
     for c in &conductors {
         if tb > 0.0 && g.trace_slot > 0 {
             let h = tb.min(0.45 * g.slabs[g.trace_slot - 1].thickness);
-            blocks.push(DielectricBlock {
-                x0: c.x_center - 0.5 * c.width_bottom,
-                x1: c.x_center + 0.5 * c.width_bottom,
-                y0: y_trace - h,
-                y1: y_trace,
-                eps_r: eps_below * factor,
-            });
+            blocks.push((
+                DielectricBlock {
+                    x0: c.x_center - 0.5 * c.width_bottom,
+                    x1: c.x_center + 0.5 * c.width_bottom,
+                    y0: y_trace - h,
+                    y1: y_trace,
+                    eps_r: eps_below * factor,
+                },
+                owner_below,
+            ));
         }
-        if tt > 0.0 && g.trace_slot + 1 < n {
-            let h = tt.min(0.45 * g.slabs[g.trace_slot + 1].thickness);
-            blocks.push(DielectricBlock {
-                x0: c.x_center - 0.5 * c.width_top,
-                x1: c.x_center + 0.5 * c.width_top,
-                y0: y_trace + t,
-                y1: y_trace + t + h,
-                eps_r: eps_above * factor,
-            });
+        if tt > 0.0 && room_above > 0.0 {
+            let h = tt.min(0.45 * room_above);
+            blocks.push((
+                DielectricBlock {
+                    x0: c.x_center - 0.5 * c.width_top,
+                    x1: c.x_center + 0.5 * c.width_top,
+                    y0: y_trace + t,
+                    y1: y_trace + t + h,
+                    eps_r: eps_above * factor,
+                },
+                owner_above,
+            ));
         }
     }
     let coplanar_grounds = g.gap.map(|gap| CoplanarGrounds {
@@ -626,12 +762,16 @@ pub fn cross_section(g: &LineGeometry, rough: Option<&RoughLayers>) -> CrossSect
         y_bottom: y_trace,
         thickness: t,
     });
-    CrossSection {
-        layers,
-        bottom_plane: true,
-        top_plane: g.top_plane.is_some(),
-        conductors,
-        blocks,
-        coplanar_grounds,
-    }
+    let (blocks, owners): (Vec<DielectricBlock>, Vec<Option<usize>>) = blocks.into_iter().unzip();
+    (
+        CrossSection {
+            layers,
+            bottom_plane: true,
+            top_plane: g.top_plane.is_some(),
+            conductors,
+            blocks,
+            coplanar_grounds,
+        },
+        owners,
+    )
 }

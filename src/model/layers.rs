@@ -261,6 +261,69 @@ pub(super) fn read_dielectric(
         }
     }
     let (pressed, nominal) = (pressed?, nominal?);
+    let mask = if kind == DielectricKind::SolderMask {
+        let thickness = pressed.or(nominal).unwrap_or(0.0);
+        let coat = |r: &mut Reader<'_>, key: &str| -> Option<Option<f64>> {
+            let p = format!("{ptr}/{key}");
+            if r.node(&p).is_none() {
+                return Some(None);
+            }
+            r.bounded(
+                &p,
+                Dimension::Length,
+                "solder mask thickness",
+                0.0,
+                1e-3,
+                fmt_len,
+            )
+            .map(Some)
+        };
+        let over_laminate = coat(r, "over-laminate");
+        let over_copper = coat(r, "over-copper");
+        match (
+            r.string(&format!("{ptr}/shape")).as_deref(),
+            over_laminate,
+            over_copper,
+        ) {
+            (_, None, _) | (_, _, None) => {
+                ok = false;
+                None
+            }
+            (Some("planar"), Some(l), Some(c)) => {
+                if l.is_some() || c.is_some() {
+                    r.error(
+                        &format!("{ptr}/shape"),
+                        "a planar solder mask takes one `thickness`; `over-laminate` and `over-copper` describe a conformal coat".to_string(),
+                        "planar with coat thicknesses",
+                        Some("remove `shape: planar` to model the coat, or the coat thicknesses to keep the planar fill".into()),
+                    );
+                    ok = false;
+                }
+                Some(MaskCoat::Planar)
+            }
+            (_, Some(l), Some(c)) => Some(MaskCoat::Conformal {
+                over_laminate: l.unwrap_or(thickness),
+                over_copper: c.unwrap_or(thickness),
+            }),
+        }
+    } else {
+        for key in ["over-laminate", "over-copper", "shape"] {
+            let p = format!("{ptr}/{key}");
+            if r.node(&p).is_some() {
+                r.error(
+                    &p,
+                    format!(
+                        "`{key}` describes a solder mask coat; this layer is a {}",
+                        kind.as_str()
+                    ),
+                    "only for solder mask",
+                    Some("remove it, or make the layer `kind: solder-mask`".into()),
+                );
+                ok = false;
+            }
+        }
+        None
+    };
     if !ok {
         return None;
     }
@@ -274,6 +337,7 @@ pub(super) fn read_dielectric(
         glass_style: r.string(&format!("{ptr}/glass-style")),
         resin_content: resin,
         modelled_dk,
+        mask,
     })
 }
 

@@ -256,6 +256,22 @@ pub struct DielectricLayer {
     pub resin_content: Option<f64>,
     /// The Dk the design model gives this layer, when stated.
     pub modelled_dk: Option<f64>,
+    /// Solder mask only: how it covers the outer copper.
+    pub mask: Option<MaskCoat>,
+}
+
+/// How a solder mask covers an outer layer's copper.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum MaskCoat {
+    /// A coat that follows the traces: `over_laminate` thick on the bare
+    /// laminate between them, `over_copper` on their tops and sides.
+    Conformal {
+        over_laminate: f64,
+        over_copper: f64,
+    },
+    /// The old planar model, on request: the copper slot filled with mask
+    /// and the layer's thickness over it.
+    Planar,
 }
 
 impl DielectricLayer {
@@ -417,6 +433,9 @@ pub struct NetClass {
     /// rate, else at the highest frequency.
     pub loss_budget: Option<LossBudget>,
     pub launch_valid_to: Option<f64>,
+    /// The solder mask is opened over this class's traces (`mask: open`,
+    /// common for RF lines): no mask in its section.
+    pub mask_open: bool,
 }
 
 #[derive(Debug, Clone)]

@@ -323,6 +323,7 @@ pub(super) fn read_net_class(
         pair_pitch,
         loss_budget,
         launch_valid_to: launch,
+        mask_open: r.string(&format!("{ptr}/mask")).as_deref() == Some("open"),
     })
 }
 

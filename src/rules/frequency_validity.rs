@@ -63,8 +63,8 @@ impl Rule for FrequencyBeyondValidity {
                     fmt_frequency(nc.nyquist.unwrap_or(0.0))
                 )
             };
-            for sl in &g.slabs {
-                let Some(d) = s.dielectric(sl.layer) else {
+            for layer in g.dielectric_layers() {
+                let Some(d) = s.dielectric(layer) else {
                     continue;
                 };
                 let Some(m) = a.materials.get(&d.material) else {

@@ -18,6 +18,7 @@ mod fuzz_regressions;
 mod glass_weave;
 mod hostile_input;
 mod judgement;
+mod mask;
 mod materials_wiring;
 mod pre_commit;
 mod report;

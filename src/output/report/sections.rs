@@ -353,7 +353,7 @@ pub(super) fn materials_section(s: &Stackup, a: &Analysis, stem: &str) -> Sectio
             .filter(|(_, ca)| {
                 ca.geometry
                     .as_ref()
-                    .is_ok_and(|g| g.slabs.iter().any(|sl| layers.contains(&sl.layer)))
+                    .is_ok_and(|g| g.dielectric_layers().any(|l| layers.contains(&l)))
             })
             .map(|(nc, ca)| (nc.name.clone(), ca.frequency))
             .collect();

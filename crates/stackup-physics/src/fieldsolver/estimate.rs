@@ -188,7 +188,9 @@ pub fn eps_bounds(cs: &CrossSection) -> (f64, f64) {
 }
 
 /// Highest permittivity at or above height y (the cover of a microstrip
-/// trace: the resin or mask beside and over it), at least 1.
+/// trace: the resin or mask beside and over it, a layer or a coat block
+/// wider than the traces), at least 1. A block no wider than a trace (a
+/// roughness layer on its face) is not a cover.
 fn cover_eps(cs: &CrossSection, y: f64) -> f64 {
     let mut top = 0.0;
     let mut hi: f64 = 1.0;
@@ -197,6 +199,16 @@ fn cover_eps(cs: &CrossSection, y: f64) -> f64 {
             hi = hi.max(l.eps_r);
         }
         top += l.thickness;
+    }
+    let widest = cs
+        .conductors
+        .iter()
+        .map(|t| t.width_bottom.max(t.width_top))
+        .fold(0.0, f64::max);
+    for b in &cs.blocks {
+        if b.y1 > y && b.x1 - b.x0 > widest * (1.0 + 1e-6) {
+            hi = hi.max(b.eps_r);
+        }
     }
     hi
 }
