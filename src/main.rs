@@ -142,6 +142,17 @@ enum Command {
         /// Also give the total loss over this routed length, e.g. "150 mm"
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
+        /// Print each class's numbers across frequency instead, e.g.
+        /// "1GHz..110GHz" or "1GHz..110GHz:201" (points; default 101)
+        #[arg(long, value_name = "RANGE")]
+        sweep: Option<String>,
+        /// With --sweep: also write the sweep as CSV to this file
+        #[arg(long, value_name = "FILE", requires = "sweep")]
+        csv: Option<PathBuf>,
+        /// With --sweep and --length: write a Touchstone two-port of that
+        /// length of each class's line into this directory
+        #[arg(long, value_name = "DIR", requires_all = ["sweep", "length"])]
+        touchstone: Option<PathBuf>,
         #[command(flatten)]
         solve: SolveArgs,
     },
@@ -265,6 +276,9 @@ fn main() -> ExitCode {
             paths,
             format,
             length,
+            sweep,
+            csv,
+            touchstone,
             solve,
         } => {
             let run = solve.options(run);
@@ -272,7 +286,22 @@ fn main() -> ExitCode {
                 Ok(l) => l,
                 Err(code) => return code,
             };
-            impedance(paths, format, length, root, run)
+            let sweep = match sweep
+                .as_deref()
+                .map(stackup_lint::analysis::sweep::parse_sweep)
+            {
+                None => None,
+                Some(Ok(f)) => Some(SweepArgs {
+                    freqs: f,
+                    csv,
+                    touchstone,
+                }),
+                Some(Err(e)) => {
+                    eprintln!("error: --sweep: {e}");
+                    return ExitCode::from(2);
+                }
+            };
+            impedance(paths, format, length, sweep, root, run)
         }
         Command::Report {
             file,
@@ -462,10 +491,18 @@ fn main() -> ExitCode {
     }
 }
 
+/// What `impedance --sweep` asks for.
+struct SweepArgs {
+    freqs: Vec<f64>,
+    csv: Option<PathBuf>,
+    touchstone: Option<PathBuf>,
+}
+
 fn impedance(
     paths: Vec<PathBuf>,
     format: Format,
     length: Option<f64>,
+    sweep: Option<SweepArgs>,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
@@ -532,6 +569,9 @@ fn impedance(
         .zip(&analyses)
         .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
         .collect();
+    if let Some(sw) = sweep {
+        return impedance_sweep(&items, &sw, format, length, &loaded.db);
+    }
     // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
         Format::Json => {
@@ -645,6 +685,84 @@ fn parse_length(text: Option<&str>) -> Result<Option<f64>, ExitCode> {
 
 /// `report`: check one stackup, then write its report files, all or
 /// nothing. Input errors are printed and nothing is written.
+/// `impedance --sweep`: print the sweep, write the CSV and the Touchstone
+/// files (all outputs or none: every file is built before any is written).
+fn impedance_sweep(
+    items: &[(
+        &str,
+        &stackup_lint::model::Stackup,
+        &stackup_lint::analysis::Analysis,
+    )],
+    sw: &SweepArgs,
+    format: Format,
+    length: Option<f64>,
+    db: &stackup_lint::source::SourceDb,
+) -> ExitCode {
+    use stackup_lint::analysis::sweep::sweep;
+    let shown = |p: &std::path::Path| output::escape::controls(&p.to_string_lossy()).into_owned();
+    let files: Vec<output::sweep::FileSweep> = items
+        .iter()
+        .map(|(n, s, a)| {
+            let per_class = (0..s.net_classes.len())
+                .map(|i| sweep(s, a, i, &sw.freqs))
+                .collect();
+            (*n, *s, per_class)
+        })
+        .collect();
+    let inputs = stackup_lint::files::input_paths(db);
+    let mut touchstones: Vec<(String, Vec<u8>)> = Vec::new();
+    if let (Some(_), Some(len)) = (&sw.touchstone, length) {
+        for (n, s, per_class) in &files {
+            let base: String = std::path::Path::new(n)
+                .file_name()
+                .map_or("stackup".into(), |f| {
+                    f.to_string_lossy().replace(".stackup.yaml", "")
+                });
+            let stem = output::report::slug(&base);
+            for (nc, pts) in s.net_classes.iter().zip(per_class) {
+                let Some(pts) = pts else { continue };
+                let pair = nc.spacing.is_some();
+                match output::sweep::touchstone(n, &nc.name, pair, len, pts) {
+                    Ok(t) => touchstones.push((
+                        format!("{stem}-{}.s2p", output::report::slug(&nc.name)),
+                        t.into_bytes(),
+                    )),
+                    Err(e) => {
+                        eprintln!("error: net class `{}`: {e}; nothing written", nc.name);
+                        return ExitCode::from(2);
+                    }
+                }
+            }
+        }
+    }
+    if let Some(path) = &sw.csv {
+        let text = output::sweep::csv(&files);
+        if let Err(e) = stackup_lint::files::write_output(path, text.as_bytes(), &inputs) {
+            eprintln!("error: cannot write {}: {e}", shown(path));
+            return ExitCode::from(2);
+        }
+    }
+    if let Some(dir) = &sw.touchstone {
+        if let Err(e) = stackup_lint::files::write_dir_atomic(dir, &touchstones, &inputs) {
+            eprintln!(
+                "error: cannot write into {}: {e} (nothing written)",
+                shown(dir)
+            );
+            return ExitCode::from(2);
+        }
+        eprintln!(
+            "wrote {} Touchstone file(s) to {}",
+            touchstones.len(),
+            shown(dir)
+        );
+    }
+    let text = match format {
+        Format::Json => output::escape::json_text(&output::sweep::json(&files)).into_owned(),
+        _ => output::escape::controls_keep_lines(&output::sweep::table(&files)).into_owned(),
+    };
+    print_or(&text, ExitCode::SUCCESS)
+}
+
 fn report(
     file: &std::path::Path,
     dir: &std::path::Path,

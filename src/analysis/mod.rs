@@ -20,6 +20,7 @@ mod loss;
 pub mod materials;
 pub mod section;
 mod solve;
+pub mod sweep;
 pub mod vias;
 pub mod weave;
 
@@ -181,6 +182,21 @@ pub struct ClassAnalysis {
     /// solved with that ply alone at its apparent Dk (smooth copper, every
     /// other ply at its bulk Dk): the ply's own share of the line's shift.
     pub ply_shares: Vec<PlyShare>,
+    /// What the numbers at other frequencies are derived from (`sweep`).
+    pub basis: Option<SweepBasis>,
+}
+
+/// A solved class's quasi-static results, from which its numbers at any
+/// frequency follow without another solve (see `sweep`).
+#[derive(Debug, Clone)]
+pub struct SweepBasis {
+    /// Smooth and worst-case rough copper, before dispersion.
+    pub smooth: LineNumbers,
+    pub worst: Option<LineNumbers>,
+    /// The signal mode's share of electric energy per dielectric region.
+    pub energy: Option<Vec<f64>>,
+    /// ∂L/∂n per group of metal faces (Wheeler's rule).
+    pub wheeler: Option<Vec<InductanceDerivative>>,
 }
 
 /// One ply's share of a line's roughness shift.
@@ -417,6 +433,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         }
         let disp = dispersion::dispersion(s, &g, f);
         let static_smooth = numbers(&p.family, p.smooth).ok();
+        let static_worst = numbers(&p.family, p.worst).ok();
         let raise = |mut n: LineNumbers| {
             disp.apply(&mut n);
             n
@@ -526,6 +543,12 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             mode_skew,
             pair_crosstalk,
             ply_shares,
+            basis: static_smooth.map(|sm| SweepBasis {
+                smooth: sm,
+                worst: static_worst,
+                energy: energy.clone(),
+                wheeler: derivs.map(<[InductanceDerivative]>::to_vec),
+            }),
         });
     }
     solver.settle();
@@ -610,6 +633,7 @@ impl ClassAnalysis {
             mode_skew: None,
             pair_crosstalk: None,
             ply_shares: Vec::new(),
+            basis: None,
         }
     }
 

@@ -8,6 +8,7 @@ pub mod impedance;
 pub mod json;
 pub mod report;
 pub mod sarif;
+pub mod sweep;
 
 use crate::finding::{Finding, Severity};
 

@@ -26,6 +26,7 @@ mod report_browser;
 mod rule_docs;
 mod sarif;
 mod suppressions;
+mod sweep;
 mod untrusted;
 mod via_stubs;
 mod width_for_target;

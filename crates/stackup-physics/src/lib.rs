@@ -14,6 +14,7 @@ pub mod fieldsolver;
 pub mod microstrip;
 pub mod modes;
 pub mod stripline;
+pub mod twoport;
 pub mod validity;
 pub mod vias;
 

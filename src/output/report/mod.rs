@@ -24,7 +24,7 @@ use crate::output::impedance::dielectric_rows;
 use crate::source::SourceDb;
 
 /// Slug for file names: lowercase ASCII letters, digits and dashes.
-fn slug(s: &str) -> String {
+pub fn slug(s: &str) -> String {
     let mut out = String::new();
     for c in s.chars() {
         if c.is_ascii_alphanumeric() {

@@ -1,0 +1,216 @@
+//! A class's numbers across frequency, from its one solve.
+//!
+//! The section is solved once, at the class's analysis frequency. At any
+//! other frequency f its numbers follow from what that solve gives
+//! (`SweepBasis`), without solving again:
+//!
+//! - each material's Dk and Df at f from its causal Djordjevic-Sarkar
+//!   model; the static εeff moves with the energy-weighted Dk,
+//!   εeff(f) = εeff·Σ_r s_r·ε_r(f)/ε_r (first order in the change, exact for
+//!   one dielectric), and Z with 1/√εeff (the inductance is a vacuum
+//!   quantity and does not move);
+//! - a surface microstrip's dispersion (Kirschning-Jansen) at f;
+//! - dielectric loss from the energy shares and each Df(f); conductor loss
+//!   from Wheeler's rule with Rs(f) and each face's roughness factor at f
+//!   (`loss::line_loss`).
+//!
+//! The roughness layers that raise the apparent Dk are solved at the
+//! analysis frequency only; at f the rough line's shift from the smooth one
+//! is scaled by the layers' thickness at f over that at the analysis
+//! frequency (their Hammerstad onset; the shift is nearly linear in the
+//! thin layers' thickness).
+
+use std::collections::BTreeMap;
+
+use stackup_physics::consts::C0;
+
+use super::dispersion::dispersion;
+use super::loss::line_loss;
+use super::materials::DkAt;
+use super::solve::rough_layers;
+use stackup_physics::fieldsolver::Region;
+
+use super::section::{cross_section_owned, LineGeometry};
+use super::{Analysis, LineNumbers, LossNumbers};
+use crate::model::Stackup;
+
+/// One class at one frequency.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SweepPoint {
+    pub frequency: f64,
+    /// Smooth copper: Z (Z0 or Z_diff), εeff of the signal mode, delay s/m.
+    pub smooth: LineNumbers,
+    /// Worst-case rough copper (as declared), when solved.
+    pub rough: Option<LineNumbers>,
+    pub loss: LossNumbers,
+}
+
+/// Parses `"1GHz..110GHz"` or `"1GHz..110GHz:201"` into its frequencies
+/// (linear steps, both ends included, 101 points by default).
+pub fn parse_sweep(text: &str) -> Result<Vec<f64>, String> {
+    let (range, n) = match text.rsplit_once(':') {
+        Some((r, n)) => (
+            r,
+            n.trim()
+                .parse::<usize>()
+                .map_err(|_| format!("`{n}` is not a number of points"))?,
+        ),
+        None => (text, 101),
+    };
+    let (a, b) = range
+        .split_once("..")
+        .ok_or_else(|| format!("`{text}` is not a range like 1GHz..110GHz"))?;
+    let f = |t: &str| {
+        crate::units::parse_quantity(t.trim(), crate::units::Dimension::Frequency)
+            .map_err(|e| format!("`{t}`: {e}"))
+    };
+    let (lo, hi) = (f(a)?, f(b)?);
+    if !(lo > 0.0 && hi > lo && hi <= 1e12) {
+        return Err(format!(
+            "the sweep must rise from above 0 to at most 1 THz, got `{text}`"
+        ));
+    }
+    if !(2..=10_001).contains(&n) {
+        return Err(format!("a sweep takes 2 to 10001 points, got {n}"));
+    }
+    Ok((0..n)
+        .map(|k| lo + (hi - lo) * k as f64 / (n - 1) as f64)
+        .collect())
+}
+
+/// The numbers of class `i` of `s` at each of `freqs`; `None` when the
+/// class was not solved.
+pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<SweepPoint>> {
+    let ca = a.classes.get(i)?;
+    let g = ca.geometry.as_ref().ok()?;
+    let basis = ca.basis.as_ref()?;
+    let (cs, owners) = cross_section_owned(g, None);
+    // The material of each dielectric region of the smooth section.
+    let region_material: Vec<Option<usize>> = cs
+        .regions()
+        .into_iter()
+        .map(|r| match r {
+            Region::Layer(k) => g.slabs.get(k).and_then(|sl| sl.material),
+            Region::Block(b) => owners.get(b).copied().flatten(),
+            Region::Air => None,
+        })
+        .collect();
+    let materials: Vec<usize> = g
+        .slabs
+        .iter()
+        .filter_map(|sl| sl.material)
+        .chain(g.mask.map(|m| m.layer))
+        .collect();
+    let dk_at = |f: f64| -> BTreeMap<usize, DkAt> {
+        materials
+            .iter()
+            .filter_map(|&m| {
+                let d = s.dielectric(m)?;
+                Some((m, a.materials.get(&d.material)?.at(f)))
+            })
+            .collect()
+    };
+    let f0 = ca.frequency;
+    let t0: f64 = rough_layers(g, f0, true).thickness.iter().sum();
+    let dk0 = dk_at(f0);
+    Some(
+        freqs
+            .iter()
+            .map(|&f| {
+                let dk = dk_at(f);
+                // εeff moves with the energy-weighted Dk; without shares,
+                // with the thickness-weighted one.
+                let ratio = |m: Option<usize>| -> f64 {
+                    match m.and_then(|m| Some(dk.get(&m)?.dk / dk0.get(&m)?.dk)) {
+                        Some(r) if r.is_finite() => r,
+                        _ => 1.0,
+                    }
+                };
+                let scale = match &basis.energy {
+                    Some(sh) => sh
+                        .iter()
+                        .zip(&region_material)
+                        .map(|(s, m)| s * ratio(*m))
+                        .sum(),
+                    None => thickness_scale(g, &dk, &dk0),
+                };
+                let disp = dispersion(s, g, f);
+                let at = |n: &LineNumbers| -> LineNumbers {
+                    let mut m = *n;
+                    m.eps_eff *= scale;
+                    m.z /= scale.sqrt();
+                    if let Some(p) = m.pair.as_mut() {
+                        p.eps_eff_even *= scale;
+                        p.eps_eff_odd *= scale;
+                        p.z_even /= scale.sqrt();
+                        p.z_odd /= scale.sqrt();
+                    }
+                    m.delay = m.eps_eff.sqrt() / C0;
+                    disp.apply(&mut m);
+                    m
+                };
+                let smooth = at(&basis.smooth);
+                // The roughness layers are thinner where the skin depth
+                // is not yet small against the roughness (the Hammerstad
+                // onset): the rough line's shift from the smooth one
+                // scales with their thickness.
+                let k = if t0 > 0.0 {
+                    rough_layers(g, f, true).thickness.iter().sum::<f64>() / t0
+                } else {
+                    1.0
+                };
+                let rough = basis.worst.as_ref().map(|w| {
+                    let r = at(w);
+                    let lerp = |s: f64, r: f64| s + (r - s) * k;
+                    let mut m = r;
+                    m.eps_eff = lerp(smooth.eps_eff, r.eps_eff);
+                    m.z = lerp(smooth.z, r.z);
+                    if let (Some(p), Some(ps)) = (m.pair.as_mut(), smooth.pair) {
+                        p.eps_eff_even = lerp(ps.eps_eff_even, p.eps_eff_even);
+                        p.eps_eff_odd = lerp(ps.eps_eff_odd, p.eps_eff_odd);
+                        p.z_even = lerp(ps.z_even, p.z_even);
+                        p.z_odd = lerp(ps.z_odd, p.z_odd);
+                    }
+                    m.delay = m.eps_eff.sqrt() / C0;
+                    m
+                });
+                let loss = line_loss(
+                    g,
+                    &dk,
+                    f,
+                    &smooth,
+                    basis.energy.as_deref(),
+                    basis.wheeler.as_deref(),
+                );
+                SweepPoint {
+                    frequency: f,
+                    smooth,
+                    rough,
+                    loss,
+                }
+            })
+            .collect(),
+    )
+}
+
+/// The thickness-weighted Dk's ratio, when the solve gave no shares.
+fn thickness_scale(
+    g: &LineGeometry,
+    dk: &BTreeMap<usize, DkAt>,
+    dk0: &BTreeMap<usize, DkAt>,
+) -> f64 {
+    let (mut a, mut b) = (0.0, 0.0);
+    for sl in &g.slabs {
+        if let Some(m) = sl.material {
+            if let (Some(x), Some(y)) = (dk.get(&m), dk0.get(&m)) {
+                a += sl.thickness * x.dk;
+                b += sl.thickness * y.dk;
+            }
+        }
+    }
+    if b > 0.0 {
+        a / b
+    } else {
+        1.0
+    }
+}
