@@ -45,6 +45,7 @@ fn line_card_report_files_and_markdown() {
         [
             "board-cross-section-to-scale.svg",
             "board-cross-section.svg",
+            "board-loss.svg",
             "board-material-low-loss-core.svg",
             "board-material-low-loss-prepreg.svg",
             "board-material-mask.svg",
@@ -99,9 +100,9 @@ fn drawings_are_well_formed_and_the_page_is_self_contained() {
         );
     }
     let html = std::fs::read_to_string(out.join("board.html")).unwrap();
-    // Both cross-sections and three material plots, inline.
+    // Both cross-sections, the loss plot and three material plots, inline.
     let svgs = inline_svgs(&html);
-    assert_eq!(svgs.len(), 5);
+    assert_eq!(svgs.len(), 6);
     for svg in svgs {
         roxmltree::Document::parse(svg).expect("inline svg is well-formed");
     }

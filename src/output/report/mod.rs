@@ -91,7 +91,7 @@ pub fn document(
         sections: vec![
             summary_section(s, findings),
             cross_section_section(s, a, &stem, &rows, opts),
-            impedance_section(s, a, opts),
+            impedance_section(s, a, opts, &stem),
             materials_section(s, a, &stem),
             skew_section(s, a),
             findings_section(findings, db),

@@ -158,3 +158,65 @@ pub fn material_plot(
     }
     Ok(buf)
 }
+
+/// Line colours of the loss plot, one per class in turn.
+const SERIES: [RGBColor; 6] = [
+    RGBColor(0x1f, 0x4e, 0x8c),
+    RGBColor(0xb3, 0x3a, 0x1b),
+    RGBColor(0x2e, 0x7d, 0x32),
+    RGBColor(0x6a, 0x3d, 0x9a),
+    RGBColor(0xc0, 0x7a, 0x1e),
+    RGBColor(0x00, 0x83, 0x8f),
+];
+
+/// Insertion loss per 100 mm against frequency, one line per net class
+/// (`series`: name and (Hz, dB) points), with a legend.
+pub fn loss_plot(series: &[(String, Vec<(f64, f64)>)]) -> Result<String, String> {
+    let pts = || series.iter().flat_map(|(_, v)| v.iter());
+    let f1 = pts().map(|p| p.0).fold(0.0, f64::max);
+    let l1 = pts().map(|p| p.1).fold(0.0, f64::max);
+    if !(f1 > 0.0 && l1.is_finite() && l1 > 0.0) {
+        return Err("no loss to draw".into());
+    }
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, SIZE).into_drawing_area();
+        let e = |err: DrawingAreaErrorKind<_>| format!("plot: {err}");
+        root.fill(&WHITE).map_err(e)?;
+        let mut chart = ChartBuilder::on(&root)
+            .margin(10)
+            .x_label_area_size(34)
+            .y_label_area_size(56)
+            .build_cartesian_2d(0.0..f1, 0.0..l1 * 1.08)
+            .map_err(|err| format!("plot: {err}"))?;
+        chart
+            .configure_mesh()
+            .x_desc("frequency, GHz")
+            .y_desc("loss, dB per 100 mm")
+            .x_label_formatter(&ghz_label)
+            .y_label_formatter(&|v| format!("{v:.1}"))
+            .light_line_style(WHITE.mix(0.0))
+            .bold_line_style(RGBColor(0xe2, 0xe4, 0xe6))
+            .draw()
+            .map_err(|err| format!("plot: {err}"))?;
+        for (k, (name, v)) in series.iter().enumerate() {
+            let c = SERIES[k % SERIES.len()];
+            chart
+                .draw_series(LineSeries::new(v.iter().copied(), c.stroke_width(2)))
+                .map_err(|err| format!("plot: {err}"))?
+                .label(name.clone())
+                .legend(move |(x, y)| {
+                    PathElement::new(vec![(x, y), (x + 18, y)], c.stroke_width(2))
+                });
+        }
+        chart
+            .configure_series_labels()
+            .background_style(WHITE.mix(0.9))
+            .border_style(RGBColor(0xc8, 0xcc, 0xd0))
+            .position(SeriesLabelPosition::UpperLeft)
+            .draw()
+            .map_err(|err| format!("plot: {err}"))?;
+        root.present().map_err(|err| format!("plot: {err}"))?;
+    }
+    Ok(buf)
+}

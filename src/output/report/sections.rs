@@ -214,7 +214,12 @@ pub(super) fn cross_section_section(
     }
 }
 
-pub(super) fn impedance_section(s: &Stackup, a: &Analysis, opts: &ReportOptions) -> Section {
+pub(super) fn impedance_section(
+    s: &Stackup,
+    a: &Analysis,
+    opts: &ReportOptions,
+    stem: &str,
+) -> Section {
     let mut t = Table::new(&[
         "net class",
         "structure",
@@ -311,12 +316,13 @@ pub(super) fn impedance_section(s: &Stackup, a: &Analysis, opts: &ReportOptions)
     } else {
         blocks.push(Block::Table(t));
         blocks.push(Block::Note(format!(
-            "Solved with the {} at each class's analysis frequency; differential pairs show Z_diff. Z rough, apparent Dk, delay and loss include the declared copper roughness (effective-roughness-layer model for Z and delay, Hammerstad-Bekkadal for conductor loss), worst case where a face is unknown; a range shows best..worst. W for target: base width that brings the rough line back to its target. Rows over tolerance with rough copper are marked.",
+            "Solved with the {} at each class's analysis frequency; differential pairs show Z_diff. Z rough, apparent Dk, delay and loss include the declared copper roughness (effective-roughness-layer model for Z and delay; conductor loss by Wheeler's incremental-inductance rule on the solved section with each face's Hammerstad-Bekkadal factor; dielectric loss from the share of the field in each material), worst case where a face is unknown; a range shows best..worst. W for target: base width that brings the rough line back to its target. Rows over tolerance with rough copper are marked.",
             crate::analysis::FIELD_SOLVER
         )));
         for n in notes {
             blocks.push(Block::Note(n));
         }
+        blocks.extend(loss_figure(s, a, stem));
     }
     Section {
         id: "impedance",
@@ -569,4 +575,42 @@ pub(super) fn findings_section(findings: &[Finding], db: &SourceDb) -> Section {
         title: "Findings",
         blocks,
     }
+}
+
+/// Insertion loss per 100 mm against frequency for every solved class, up
+/// to one and a half times the highest class frequency (at least 10 GHz),
+/// from each class's one solve (`analysis::sweep`).
+fn loss_figure(s: &Stackup, a: &Analysis, stem: &str) -> Option<Block> {
+    let top = a
+        .classes
+        .iter()
+        .map(|c| c.frequency)
+        .fold(10e9_f64, f64::max)
+        * 1.5;
+    let freqs: Vec<f64> = (1..=100).map(|k| top * k as f64 / 100.0).collect();
+    let series: Vec<(String, Vec<(f64, f64)>)> = s
+        .net_classes
+        .iter()
+        .enumerate()
+        .filter_map(|(i, nc)| {
+            let pts = crate::analysis::sweep::sweep(s, a, i, &freqs)?;
+            Some((
+                nc.name.clone(),
+                pts.iter()
+                    .map(|p| (p.frequency, p.loss.total_rough() * 0.1))
+                    .collect(),
+            ))
+        })
+        .collect();
+    if series.is_empty() {
+        return None;
+    }
+    Some(match plot::loss_plot(&series) {
+        Ok(svg) => Block::Figure(Figure {
+            file: format!("{stem}-loss.svg"),
+            caption: "Insertion loss per 100 mm against frequency, declared copper roughness (worst case where unknown), conductor loss by Wheeler's rule and dielectric loss from each material's causal model; the line alone, without vias or connectors".into(),
+            svg,
+        }),
+        Err(e) => Block::Note(format!("no loss plot: {e}")),
+    })
 }
