@@ -6,7 +6,7 @@ use std::collections::BTreeMap;
 
 use stackup_physics::copper::surface_resistance;
 use stackup_physics::loss;
-use stackup_physics::roughness::{hammerstad_factor, RoughSurface};
+use stackup_physics::roughness::RoughSurface;
 
 use super::materials::DkAt;
 use stackup_physics::fieldsolver::{
@@ -52,16 +52,19 @@ pub(super) fn line_loss(
         .unwrap_or_else(|| thickness_weighted_dielectric_loss(g, dk, f, smooth));
     let rs = surface_resistance(f, SIGMA).unwrap_or(0.0);
     let delta = stackup_physics::copper::skin_depth(f, SIGMA).unwrap_or(1e-6);
-    // Hammerstad-Bekkadal factor from Rq (saturates at 2). The Cannonball-
-    // Huray factor with r = Rz/4.83 gives about 6 for standard ED foil at
-    // 14 GHz, well above the 2-3 usually measured (from memory), so it is not
-    // the default until calibrated; see crates/stackup-physics/README.md.
-    let k_of = |r: RoughSurface| -> f64 {
-        let rq = r.rq().unwrap_or(0.0);
-        if rq <= 0.0 {
+    // Each face's roughness factor by the model its foil names
+    // (`loss-model:`; Hammerstad-Bekkadal by default, which saturates at
+    // 2). The Cannonball-Huray factor with r = Rz/4.83 gives about 6 for
+    // standard ED foil at 14 GHz, well above the 2-3 usually measured
+    // (from memory), so it is not the default until calibrated; see
+    // crates/stackup-physics/README.md.
+    let k_of = |face: &super::section::LineFace| -> f64 {
+        let sf: RoughSurface = face.roughness.surface(true);
+        let smooth = sf.rq().map_or(true, |v| v <= 0.0) && sf.rz().map_or(true, |v| v <= 0.0);
+        if smooth {
             return 1.0;
         }
-        hammerstad_factor(rq, delta).unwrap_or(1.0)
+        face.loss_model.factor(&sf, delta).unwrap_or(1.0)
     };
     let mean = |v: Vec<f64>| {
         if v.is_empty() {
@@ -74,14 +77,14 @@ pub(super) fn line_loss(
         g.faces
             .iter()
             .filter(|x| x.role.is_trace())
-            .map(|x| k_of(x.roughness.surface(true)))
+            .map(k_of)
             .collect(),
     );
     let plane_k = mean(
         g.faces
             .iter()
             .filter(|x| x.role.is_plane())
-            .map(|x| k_of(x.roughness.surface(true)))
+            .map(k_of)
             .collect(),
     );
     let k_rough = 0.5 * (trace_k + plane_k);
@@ -102,12 +105,8 @@ pub(super) fn line_loss(
     // Wheeler's rule: each group of faces with its own roughness factor
     // (the edges, etched, take the mean of the trace's two faces: common
     // practice, no source).
-    let face_k = |role: FaceRole| -> Option<f64> {
-        g.faces
-            .iter()
-            .find(|f| f.role == role)
-            .map(|f| k_of(f.roughness.surface(true)))
-    };
+    let face_k =
+        |role: FaceRole| -> Option<f64> { g.faces.iter().find(|f| f.role == role).map(k_of) };
     let group_k = |faces: MetalFaces| -> f64 {
         match faces {
             MetalFaces::PlaneBelow => face_k(FaceRole::PlaneBelow),

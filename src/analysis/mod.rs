@@ -454,6 +454,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         if !implied_faces.is_empty() {
             notes.push(implied_note(&g, &implied_faces, s));
         }
+        let chosen: Vec<String> = g
+            .faces
+            .iter()
+            .filter(|f| f.loss_model != Default::default())
+            .map(|f| format!("{} {}", f.role.as_str(), f.loss_model.name()))
+            .collect();
+        if !chosen.is_empty() {
+            notes.push(format!(
+                "conductor loss roughness factor as the foils name it: {} (Hammerstad-Bekkadal elsewhere)",
+                chosen.join(", ")
+            ));
+        }
         let mut dk = BTreeMap::new();
         let mask_layer = g.mask.map(|m| m.layer);
         for m in g

@@ -5,7 +5,7 @@
 use stackup_physics::fieldsolver::{
     CoplanarGrounds, CrossSection, DielectricBlock, DielectricLayer, Trace,
 };
-use stackup_physics::roughness::RoughSurface;
+use stackup_physics::roughness::{RoughLossModel, RoughSurface};
 
 use crate::model::{DielectricKind, Face, LayerKind, MaskCoat, NetClass, Stackup, Structure};
 
@@ -163,6 +163,8 @@ pub struct LineFace {
     pub layer: usize,
     pub pointer: Option<String>,
     pub roughness: FaceRoughness,
+    /// The roughness loss factor its conductor loss uses.
+    pub loss_model: RoughLossModel,
 }
 
 /// A horizontal slab of the section, bottom to top in the solver frame.
@@ -494,39 +496,52 @@ pub fn geometry(
         FaceRoughness::NotDeclared => FaceRoughness::Implied(implied_face(s, layer, up)),
         r => r,
     };
-    let face_of = |layer: usize, up_in_frame: bool| -> (Option<String>, FaceRoughness) {
-        let c = s.copper(layer);
-        // up_in_frame: the face pointing up in the solver frame.
-        let up = up_in_frame != flipped;
-        let f = c.and_then(|c| if up { c.up.as_ref() } else { c.down.as_ref() });
-        (f.map(|f| f.pointer.clone()), line_face(layer, up, f))
+    let model_of = |f: Option<&Face>| {
+        f.and_then(|f| f.roughness.map(|r| r.loss_model))
+            .unwrap_or_default()
     };
-    let (p, r) = face_of(first, true);
+    let face_of =
+        |layer: usize, up_in_frame: bool| -> (Option<String>, FaceRoughness, RoughLossModel) {
+            let c = s.copper(layer);
+            // up_in_frame: the face pointing up in the solver frame.
+            let up = up_in_frame != flipped;
+            let f = c.and_then(|c| if up { c.up.as_ref() } else { c.down.as_ref() });
+            (
+                f.map(|f| f.pointer.clone()),
+                line_face(layer, up, f),
+                model_of(f),
+            )
+        };
+    let (p, r, m) = face_of(first, true);
     faces.push(LineFace {
         role: FaceRole::PlaneBelow,
         layer: first,
         pointer: p,
         roughness: r,
+        loss_model: m,
     });
     faces.push(LineFace {
         role: FaceRole::TraceBottom,
         layer: i,
         pointer: face_lo.map(|f| f.pointer.clone()),
         roughness: line_face(i, flipped, face_lo),
+        loss_model: model_of(face_lo),
     });
     faces.push(LineFace {
         role: FaceRole::TraceTop,
         layer: i,
         pointer: face_hi.map(|f| f.pointer.clone()),
         roughness: line_face(i, !flipped, face_hi),
+        loss_model: model_of(face_hi),
     });
     if let Some(sp) = second {
-        let (p, r) = face_of(sp, false);
+        let (p, r, m) = face_of(sp, false);
         faces.push(LineFace {
             role: FaceRole::PlaneAbove,
             layer: sp,
             pointer: p,
             roughness: r,
+            loss_model: m,
         });
     }
     Ok(LineGeometry {

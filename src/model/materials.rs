@@ -520,7 +520,11 @@ pub(super) fn read_roughness(r: &mut Reader<'_>, ptr: &str, required: bool) -> O
         }
         return None;
     }
-    Some(Roughness { rz, rq })
+    let loss_model = r
+        .string(&format!("{ptr}/loss-model"))
+        .and_then(|k| stackup_physics::roughness::RoughLossModel::from_key(&k))
+        .unwrap_or_default();
+    Some(Roughness { rz, rq, loss_model })
 }
 
 /// Read a library file (already parsed and schema-checked).

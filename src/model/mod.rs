@@ -201,6 +201,9 @@ impl FoilSide {
 pub struct Roughness {
     pub rz: Option<f64>,
     pub rq: Option<f64>,
+    /// The roughness loss factor conductor loss uses for this surface
+    /// (`loss-model:`; Hammerstad-Bekkadal when not given).
+    pub loss_model: stackup_physics::roughness::RoughLossModel,
 }
 
 #[derive(Debug, Clone)]

@@ -702,3 +702,50 @@ fn causal_tables_pass_and_inconsistent_ones_warn() {
     let f = all(&table(2.0));
     assert_eq!(of(&f, "material-data-not-causal").len(), 1, "{f:?}");
 }
+
+/// A foil naming its roughness loss model: on a stripline whose four faces
+/// all carry that foil, the rough conductor loss is the smooth one times
+/// the model's factor at the skin depth (every face group weighted by the
+/// same K): Cannonball-Huray (Simonovich's model, K from Rz) above the
+/// Hammerstad-Bekkadal factor, which saturates at 2.
+#[test]
+fn a_foil_names_its_roughness_loss_model() {
+    use stackup_physics::copper::skin_depth;
+    use stackup_physics::roughness::{hammerstad_factor, HurayModel};
+    let text = |model: &str| {
+        let faces = [
+            ", down: {side: treated, foil: ed}",
+            ", up: {side: treated, foil: ed}, down: {side: treated, foil: ed}",
+            ", up: {side: treated, foil: ed}",
+        ];
+        stripline("0.088 mm", faces, "").replace(
+            "std-ed: {rz: 9 um, rq: 2.2 um}",
+            &format!("std-ed: {{rz: 9 um, rq: 2.2 um}}\n  ed: {{rz: 9 um, rq: 2.2 um{model}}}"),
+        )
+    };
+    let delta = skin_depth(20e9, 5.8e7).unwrap();
+    for (model, want) in [
+        ("", hammerstad_factor(2.2e-6, delta).unwrap()),
+        (
+            ", loss-model: huray",
+            HurayModel::cannonball_from_rz(9e-6)
+                .unwrap()
+                .loss_factor(delta)
+                .unwrap(),
+        ),
+    ] {
+        let t = text(model);
+        assert!(t.contains("  ed: {"), "{t}");
+        let (_, a) = analysed(&t);
+        let l = a.classes[0].loss.clone().unwrap();
+        let k = l.conductor_rough / l.conductor_smooth;
+        assert!((k / want - 1.0).abs() < 1e-6, "{model}: {k} vs {want}");
+        assert_eq!(
+            a.classes[0]
+                .notes
+                .iter()
+                .any(|n| n.contains("Cannonball-Huray")),
+            !model.is_empty()
+        );
+    }
+}

@@ -788,3 +788,66 @@ mod tests {
         assert!((k - 2.0).abs() < 1e-12);
     }
 }
+
+/// Which roughness loss factor a copper face's conductor loss uses.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+pub enum RoughLossModel {
+    /// [`hammerstad_factor`] from Rq (saturates at 2); the default.
+    #[default]
+    HammerstadBekkadal,
+    /// [`groiss_factor`] from Rq (saturates at 2).
+    Groiss,
+    /// The Cannonball-Huray factor ([`HurayModel::cannonball_from_rz`])
+    /// from Rz; it does not saturate at 2.
+    CannonballHuray,
+}
+
+impl RoughLossModel {
+    /// The name as YAML writes it.
+    pub fn key(self) -> &'static str {
+        match self {
+            RoughLossModel::HammerstadBekkadal => "hammerstad-bekkadal",
+            RoughLossModel::Groiss => "groiss",
+            RoughLossModel::CannonballHuray => "huray",
+        }
+    }
+
+    /// The published model's name.
+    pub fn name(self) -> &'static str {
+        match self {
+            RoughLossModel::HammerstadBekkadal => "Hammerstad-Bekkadal",
+            RoughLossModel::Groiss => "Groiss",
+            RoughLossModel::CannonballHuray => "Cannonball-Huray",
+        }
+    }
+
+    /// Parses [`Self::key`].
+    pub fn from_key(k: &str) -> Option<Self> {
+        [
+            RoughLossModel::HammerstadBekkadal,
+            RoughLossModel::Groiss,
+            RoughLossModel::CannonballHuray,
+        ]
+        .into_iter()
+        .find(|m| m.key() == k)
+    }
+
+    /// The loss factor K ≥ 1 of surface `s` at skin depth `delta`: 1 for a
+    /// smooth surface.
+    ///
+    /// Errors: a surface with neither Rq nor Rz, or a non-positive skin
+    /// depth.
+    pub fn factor(self, s: &RoughSurface, delta: f64) -> Result<f64, InputError> {
+        match self {
+            RoughLossModel::HammerstadBekkadal => hammerstad_factor(s.rq()?, delta),
+            RoughLossModel::Groiss => groiss_factor(s.rq()?, delta),
+            RoughLossModel::CannonballHuray => {
+                let rz = s.rz()?;
+                if rz <= 0.0 {
+                    return Ok(1.0);
+                }
+                HurayModel::cannonball_from_rz(rz)?.loss_factor(delta)
+            }
+        }
+    }
+}

@@ -595,7 +595,7 @@ fn loss_figure(s: &Stackup, a: &Analysis, stem: &str) -> Option<Block> {
         .filter_map(|(i, nc)| {
             let pts = crate::analysis::sweep::sweep(s, a, i, &freqs)?;
             Some((
-                nc.name.clone(),
+                crate::output::escape::controls(&nc.name).into_owned(),
                 pts.iter()
                     .map(|p| (p.frequency, p.loss.total_rough() * 0.1))
                     .collect(),
