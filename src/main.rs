@@ -722,9 +722,18 @@ fn impedance_sweep(
             for (nc, pts) in s.net_classes.iter().zip(per_class) {
                 let Some(pts) = pts else { continue };
                 let pair = nc.spacing.is_some();
-                match output::sweep::touchstone(n, &nc.name, pair, len, pts) {
+                let file = if pair {
+                    output::sweep::touchstone_pair(n, &nc.name, len, pts)
+                } else {
+                    output::sweep::touchstone(n, &nc.name, len, pts)
+                };
+                match file {
                     Ok(t) => touchstones.push((
-                        format!("{stem}-{}.s2p", output::report::slug(&nc.name)),
+                        format!(
+                            "{stem}-{}.{}",
+                            output::report::slug(&nc.name),
+                            if pair { "s4p" } else { "s2p" }
+                        ),
                         t.into_bytes(),
                     )),
                     Err(e) => {

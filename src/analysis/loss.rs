@@ -33,6 +33,50 @@ pub(super) fn line_loss(
     energy: Option<&[f64]>,
     derivatives: Option<&[InductanceDerivative]>,
 ) -> LossNumbers {
+    let mode = Mode {
+        eps_eff: smooth.eps_eff,
+        z: smooth.z_line(),
+        index: usize::from(smooth.pair.is_some()),
+    };
+    mode_loss(g, dk, f, mode, energy, derivatives)
+}
+
+/// A pair's even mode, as [`line_loss`] gives the odd one (`energy`: the
+/// even mode's shares); `None` for a single line.
+pub(super) fn even_mode_loss(
+    g: &LineGeometry,
+    dk: &BTreeMap<usize, DkAt>,
+    f: f64,
+    smooth: &LineNumbers,
+    energy: Option<&[f64]>,
+    derivatives: Option<&[InductanceDerivative]>,
+) -> Option<LossNumbers> {
+    let p = smooth.pair?;
+    let mode = Mode {
+        eps_eff: p.eps_eff_even,
+        z: p.z_even,
+        index: 0,
+    };
+    Some(mode_loss(g, dk, f, mode, energy, derivatives))
+}
+
+/// One mode of the line: its εeff, its impedance per line, and its index
+/// among the solver's modes (single line 0; pair: even 0, odd 1).
+#[derive(Clone, Copy)]
+struct Mode {
+    eps_eff: f64,
+    z: f64,
+    index: usize,
+}
+
+fn mode_loss(
+    g: &LineGeometry,
+    dk: &BTreeMap<usize, DkAt>,
+    f: f64,
+    m: Mode,
+    energy: Option<&[f64]>,
+    derivatives: Option<&[InductanceDerivative]>,
+) -> LossNumbers {
     let alpha_d = energy
         .and_then(|shares| {
             let (dk_now, tand) = region_materials(g, dk);
@@ -47,9 +91,9 @@ pub(super) fn line_loss(
                 .zip(dk_now.iter().zip(&solved_eps))
                 .map(|(s, (now, was))| s * now.map_or(1.0, |d| d / was))
                 .sum();
-            loss::dielectric_loss_of_mode(f, smooth.eps_eff * scale, shares, &tand).ok()
+            loss::dielectric_loss_of_mode(f, m.eps_eff * scale, shares, &tand).ok()
         })
-        .unwrap_or_else(|| thickness_weighted_dielectric_loss(g, dk, f, smooth));
+        .unwrap_or_else(|| thickness_weighted_dielectric_loss(g, dk, f, m.eps_eff));
     let rs = surface_resistance(f, SIGMA).unwrap_or(0.0);
     let delta = stackup_physics::copper::skin_depth(f, SIGMA).unwrap_or(1e-6);
     // Each face's roughness factor by the model its foil names
@@ -89,13 +133,13 @@ pub(super) fn line_loss(
     );
     let k_rough = 0.5 * (trace_k + plane_k);
     let w = 0.5 * (g.width_bottom + g.width_top);
-    let z_line = smooth.z_line();
+    let z_line = m.z;
     // The closed forms: the estimate without solved derivatives, and the
     // bound a solved (or cached) value must keep.
     let closed = |k: f64| -> f64 {
         if let Some(_top) = g.top_plane {
             let b = g.height();
-            let eps = smooth.eps_eff;
+            let eps = m.eps_eff;
             loss::conductor_loss_stripline_pozar(rs * k, eps, z_line, w, b, g.thickness)
                 .unwrap_or(0.0)
         } else {
@@ -117,7 +161,7 @@ pub(super) fn line_loss(
         }
         .unwrap_or(1.0)
     };
-    let mode = usize::from(smooth.pair.is_some());
+    let mode = m.index;
     let solved = |d: &[InductanceDerivative], k: &dyn Fn(MetalFaces) -> f64| -> Option<f64> {
         let r = modal_resistance(&resistance_matrix(d, |f| rs * k(f)));
         r.get(mode).map(|r| r / (2.0 * z_line))
@@ -194,7 +238,7 @@ fn thickness_weighted_dielectric_loss(
     g: &LineGeometry,
     dk: &BTreeMap<usize, DkAt>,
     f: f64,
-    smooth: &LineNumbers,
+    eps_eff: f64,
 ) -> f64 {
     let (mut num, mut den) = (0.0, 0.0);
     for sl in &g.slabs {
@@ -210,14 +254,9 @@ fn thickness_weighted_dielectric_loss(
         1.0
     };
     if g.top_plane.is_some() {
-        loss::dielectric_loss_stripline(f, smooth.eps_eff, tand).unwrap_or(0.0)
+        loss::dielectric_loss_stripline(f, eps_eff, tand).unwrap_or(0.0)
     } else {
-        loss::dielectric_loss_microstrip(
-            f,
-            eps_bulk.max(smooth.eps_eff + 1e-6),
-            smooth.eps_eff,
-            tand,
-        )
-        .unwrap_or(0.0)
+        loss::dielectric_loss_microstrip(f, eps_bulk.max(eps_eff + 1e-6), eps_eff, tand)
+            .unwrap_or(0.0)
     }
 }

@@ -195,6 +195,8 @@ pub struct SweepBasis {
     pub worst: Option<LineNumbers>,
     /// The signal mode's share of electric energy per dielectric region.
     pub energy: Option<Vec<f64>>,
+    /// A pair's even mode's shares.
+    pub energy_even: Option<Vec<f64>>,
     /// ∂L/∂n per group of metal faces (Wheeler's rule).
     pub wheeler: Option<Vec<InductanceDerivative>>,
 }
@@ -480,12 +482,14 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         }
         // The signal mode's share of electric energy per dielectric region
         // of the smooth section (single: its one mode; pair: the odd mode).
-        let energy: Option<Vec<f64>> = solved
+        let modes: Option<Vec<Vec<f64>>> = solved
             .get(&p.family)
             .and_then(|v| v.get(p.smooth))
             .and_then(|r| r.as_ref().ok())
-            .and_then(|line| line.energy_shares(&section::cross_section(&g, None)))
-            .and_then(|mut modes| modes.pop());
+            .and_then(|line| line.energy_shares(&section::cross_section(&g, None)));
+        let energy: Option<Vec<f64>> = modes.as_ref().and_then(|m| m.last().cloned());
+        let energy_even: Option<Vec<f64>> =
+            modes.filter(|m| m.len() == 2).map(|mut m| m.swap_remove(0));
         let width_for_target = match (nc.impedance, worst) {
             (Some(t), Some(w)) if (w.z - t.target).abs() > 1e-3 * t.target => {
                 widths.get(&i).copied().flatten()
@@ -559,6 +563,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 smooth: sm,
                 worst: static_worst,
                 energy: energy.clone(),
+                energy_even,
                 wheeler: derivs.map(<[InductanceDerivative]>::to_vec),
             }),
         });

@@ -25,7 +25,7 @@ use std::collections::BTreeMap;
 use stackup_physics::consts::C0;
 
 use super::dispersion::dispersion;
-use super::loss::line_loss;
+use super::loss::{even_mode_loss, line_loss};
 use super::materials::DkAt;
 use super::solve::rough_layers;
 use stackup_physics::fieldsolver::Region;
@@ -43,6 +43,9 @@ pub struct SweepPoint {
     /// Worst-case rough copper (as declared), when solved.
     pub rough: Option<LineNumbers>,
     pub loss: LossNumbers,
+    /// A pair's even mode: its loss (the rough line's εeff and Z of the
+    /// even mode are in `rough`/`smooth`'s `pair`).
+    pub even_loss: Option<LossNumbers>,
 }
 
 /// Parses `"1GHz..110GHz"` or `"1GHz..110GHz:201"` into its frequencies
@@ -182,11 +185,20 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                     basis.energy.as_deref(),
                     basis.wheeler.as_deref(),
                 );
+                let even_loss = even_mode_loss(
+                    g,
+                    &dk,
+                    f,
+                    &smooth,
+                    basis.energy_even.as_deref(),
+                    basis.wheeler.as_deref(),
+                );
                 SweepPoint {
                     frequency: f,
                     smooth,
                     rough,
                     loss,
+                    even_loss,
                 }
             })
             .collect(),

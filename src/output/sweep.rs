@@ -164,11 +164,89 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
     out
 }
 
+/// A Touchstone 1.1 four-port of `length` metres of a pair (ports 1 and 2
+/// the near and far ends of one line, 3 and 4 of the other; 50 Ω each) at
+/// every sweep frequency, from its even and odd modes: for a symmetric
+/// pair each mode is a two-port of its own (Se, So), and the four-port is
+/// [[A, B], [B, A]] with A = (Se + So)/2, B = (Se − So)/2 (modal
+/// decomposition of symmetric coupled lines; e.g. Pozar, *Microwave
+/// Engineering*, 4th ed., sec. 7.6, from memory).
+pub fn touchstone_pair(
+    file: &str,
+    class: &str,
+    length: f64,
+    pts: &[SweepPoint],
+) -> Result<String, String> {
+    let mut out = format!(
+        "! stackup-lint {}: net class {class} of {file}, {:.3} mm, a pair: ports 1-2 one line (near, far), 3-4 the other\n! an engineering aid, not a measurement: confirm with the fabricator's modelling and test coupons\n# GHz S RI R 50\n",
+        env!("CARGO_PKG_VERSION"),
+        length * 1e3
+    );
+    for p in pts {
+        let n = p.rough.as_ref().unwrap_or(&p.smooth);
+        let (Some(pair), Some(even_loss)) = (n.pair, p.even_loss.as_ref()) else {
+            return Err("not a solved pair".into());
+        };
+        let w = 2.0 * std::f64::consts::PI * p.frequency;
+        let mode = |z: f64, e: f64, cond: f64, diel: f64| {
+            let r = 2.0 * z * cond / NP_TO_DB;
+            Rlgc {
+                r,
+                l: z * e.sqrt() / C0 + r / w,
+                g: 2.0 * (diel / NP_TO_DB) / z,
+                c: e.sqrt() / (z * C0),
+            }
+        };
+        let se = line_s_params(
+            &mode(
+                pair.z_even,
+                pair.eps_eff_even,
+                even_loss.conductor_rough,
+                even_loss.dielectric,
+            ),
+            p.frequency,
+            length,
+            50.0,
+        )
+        .map_err(|e| e.to_string())?;
+        let so = line_s_params(
+            &mode(
+                pair.z_odd,
+                pair.eps_eff_odd,
+                p.loss.conductor_rough,
+                p.loss.dielectric,
+            ),
+            p.frequency,
+            length,
+            50.0,
+        )
+        .map_err(|e| e.to_string())?;
+        let a = |i: usize, j: usize| (se[i][j] + so[i][j]) * 0.5;
+        let b = |i: usize, j: usize| (se[i][j] - so[i][j]) * 0.5;
+        let m = [
+            [a(0, 0), a(0, 1), b(0, 0), b(0, 1)],
+            [a(1, 0), a(1, 1), b(1, 0), b(1, 1)],
+            [b(0, 0), b(0, 1), a(0, 0), a(0, 1)],
+            [b(1, 0), b(1, 1), a(1, 0), a(1, 1)],
+        ];
+        for (r, row) in m.iter().enumerate() {
+            if r == 0 {
+                out.push_str(&format!("{:.9}", p.frequency / 1e9));
+            }
+            for v in row {
+                out.push_str(&format!(" {:.9e} {:.9e}", v.re, v.im));
+            }
+            out.push('\n');
+        }
+    }
+    Ok(out)
+}
+
 /// The per-unit-length parameters of a class's signal mode at one sweep
 /// point (the declared, worst-case rough copper): L and C from Z and εeff,
 /// R from the conductor loss with the equal internal inductance R/ω of a
 /// skin-effect conductor (which keeps the model causal), G from the
-/// dielectric loss. For a pair: the differential mode, Z_diff.
+/// dielectric loss.
 fn rlgc(p: &SweepPoint) -> Rlgc {
     let n = p.rough.as_ref().unwrap_or(&p.smooth);
     let (z, e) = (n.z, n.eps_eff);
@@ -184,26 +262,20 @@ fn rlgc(p: &SweepPoint) -> Rlgc {
     }
 }
 
-/// A Touchstone 1.1 two-port of `length` metres of a class's line (the
-/// differential mode of a pair, referred to 100 Ω; 50 Ω otherwise), at
-/// every sweep frequency: S in real/imaginary form.
+/// A Touchstone 1.1 two-port of `length` metres of a single line, 50 Ω
+/// ports, at every sweep frequency: S in real/imaginary form (pairs:
+/// [`touchstone_pair`]).
 pub fn touchstone(
     file: &str,
     class: &str,
-    pair: bool,
     length: f64,
     pts: &[SweepPoint],
 ) -> Result<String, String> {
-    let z_ref = if pair { 100.0 } else { 50.0 };
+    let z_ref = 50.0;
     let mut out = format!(
-        "! stackup-lint {}: net class {class} of {file}, {:.3} mm{}\n! an engineering aid, not a measurement: confirm with the fabricator's modelling and test coupons\n# GHz S RI R {z_ref}\n",
+        "! stackup-lint {}: net class {class} of {file}, {:.3} mm\n! an engineering aid, not a measurement: confirm with the fabricator's modelling and test coupons\n# GHz S RI R {z_ref}\n",
         env!("CARGO_PKG_VERSION"),
         length * 1e3,
-        if pair {
-            ", differential mode (mixed-mode SDD)"
-        } else {
-            ""
-        }
     );
     for p in pts {
         let s = line_s_params(&rlgc(p), p.frequency, length, z_ref).map_err(|e| e.to_string())?;

@@ -98,12 +98,13 @@ fn sweep_ranges_parse_and_bad_ones_are_refused() {
     }
 }
 
-/// A parsed Touchstone 1.1 two-port in RI form: (f GHz, S11, S21, S12, S22).
-type Row = (f64, [(f64, f64); 4]);
+/// A parsed Touchstone 1.1 file in RI form: its option line and, per
+/// frequency, (f GHz, the n×n matrix row by row).
+type Row = (f64, Vec<Vec<(f64, f64)>>);
 
-fn read_s2p(text: &str) -> (String, Vec<Row>) {
+fn read_touchstone(text: &str, n: usize) -> (String, Vec<Row>) {
     let mut option = String::new();
-    let mut rows = Vec::new();
+    let mut nums = Vec::new();
     for l in text.lines() {
         if l.starts_with('!') || l.trim().is_empty() {
             continue;
@@ -112,21 +113,46 @@ fn read_s2p(text: &str) -> (String, Vec<Row>) {
             option = l.to_string();
             continue;
         }
-        let v: Vec<f64> = l.split_whitespace().map(|x| x.parse().unwrap()).collect();
-        assert_eq!(v.len(), 9, "{l}");
-        rows.push((
-            v[0],
-            [(v[1], v[2]), (v[3], v[4]), (v[5], v[6]), (v[7], v[8])],
-        ));
+        nums.extend(l.split_whitespace().map(|x| x.parse::<f64>().unwrap()));
     }
+    let per = 1 + 2 * n * n;
+    assert_eq!(nums.len() % per, 0);
+    let rows = nums
+        .chunks(per)
+        .map(|c| {
+            let m: Vec<Vec<(f64, f64)>> = (0..n)
+                .map(|i| {
+                    (0..n)
+                        .map(|j| (c[1 + 2 * (i * n + j)], c[2 + 2 * (i * n + j)]))
+                        .collect()
+                })
+                .collect();
+            (c[0], m)
+        })
+        .collect();
     (option, rows)
 }
 
-/// The Touchstone files of the radar demo: one per class, passive (for a
-/// symmetric reciprocal two-port the eigenvalues of SᴴS are |S11 ± S21|²,
-/// both at most 1), reciprocal, and matched lines lose what the sweep's
-/// loss column says over the length (within 0.05 dB: the mismatch of a
-/// line a few per cent off its reference).
+fn abs(z: (f64, f64)) -> f64 {
+    z.0.hypot(z.1)
+}
+
+fn add(a: (f64, f64), b: (f64, f64), sign: f64) -> (f64, f64) {
+    (a.0 + sign * b.0, a.1 + sign * b.1)
+}
+
+/// A symmetric reciprocal two-port [[s11, s21], [s21, s11]] is passive
+/// when |S11 ± S21| ≤ 1 (the eigenvalues of SᴴS are their squares).
+fn passive2(s11: (f64, f64), s21: (f64, f64)) -> bool {
+    abs(add(s11, s21, 1.0)) <= 1.0 && abs(add(s11, s21, -1.0)) <= 1.0
+}
+
+/// The Touchstone files of the radar demo: a two-port per single line, a
+/// four-port per pair; passive, reciprocal, and lines lose what the
+/// sweep's loss column says over the length (within 0.05 dB and 1 %:
+/// the mismatch of a line a few per cent off its reference). A pair's
+/// four-port [[A, B], [B, A]] splits into its even and odd two-ports
+/// A ± B; the odd one is the differential signal's.
 #[test]
 fn touchstone_files_are_passive_reciprocal_and_lose_the_loss() {
     let dir = tempfile::tempdir().unwrap();
@@ -154,24 +180,39 @@ fn touchstone_files_are_passive_reciprocal_and_lose_the_loss() {
     let classes = v[0]["net_classes"].as_array().unwrap();
     let csv = std::fs::read_to_string(&csv).unwrap();
     assert_eq!(csv.lines().count(), 1 + 14 * classes.len());
+    let mut pairs = 0;
     for c in classes {
         let name = c["net_class"].as_str().unwrap();
-        let path = ts.join(format!("board-{name}.s2p"));
-        let (option, rows) = read_s2p(&std::fs::read_to_string(&path).unwrap());
-        assert!(option.starts_with("# GHz S RI R "), "{option}");
         let sweep = c["sweep"].as_array().unwrap();
+        let two = ts.join(format!("board-{name}.s2p"));
+        let (n, path) = if two.exists() {
+            (2, two)
+        } else {
+            pairs += 1;
+            (4, ts.join(format!("board-{name}.s4p")))
+        };
+        let (option, rows) = read_touchstone(&std::fs::read_to_string(&path).unwrap(), n);
+        assert_eq!(option, "# GHz S RI R 50");
         assert_eq!(rows.len(), sweep.len());
-        for ((f, s), p) in rows.iter().zip(sweep) {
-            let [s11, s21, s12, s22] = *s;
-            assert_eq!(s21, s12, "{name} at {f} GHz: not reciprocal");
-            assert_eq!(s11, s22);
-            let plus = ((s11.0 + s21.0).powi(2) + (s11.1 + s21.1).powi(2)).sqrt();
-            let minus = ((s11.0 - s21.0).powi(2) + (s11.1 - s21.1).powi(2)).sqrt();
-            assert!(
-                plus <= 1.0 && minus <= 1.0,
-                "{name} at {f} GHz: not passive"
-            );
-            let il = -20.0 * (s21.0.hypot(s21.1)).log10();
+        for ((f, m), p) in rows.iter().zip(sweep) {
+            for (i, row) in m.iter().enumerate() {
+                for (j, v) in row.iter().enumerate() {
+                    assert_eq!(*v, m[j][i], "{name} at {f} GHz: not reciprocal");
+                }
+            }
+            // The signal's two-port: the line itself, or the odd mode A − B.
+            let (s11, s21) = if n == 2 {
+                (m[0][0], m[1][0])
+            } else {
+                let even = (add(m[0][0], m[0][2], 1.0), add(m[1][0], m[1][2], 1.0));
+                assert!(
+                    passive2(even.0, even.1),
+                    "{name} at {f} GHz: even mode not passive"
+                );
+                (add(m[0][0], m[0][2], -1.0), add(m[1][0], m[1][2], -1.0))
+            };
+            assert!(passive2(s11, s21), "{name} at {f} GHz: not passive");
+            let il = -20.0 * abs(s21).log10();
             let want = p["loss_db_per_mm"].as_f64().unwrap() * 50.0;
             assert!(
                 (il - want).abs() < 0.05 + 0.01 * want,
@@ -179,4 +220,5 @@ fn touchstone_files_are_passive_reciprocal_and_lose_the_loss() {
             );
         }
     }
+    assert_eq!(pairs, 1, "the radar has one pair");
 }
