@@ -32,7 +32,7 @@ const NOTE_BELOW: f64 = 0.005;
 /// The substrate a microstrip's dispersion is computed with: its height
 /// (trace bottom to plane), the plies' Dk in series (the field under a
 /// strip crosses them in turn), and the strip's mean width and thickness.
-struct Substrate {
+pub(super) struct Substrate {
     h: f64,
     eps_r: f64,
     w: f64,
@@ -54,7 +54,7 @@ fn substrate(g: &LineGeometry) -> Option<Substrate> {
 /// How a class's solved numbers move with frequency.
 pub(super) enum Dispersion {
     /// Kirschning-Jansen on the solved static value at the class's frequency.
-    Microstrip { f: f64, sub: SubstrateView },
+    Microstrip { f: f64, sub: Substrate },
     /// Static: a TEM line.
     Static,
     /// An open structure the models do not cover: static, with a note
@@ -62,12 +62,9 @@ pub(super) enum Dispersion {
     NotModelled {
         what: &'static str,
         f: f64,
-        sub: SubstrateView,
+        sub: Substrate,
     },
 }
-
-/// The substrate values, for the model.
-pub(super) struct SubstrateView(Substrate);
 
 /// Decide how the line of `g` disperses at `f`.
 pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
@@ -82,10 +79,7 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
             .is_some_and(|d| d.kind == DielectricKind::SolderMask)
     });
     if g.spacing.is_none() && g.gap.is_none() && covered_by_mask_only {
-        return Dispersion::Microstrip {
-            f,
-            sub: SubstrateView(sub),
-        };
+        return Dispersion::Microstrip { f, sub };
     }
     let what = if g.spacing.is_some() {
         "a pair"
@@ -94,11 +88,7 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
     } else {
         "a microstrip under dielectric"
     };
-    Dispersion::NotModelled {
-        what,
-        f,
-        sub: SubstrateView(sub),
-    }
+    Dispersion::NotModelled { what, f, sub }
 }
 
 impl Dispersion {
@@ -110,7 +100,7 @@ impl Dispersion {
         let Dispersion::Microstrip { f, sub } = self else {
             return;
         };
-        let s = &sub.0;
+        let s = sub;
         if let Ok((e, _)) = kirschning_jansen_eps_eff(s.w, s.h, s.t, s.eps_r, n.eps_eff, *f) {
             if e.is_finite() && e >= n.eps_eff {
                 n.eps_eff = e;
@@ -131,7 +121,7 @@ impl Dispersion {
                 // The size of the effect this line's numbers leave out: a
                 // single surface microstrip of the same strip and static
                 // εeff.
-                let (s, e0) = (&sub.0, smooth?.eps_eff);
+                let (s, e0) = (sub, smooth?.eps_eff);
                 let rise = kirschning_jansen_eps_eff(s.w, s.h, s.t, s.eps_r, e0, *f)
                     .map(|(e, _)| e / e0 - 1.0)
                     .unwrap_or(0.0);

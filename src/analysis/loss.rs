@@ -13,7 +13,7 @@ use stackup_physics::fieldsolver::{
     modal_resistance, resistance_matrix, InductanceDerivative, MetalFaces, Region,
 };
 
-use super::section::{cross_section, cross_section_owned, FaceRole, LineGeometry};
+use super::section::{cross_section_owned, FaceRole, LineGeometry};
 use super::{LineNumbers, LossNumbers, SIGMA};
 
 /// Loss per metre: dielectric loss from the share of the signal mode's
@@ -79,13 +79,12 @@ fn mode_loss(
 ) -> LossNumbers {
     let alpha_d = energy
         .and_then(|shares| {
-            let (dk_now, tand) = region_materials(g, dk);
+            let (dk_now, tand, solved_eps) = region_materials(g, dk);
             // The line was solved at the class's analysis frequency; at
             // another one (a loss budget's Nyquist frequency) each region's
             // Dk has moved, and εeff with it by the same energy weights:
             // εeff(f) = εeff·Σ s_r·ε_r(f)/ε_r (first order, exact for one
             // dielectric).
-            let solved_eps = cross_section(g, None).region_eps();
             let scale: f64 = shares
                 .iter()
                 .zip(dk_now.iter().zip(&solved_eps))
@@ -207,12 +206,15 @@ pub const WHEELER_MODEL: &str = "Wheeler's incremental-inductance rule on the so
 pub const CLOSED_FORM_MODEL: &str =
     "closed form (Hammerstad-Jensen microstrip, Pozar stripline), Hammerstad-Bekkadal roughness averaged over trace and planes";
 
-/// Dk (at the frequency `dk` holds) and loss tangent of each dielectric
-/// region of the smooth section, in the order of `CrossSection::regions`:
+/// Dk (at the frequency `dk` holds), loss tangent and solved permittivity
+/// of each dielectric region of the smooth section, in the order of `CrossSection::regions`:
 /// a slab's own material (or the resin, mask or core that fills a copper
 /// slot), a block that of the slab it lies in, the air none (Dk `None`,
 /// loss tangent 0).
-fn region_materials(g: &LineGeometry, dk: &BTreeMap<usize, DkAt>) -> (Vec<Option<f64>>, Vec<f64>) {
+fn region_materials(
+    g: &LineGeometry,
+    dk: &BTreeMap<usize, DkAt>,
+) -> (Vec<Option<f64>>, Vec<f64>, Vec<f64>) {
     let (cs, owners) = cross_section_owned(g, None);
     let slab = |k: usize| -> Option<&DkAt> {
         g.slabs
@@ -220,7 +222,8 @@ fn region_materials(g: &LineGeometry, dk: &BTreeMap<usize, DkAt>) -> (Vec<Option
             .and_then(|sl| sl.material)
             .and_then(|m| dk.get(&m))
     };
-    cs.regions()
+    let (dks, tands) = cs
+        .regions()
         .into_iter()
         .map(|r| match r {
             Region::Layer(k) => slab(k),
@@ -228,7 +231,8 @@ fn region_materials(g: &LineGeometry, dk: &BTreeMap<usize, DkAt>) -> (Vec<Option
             Region::Air => None,
         })
         .map(|d| (d.map(|d| d.dk), d.map_or(0.0, |d| d.df)))
-        .unzip()
+        .unzip();
+    (dks, tands, cs.region_eps())
 }
 
 /// The estimate used when the solver gave no energy shares: the loss

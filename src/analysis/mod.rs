@@ -434,15 +434,16 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             continue;
         }
         let disp = dispersion::dispersion(s, &g, f);
-        let static_smooth = numbers(&p.family, p.smooth).ok();
+        let static_smooth_r = numbers(&p.family, p.smooth);
+        let static_smooth = static_smooth_r.as_ref().ok().copied();
         let static_worst = numbers(&p.family, p.worst).ok();
         let raise = |mut n: LineNumbers| {
             disp.apply(&mut n);
             n
         };
-        let smooth = numbers(&p.family, p.smooth).map(raise);
+        let smooth = static_smooth_r.map(raise);
         let best = numbers(&p.family, p.best).ok().map(raise);
-        let worst = numbers(&p.family, p.worst).ok().map(raise);
+        let worst = static_worst.map(raise);
         notes.extend(disp.note(static_smooth.as_ref(), smooth.as_ref().ok()));
         let roughness_unknown = g.faces.iter().any(|f| f.roughness.is_range());
         let implied_faces: Vec<_> = g

@@ -7,6 +7,7 @@ use stackup_physics::consts::{C0, NP_TO_DB};
 use stackup_physics::twoport::{line_s_params, Rlgc};
 
 use crate::analysis::sweep::SweepPoint;
+use crate::analysis::LossNumbers;
 use crate::model::Stackup;
 
 /// One file's sweeps: its name as shown, the stackup, and per net class
@@ -187,35 +188,15 @@ pub fn touchstone_pair(
         let (Some(pair), Some(even_loss)) = (n.pair, p.even_loss.as_ref()) else {
             return Err("not a solved pair".into());
         };
-        let w = 2.0 * std::f64::consts::PI * p.frequency;
-        let mode = |z: f64, e: f64, cond: f64, diel: f64| {
-            let r = 2.0 * z * cond / NP_TO_DB;
-            Rlgc {
-                r,
-                l: z * e.sqrt() / C0 + r / w,
-                g: 2.0 * (diel / NP_TO_DB) / z,
-                c: e.sqrt() / (z * C0),
-            }
-        };
         let se = line_s_params(
-            &mode(
-                pair.z_even,
-                pair.eps_eff_even,
-                even_loss.conductor_rough,
-                even_loss.dielectric,
-            ),
+            &rlgc(p.frequency, pair.z_even, pair.eps_eff_even, even_loss),
             p.frequency,
             length,
             50.0,
         )
         .map_err(|e| e.to_string())?;
         let so = line_s_params(
-            &mode(
-                pair.z_odd,
-                pair.eps_eff_odd,
-                p.loss.conductor_rough,
-                p.loss.dielectric,
-            ),
+            &rlgc(p.frequency, pair.z_odd, pair.eps_eff_odd, &p.loss),
             p.frequency,
             length,
             50.0,
@@ -242,23 +223,19 @@ pub fn touchstone_pair(
     Ok(out)
 }
 
-/// The per-unit-length parameters of a class's signal mode at one sweep
-/// point (the declared, worst-case rough copper): L and C from Z and εeff,
-/// R from the conductor loss with the equal internal inductance R/ω of a
-/// skin-effect conductor (which keeps the model causal), G from the
-/// dielectric loss.
-fn rlgc(p: &SweepPoint) -> Rlgc {
-    let n = p.rough.as_ref().unwrap_or(&p.smooth);
-    let (z, e) = (n.z, n.eps_eff);
-    let w = 2.0 * std::f64::consts::PI * p.frequency;
-    let alpha_c = p.loss.conductor_rough / NP_TO_DB;
-    let alpha_d = p.loss.dielectric / NP_TO_DB;
-    let r = 2.0 * z * alpha_c;
+/// The per-unit-length parameters of one mode at frequency `f` from its
+/// impedance per line `z`, εeff and loss (dB/m; the declared, worst-case
+/// rough copper): L and C from Z and εeff, R from the conductor loss with
+/// the equal internal inductance R/ω of a skin-effect conductor (which
+/// keeps the model causal), G from the dielectric loss.
+fn rlgc(f: f64, z: f64, eps_eff: f64, loss: &LossNumbers) -> Rlgc {
+    let w = 2.0 * std::f64::consts::PI * f;
+    let r = 2.0 * z * loss.conductor_rough / NP_TO_DB;
     Rlgc {
         r,
-        l: z * e.sqrt() / C0 + r / w,
-        g: 2.0 * alpha_d / z,
-        c: e.sqrt() / (z * C0),
+        l: z * eps_eff.sqrt() / C0 + r / w,
+        g: 2.0 * (loss.dielectric / NP_TO_DB) / z,
+        c: eps_eff.sqrt() / (z * C0),
     }
 }
 
@@ -278,7 +255,14 @@ pub fn touchstone(
         length * 1e3,
     );
     for p in pts {
-        let s = line_s_params(&rlgc(p), p.frequency, length, z_ref).map_err(|e| e.to_string())?;
+        let n = p.rough.as_ref().unwrap_or(&p.smooth);
+        let s = line_s_params(
+            &rlgc(p.frequency, n.z, n.eps_eff, &p.loss),
+            p.frequency,
+            length,
+            z_ref,
+        )
+        .map_err(|e| e.to_string())?;
         out.push_str(&format!(
             "{:.9} {:.9e} {:.9e} {:.9e} {:.9e} {:.9e} {:.9e} {:.9e} {:.9e}\n",
             p.frequency / 1e9,

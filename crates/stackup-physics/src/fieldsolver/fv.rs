@@ -46,43 +46,70 @@ impl Grid {
     fn ny(&self) -> usize {
         self.ys.len()
     }
-    /// Link coefficients (dimensionless; ×ε0 gives F/m per volt): `east[p]`
-    /// couples node p to p + 1, `north[p]` couples p to p + nx. `eps` is the
-    /// relative permittivity per cell, row-major (j * (nx-1) + i); `None`
-    /// is vacuum.
-    fn links(&self, eps: Option<&[f64]>) -> (Vec<f64>, Vec<f64>) {
-        let ncx = self.nx() - 1;
-        let eps_cell = |i: usize, j: usize| eps.map_or(1.0, |e| e[j * ncx + i]);
+    /// Every link of the mesh, once: `f(p, q, cells)` for nodes p and q (q
+    /// east or north of p) with the (up to two) cells whose halves its dual
+    /// face crosses and each one's geometric weight (half the cell's extent
+    /// across the link over the link's length; 0 where there is no cell,
+    /// whose index is then `usize::MAX`). The link coefficient is
+    /// Σ ε_cell·weight.
+    fn for_each_link(&self, mut f: impl FnMut(usize, usize, [(usize, f64); 2])) {
         let (nx, ny) = (self.nx(), self.ny());
-        let mut east = vec![0.0; nx * ny];
-        let mut north = vec![0.0; nx * ny];
+        let ncx = nx - 1;
         for j in 0..ny {
             for i in 0..nx {
                 let p = j * nx + i;
                 if i + 1 < nx {
                     let dx = self.xs[i + 1] - self.xs[i];
-                    let mut s = 0.0;
-                    if j > 0 {
-                        s += eps_cell(i, j - 1) * (self.ys[j] - self.ys[j - 1]) * 0.5;
-                    }
-                    if j + 1 < ny {
-                        s += eps_cell(i, j) * (self.ys[j + 1] - self.ys[j]) * 0.5;
-                    }
-                    east[p] = s / dx;
+                    let below = if j > 0 {
+                        ((j - 1) * ncx + i, 0.5 * (self.ys[j] - self.ys[j - 1]) / dx)
+                    } else {
+                        (usize::MAX, 0.0)
+                    };
+                    let above = if j + 1 < ny {
+                        (j * ncx + i, 0.5 * (self.ys[j + 1] - self.ys[j]) / dx)
+                    } else {
+                        (usize::MAX, 0.0)
+                    };
+                    f(p, p + 1, [below, above]);
                 }
                 if j + 1 < ny {
                     let dy = self.ys[j + 1] - self.ys[j];
-                    let mut s = 0.0;
-                    if i > 0 {
-                        s += eps_cell(i - 1, j) * (self.xs[i] - self.xs[i - 1]) * 0.5;
-                    }
-                    if i + 1 < nx {
-                        s += eps_cell(i, j) * (self.xs[i + 1] - self.xs[i]) * 0.5;
-                    }
-                    north[p] = s / dy;
+                    let left = if i > 0 {
+                        (j * ncx + i - 1, 0.5 * (self.xs[i] - self.xs[i - 1]) / dy)
+                    } else {
+                        (usize::MAX, 0.0)
+                    };
+                    let right = if i + 1 < nx {
+                        (j * ncx + i, 0.5 * (self.xs[i + 1] - self.xs[i]) / dy)
+                    } else {
+                        (usize::MAX, 0.0)
+                    };
+                    f(p, p + nx, [left, right]);
                 }
             }
         }
+    }
+
+    /// Link coefficients (dimensionless; ×ε0 gives F/m per volt): `east[p]`
+    /// couples node p to p + 1, `north[p]` couples p to p + nx. `eps` is the
+    /// relative permittivity per cell, row-major (j * (nx-1) + i); `None`
+    /// is vacuum.
+    fn links(&self, eps: Option<&[f64]>) -> (Vec<f64>, Vec<f64>) {
+        let nn = self.nx() * self.ny();
+        let mut east = vec![0.0; nn];
+        let mut north = vec![0.0; nn];
+        self.for_each_link(|p, q, cells| {
+            let a: f64 = cells
+                .iter()
+                .filter(|(_, w)| *w > 0.0)
+                .map(|&(c, w)| eps.map_or(1.0, |e| e[c]) * w)
+                .sum();
+            if q == p + 1 {
+                east[p] = a;
+            } else {
+                north[p] = a;
+            }
+        });
         (east, north)
     }
 }
@@ -376,8 +403,6 @@ impl<'g> Solver<'g> {
         };
         // Energy of every link, split over the (up to two) cells whose
         // halves its dual face crosses.
-        let ny = g.ny();
-        let ncx = nx - 1;
         let potential = |q: usize, m: usize| -> f64 {
             match g.nodes[q] {
                 Node::Free(iq) => phi[(iq, m)],
@@ -392,7 +417,7 @@ impl<'g> Solver<'g> {
         };
         let mut fill = vec![vec![0.0; nc * nc]; n_regions];
         let mut dphi = vec![0.0; nc];
-        let mut add = |p: usize, q: usize, cells: [(usize, f64); 2], dphi: &mut [f64]| {
+        g.for_each_link(|p, q, cells| {
             for (m, d) in dphi.iter_mut().enumerate() {
                 *d = potential(q, m) - potential(p, m);
             }
@@ -410,58 +435,7 @@ impl<'g> Solver<'g> {
                     }
                 }
             }
-        };
-        for j in 0..ny {
-            for i in 0..nx {
-                let p = j * nx + i;
-                if i + 1 < nx {
-                    let dx = g.xs[i + 1] - g.xs[i];
-                    let below = if j > 0 { (j - 1) * ncx + i } else { usize::MAX };
-                    let cells = [
-                        (
-                            below,
-                            if j > 0 {
-                                0.5 * (g.ys[j] - g.ys[j - 1]) / dx
-                            } else {
-                                0.0
-                            },
-                        ),
-                        (
-                            j * ncx + i,
-                            if j + 1 < ny {
-                                0.5 * (g.ys[j + 1] - g.ys[j]) / dx
-                            } else {
-                                0.0
-                            },
-                        ),
-                    ];
-                    add(p, p + 1, cells, &mut dphi);
-                }
-                if j + 1 < ny {
-                    let dy = g.ys[j + 1] - g.ys[j];
-                    let left = if i > 0 { j * ncx + i - 1 } else { usize::MAX };
-                    let cells = [
-                        (
-                            left,
-                            if i > 0 {
-                                0.5 * (g.xs[i] - g.xs[i - 1]) / dy
-                            } else {
-                                0.0
-                            },
-                        ),
-                        (
-                            j * ncx + i,
-                            if i + 1 < nx {
-                                0.5 * (g.xs[i + 1] - g.xs[i]) / dy
-                            } else {
-                                0.0
-                            },
-                        ),
-                    ];
-                    add(p, p + nx, cells, &mut dphi);
-                }
-            }
-        }
+        });
         Ok((c, fill))
     }
 }

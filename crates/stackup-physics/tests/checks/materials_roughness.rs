@@ -273,3 +273,39 @@ fn subnormal_frequency_is_refused() {
         );
     }
 }
+
+/// A foil's named loss model gives its published factor: Groiss at
+/// δ = 4·Rq is 1 + e^(−2^1.6) (Groiss et al. 1996, formula from memory),
+/// Hammerstad-Bekkadal at δ = Rq is 1 + (2/π)·atan(1.4) (Hammerstad &
+/// Bekkadal 1975), Cannonball-Huray is the model's own factor from Rz
+/// (Simonovich 2015); a smooth surface gives 1; the YAML keys round-trip.
+#[test]
+fn named_loss_models_give_their_factors() {
+    use stackup_physics::roughness::{HurayModel, RoughLossModel, RoughSurface};
+    let s = RoughSurface {
+        rq: Some(1e-6),
+        rz: Some(5e-6),
+    };
+    let g = RoughLossModel::Groiss.factor(&s, 4e-6).unwrap();
+    assert!(rel(g, 1.0 + (-(2.0f64).powf(1.6)).exp()) < 1e-12, "{g}");
+    let h = RoughLossModel::HammerstadBekkadal.factor(&s, 1e-6).unwrap();
+    assert!(
+        rel(h, 1.0 + 2.0 / std::f64::consts::PI * 1.4f64.atan()) < 1e-12,
+        "{h}"
+    );
+    let c = RoughLossModel::CannonballHuray.factor(&s, 1e-6).unwrap();
+    let want = HurayModel::cannonball_from_rz(5e-6)
+        .unwrap()
+        .loss_factor(1e-6)
+        .unwrap();
+    assert_eq!(c, want);
+    assert!(c > 2.0, "Cannonball-Huray does not saturate at 2: {c}");
+    for m in [
+        RoughLossModel::HammerstadBekkadal,
+        RoughLossModel::Groiss,
+        RoughLossModel::CannonballHuray,
+    ] {
+        assert_eq!(m.factor(&RoughSurface::SMOOTH, 1e-6).unwrap(), 1.0);
+        assert_eq!(RoughLossModel::from_key(m.key()), Some(m));
+    }
+}

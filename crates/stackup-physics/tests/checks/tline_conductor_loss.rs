@@ -7,7 +7,7 @@ use stackup_physics::copper::surface_resistance;
 use stackup_physics::fieldsolver::*;
 use stackup_physics::loss::{conductor_loss_microstrip_hj, conductor_loss_stripline_pozar};
 
-use crate::tline_fieldsolver::layer;
+use crate::tline_fieldsolver::{layer, microstrip};
 
 /// αc of the signal mode (single line or a pair's odd mode), Np/m.
 fn alpha_c(cs: &CrossSection, rs: f64) -> f64 {
@@ -105,13 +105,7 @@ fn hammerstad_jensen_loss_is_high() {
         (0.1e-3, 0.05e-3, 35e-6),
         (0.2e-3, 0.1e-3, 35e-6),
     ] {
-        let cs = CrossSection {
-            layers: vec![layer(h, 3.0)],
-            bottom_plane: true,
-            top_plane: false,
-            conductors: vec![Trace::rect(0.0, h, w, t)],
-            ..Default::default()
-        };
+        let cs = microstrip(w, h, t, 3.0);
         let s = solve(&cs, &SolverOptions::default())
             .unwrap()
             .single
@@ -203,13 +197,7 @@ fn wheeler_rule_on_the_closed_forms() {
         };
         let z = hammerstad_jensen(w, h, t, 3.0).unwrap().z0;
         let closed = rs / (2.0 * z * MU0) * dl(&l, 1e-3 * t);
-        let cs = CrossSection {
-            layers: vec![layer(h, 3.0)],
-            bottom_plane: true,
-            top_plane: false,
-            conductors: vec![Trace::rect(0.0, h, w, t)],
-            ..Default::default()
-        };
+        let cs = microstrip(w, h, t, 3.0);
         let solved = alpha_c(&cs, rs);
         eprintln!(
             "microstrip W {w} h {h} t {t}: solved {solved:.4}, Wheeler on HJ {closed:.4} Np/m"
@@ -261,13 +249,7 @@ fn scikit_rf_closed_form_disagreement() {
             unreachable!()
         };
         let rs = surface_resistance(f, 1.0 / rho).unwrap();
-        let cs = CrossSection {
-            layers: vec![layer(h, er)],
-            bottom_plane: true,
-            top_plane: false,
-            conductors: vec![Trace::rect(0.0, h, w, t)],
-            ..Default::default()
-        };
+        let cs = microstrip(w, h, t, er);
         let solved = alpha_c(&cs, rs);
         let over = skrf_alpha / solved - 1.0;
         eprintln!(
