@@ -1,25 +1,34 @@
-//! Frequency dependence of a solved line's effective permittivity.
+//! Frequency dependence of a solved line's effective permittivity and
+//! impedance.
 //!
 //! The field solver is quasi-static: its εeff is the f → 0 value of the
 //! geometry (the materials' own Dk(f) is already in it). An open
 //! microstrip's εeff rises with frequency as the field draws into the
-//! substrate; Kirschning and Jansen's model (Electronics Letters 18(6),
-//! 1982) gives that rise from the static value, the substrate's Dk, its
-//! height and the strip width, within 0.6 % up to h/λ0 = 0.13
-//! (`stackup_physics::microstrip::kirschning_jansen_eps_eff`, checked
-//! against scikit-rf's `MLine`). It is applied here to the field-solved
-//! static value of a single surface microstrip (solder mask over it
-//! allowed: the mask is a few per cent of the field). Striplines are TEM
-//! and do not disperse beyond their materials.
+//! substrate. Published models give that rise from the static value, the
+//! substrate's Dk, its height and the strip width; they are applied here to
+//! the field-solved static values (solder mask over the line allowed: the
+//! mask holds a few per cent of the field):
+//! - a single surface microstrip: Kirschning-Jansen 1982 for εeff(f)
+//!   (within 0.6 % up to h/λ0 = 0.13; checked against scikit-rf's `MLine`)
+//!   and Jansen-Kirschning 1983 for the power-current impedance Z(f);
+//! - a surface edge-coupled pair: Kirschning-Jansen 1984 for the even- and
+//!   odd-mode εeff(f) (its impedance dispersion is not applied: the pair's
+//!   impedances stay static, a note says so when the εeff rise is large).
 //!
-//! Not modelled (a note says so when the rise would matter): pairs
-//! (Kirschning-Jansen's 1984 coupled model is in the physics crate for the
-//! static modes only), coplanar lines and microstrip buried under a
-//! dielectric, whose published models do not fit a solved static value
-//! this simply.
+//! The class's impedance (what the target is checked against, and what a
+//! fabricator's TDR coupon measures) stays the static one; the sweep
+//! reports Z(f) beside it and the Touchstone export, which is per
+//! frequency, uses Z(f). Delay, skew,
+//! λg-based limits and loss use the dispersive εeff everywhere.
+//!
+//! Striplines are TEM and do not disperse beyond their materials. Not
+//! modelled (a note says so when the rise would matter): coplanar lines and
+//! microstrip buried under a dielectric, whose published models do not fit
+//! a solved static value this simply.
 
 use stackup_physics::consts::C0;
-use stackup_physics::microstrip::kirschning_jansen_eps_eff;
+use stackup_physics::coupled::kirschning_jansen_coupled_dispersion;
+use stackup_physics::microstrip::{jansen_kirschning_z0, kirschning_jansen_eps_eff};
 
 use super::section::LineGeometry;
 use super::LineNumbers;
@@ -28,6 +37,11 @@ use crate::model::{DielectricKind, Stackup};
 /// Rise of εeff (relative) below which a line that is not modelled gets no
 /// note: 0.5 % in εeff is 0.25 % in delay (common practice, no source).
 const NOTE_BELOW: f64 = 0.005;
+
+/// Change of Z(f) against the static impedance below which the class note
+/// does not mention it (common practice, no source: a tenth of a typical
+/// ±10 % impedance tolerance, half of the ±5 % one).
+const Z_NOTE_BELOW: f64 = 0.005;
 
 /// The substrate a microstrip's dispersion is computed with: its height
 /// (trace bottom to plane), the plies' Dk in series (the field under a
@@ -51,10 +65,31 @@ fn substrate(g: &LineGeometry) -> Option<Substrate> {
     })
 }
 
+impl Substrate {
+    /// Kirschning-Jansen 1982 εeff(f) of a single strip from `e0`.
+    fn eps_single(&self, e0: f64, f: f64) -> Option<f64> {
+        kirschning_jansen_eps_eff(self.w, self.h, self.t, self.eps_r, e0, f)
+            .ok()
+            .map(|(e, _)| e)
+            .filter(|e| e.is_finite() && *e >= e0)
+    }
+
+    /// Jansen-Kirschning 1983 Z(f) of a single strip.
+    fn z_single(&self, z0: f64, e0: f64, ef: f64, f: f64) -> Option<f64> {
+        jansen_kirschning_z0(self.w, self.h, self.t, self.eps_r, z0, e0, ef, f)
+            .ok()
+            .map(|(z, _)| z)
+            .filter(|z| z.is_finite() && *z > 0.0)
+    }
+}
+
 /// How a class's solved numbers move with frequency.
 pub(super) enum Dispersion {
-    /// Kirschning-Jansen on the solved static value at the class's frequency.
+    /// Kirschning-Jansen / Jansen-Kirschning on the solved static values.
     Microstrip { f: f64, sub: Substrate },
+    /// Kirschning-Jansen 1984 on a pair's solved static modes; `gap` edge
+    /// to edge.
+    Pair { f: f64, sub: Substrate, gap: f64 },
     /// Static: a TEM line.
     Static,
     /// An open structure the models do not cover: static, with a note
@@ -78,35 +113,69 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
         s.dielectric(sl.layer)
             .is_some_and(|d| d.kind == DielectricKind::SolderMask)
     });
-    if g.spacing.is_none() && g.gap.is_none() && covered_by_mask_only {
-        return Dispersion::Microstrip { f, sub };
+    match (g.spacing, g.gap, covered_by_mask_only) {
+        (None, None, true) => Dispersion::Microstrip { f, sub },
+        (Some(gap), None, true) if gap > 0.0 => Dispersion::Pair { f, sub, gap },
+        (_, Some(_), _) => Dispersion::NotModelled {
+            what: "a coplanar line",
+            f,
+            sub,
+        },
+        (spacing, None, _) => Dispersion::NotModelled {
+            what: if spacing.is_some() {
+                "a pair under dielectric"
+            } else {
+                "a microstrip under dielectric"
+            },
+            f,
+            sub,
+        },
     }
-    let what = if g.spacing.is_some() {
-        "a pair"
-    } else if g.gap.is_some() {
-        "a coplanar line"
-    } else {
-        "a microstrip under dielectric"
-    };
-    Dispersion::NotModelled { what, f, sub }
 }
 
 impl Dispersion {
-    /// `n` at the class's frequency: εeff and delay raised by the model;
-    /// the impedance stays the static one (the power-current impedance of
-    /// Jansen-Kirschning 1983 moves it by well under 1 % on board
-    /// substrates below 100 GHz, from memory).
+    /// `n` at the class's frequency: εeff and delay raised by the model
+    /// (both modes of a pair). The impedance stays static (see
+    /// [`Dispersion::z_ratio`]).
     pub(super) fn apply(&self, n: &mut LineNumbers) {
-        let Dispersion::Microstrip { f, sub } = self else {
-            return;
-        };
-        let s = sub;
-        if let Ok((e, _)) = kirschning_jansen_eps_eff(s.w, s.h, s.t, s.eps_r, n.eps_eff, *f) {
-            if e.is_finite() && e >= n.eps_eff {
+        match self {
+            Dispersion::Microstrip { f, sub } => {
+                let Some(e) = sub.eps_single(n.eps_eff, *f) else {
+                    return;
+                };
                 n.eps_eff = e;
                 n.delay = e.sqrt() / C0;
             }
+            Dispersion::Pair { f, sub, gap } => {
+                let Some(p) = n.pair.as_mut() else {
+                    return;
+                };
+                let e0 = (p.eps_eff_even, p.eps_eff_odd);
+                let Ok(((ee, eo), _)) =
+                    kirschning_jansen_coupled_dispersion(sub.w, *gap, sub.h, sub.eps_r, e0, *f)
+                else {
+                    return;
+                };
+                if ee.is_finite() && eo.is_finite() && ee >= e0.0 && eo >= e0.1 {
+                    p.eps_eff_even = ee;
+                    p.eps_eff_odd = eo;
+                    n.eps_eff = eo;
+                    n.delay = eo.sqrt() / C0;
+                }
+            }
+            Dispersion::Static | Dispersion::NotModelled { .. } => {}
         }
+    }
+
+    /// Z(f)/Z(0) of the power-current impedance (Jansen-Kirschning 1983)
+    /// of a single surface microstrip, from its static numbers `before` and
+    /// its dispersive εeff in `after`; 1 for every other line.
+    pub(super) fn z_ratio(&self, before: &LineNumbers, after: &LineNumbers) -> f64 {
+        let Dispersion::Microstrip { f, sub } = self else {
+            return 1.0;
+        };
+        sub.z_single(before.z, before.eps_eff, after.eps_eff, *f)
+            .map_or(1.0, |z| z / before.z)
     }
 
     /// The note for the class, if any.
@@ -121,10 +190,8 @@ impl Dispersion {
                 // The size of the effect this line's numbers leave out: a
                 // single surface microstrip of the same strip and static
                 // εeff.
-                let (s, e0) = (sub, smooth?.eps_eff);
-                let rise = kirschning_jansen_eps_eff(s.w, s.h, s.t, s.eps_r, e0, *f)
-                    .map(|(e, _)| e / e0 - 1.0)
-                    .unwrap_or(0.0);
+                let e0 = smooth?.eps_eff;
+                let rise = sub.eps_single(e0, *f).map_or(0.0, |e| e / e0 - 1.0);
                 (rise > NOTE_BELOW).then(|| {
                     format!(
                         "eps_eff and delay are quasi-static: dispersion is not modelled for {what}; a single surface microstrip on this substrate would read about {:.1} % higher at {:.0} GHz",
@@ -133,14 +200,39 @@ impl Dispersion {
                     )
                 })
             }
-            Dispersion::Microstrip { f, .. } => {
+            Dispersion::Microstrip { f, sub } => {
                 let (a, b) = (smooth?, raised?);
                 let rise = b.eps_eff / a.eps_eff - 1.0;
-                (rise > 1e-4).then(|| {
+                if rise <= 1e-4 {
+                    return None;
+                }
+                let z = sub
+                    .z_single(a.z, a.eps_eff, b.eps_eff, *f)
+                    .filter(|z| (z / a.z - 1.0).abs() > Z_NOTE_BELOW)
+                    .map(|z| {
+                        format!(
+                            "; the power-current impedance at that frequency (Jansen-Kirschning 1983) is {z:.1} ohm, {:+.1} % from the static {:.1} ohm the target is checked with",
+                            100.0 * (z / a.z - 1.0),
+                            a.z
+                        )
+                    })
+                    .unwrap_or_default();
+                Some(format!(
+                    "eps_eff and delay include microstrip dispersion at {:.0} GHz (Kirschning-Jansen 1982 on the solved static value): eps_eff +{:.2} %{z}",
+                    f / 1e9,
+                    100.0 * rise
+                ))
+            }
+            Dispersion::Pair { f, .. } => {
+                let (a, b) = (smooth?.pair?, raised?.pair?);
+                let re = b.eps_eff_even / a.eps_eff_even - 1.0;
+                let ro = b.eps_eff_odd / a.eps_eff_odd - 1.0;
+                (re.max(ro) > 1e-4).then(|| {
                     format!(
-                        "eps_eff and delay include microstrip dispersion at {:.0} GHz (Kirschning-Jansen on the solved static value): eps_eff +{:.2} %",
+                        "eps_eff and delay include coupled-microstrip dispersion at {:.0} GHz (Kirschning-Jansen 1984 on the solved static modes): even +{:.2} %, odd +{:.2} %; the impedances are static",
                         f / 1e9,
-                        100.0 * rise
+                        100.0 * re,
+                        100.0 * ro
                     )
                 })
             }

@@ -9,7 +9,8 @@
 //!   εeff(f) = εeff·Σ_r s_r·ε_r(f)/ε_r (first order in the change, exact for
 //!   one dielectric), and Z with 1/√εeff (the inductance is a vacuum
 //!   quantity and does not move);
-//! - a surface microstrip's dispersion (Kirschning-Jansen) at f;
+//! - a surface microstrip's or pair's dispersion at f (Kirschning-Jansen
+//!   1982/1984 for εeff, Jansen-Kirschning 1983 for a single line's Z);
 //! - dielectric loss from the energy shares and each Df(f); conductor loss
 //!   from Wheeler's rule with Rs(f) and each face's roughness factor at f
 //!   (`loss::line_loss`).
@@ -46,6 +47,20 @@ pub struct SweepPoint {
     /// A pair's even mode: its loss (the rough line's εeff and Z of the
     /// even mode are in `rough`/`smooth`'s `pair`).
     pub even_loss: Option<LossNumbers>,
+    /// Z(f)/Z of the power-current impedance of a surface microstrip
+    /// (Jansen-Kirschning 1983); 1 for the other lines. `smooth.z` and
+    /// `rough.z` are the static impedances (the TDR-comparable ones).
+    pub z_ratio: f64,
+}
+
+impl SweepPoint {
+    /// The numbers that carry the signal (rough when solved) with the
+    /// impedance at f.
+    pub fn at_frequency(&self) -> LineNumbers {
+        let mut n = *self.rough.as_ref().unwrap_or(&self.smooth);
+        n.z *= self.z_ratio;
+        n
+    }
 }
 
 /// Parses `"1GHz..110GHz"` or `"1GHz..110GHz:201"` into its frequencies
@@ -153,6 +168,12 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                     m
                 };
                 let smooth = at(&basis.smooth);
+                let z_ratio = {
+                    let mut before = smooth;
+                    before.eps_eff = basis.smooth.eps_eff * scale;
+                    before.z = basis.smooth.z / scale.sqrt();
+                    disp.z_ratio(&before, &smooth)
+                };
                 // The roughness layers are thinner where the skin depth
                 // is not yet small against the roughness (the Hammerstad
                 // onset): the rough line's shift from the smooth one
@@ -195,6 +216,7 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                 );
                 SweepPoint {
                     frequency: f,
+                    z_ratio,
                     smooth,
                     rough,
                     loss,

@@ -19,6 +19,9 @@ struct PointJson {
     frequency_ghz: f64,
     z_smooth_ohm: f64,
     z_rough_ohm: Option<f64>,
+    /// The signal's impedance at f (power-current impedance of a surface
+    /// microstrip; the static one elsewhere).
+    z_at_frequency_ohm: f64,
     eps_eff_smooth: f64,
     eps_eff_rough: Option<f64>,
     delay_ps_per_mm: f64,
@@ -39,6 +42,7 @@ fn point(p: &SweepPoint) -> PointJson {
         frequency_ghz: round(p.frequency / 1e9, 6),
         z_smooth_ohm: round(p.smooth.z, 3),
         z_rough_ohm: p.rough.as_ref().map(|r| round(r.z, 3)),
+        z_at_frequency_ohm: round(p.at_frequency().z, 3),
         eps_eff_smooth: round(p.smooth.eps_eff, 5),
         eps_eff_rough: p.rough.as_ref().map(|r| round(r.eps_eff, 5)),
         delay_ps_per_mm: round(delay * 1e9, 5),
@@ -84,7 +88,7 @@ pub fn json(files: &[FileSweep<'_>]) -> String {
 /// The sweeps as CSV, one row per file, class and frequency.
 pub fn csv(files: &[FileSweep<'_>]) -> String {
     let mut out = String::from(
-        "file,net_class,frequency_ghz,z_smooth_ohm,z_rough_ohm,eps_eff_smooth,eps_eff_rough,delay_ps_per_mm,conductor_loss_smooth_db_per_mm,conductor_loss_rough_db_per_mm,dielectric_loss_db_per_mm,loss_db_per_mm\n",
+        "file,net_class,frequency_ghz,z_smooth_ohm,z_rough_ohm,z_at_frequency_ohm,eps_eff_smooth,eps_eff_rough,delay_ps_per_mm,conductor_loss_smooth_db_per_mm,conductor_loss_rough_db_per_mm,dielectric_loss_db_per_mm,loss_db_per_mm\n",
     );
     let field = |t: &str| {
         if t.contains([',', '"', '\n']) {
@@ -99,12 +103,13 @@ pub fn csv(files: &[FileSweep<'_>]) -> String {
                 let j = point(p);
                 let opt = |v: Option<f64>| v.map_or(String::new(), |v| v.to_string());
                 out.push_str(&format!(
-                    "{},{},{},{},{},{},{},{},{},{},{},{}\n",
+                    "{},{},{},{},{},{},{},{},{},{},{},{},{}\n",
                     field(name),
                     field(&nc.name),
                     j.frequency_ghz,
                     j.z_smooth_ohm,
                     opt(j.z_rough_ohm),
+                    j.z_at_frequency_ohm,
                     j.eps_eff_smooth,
                     opt(j.eps_eff_rough),
                     j.delay_ps_per_mm,
@@ -130,11 +135,12 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
                 continue;
             };
             out.push_str(&format!(
-                "  {}\n    {:>9}  {:>8}  {:>8}  {:>7}  {:>6}  {:>9}  {:>9}  {:>9}  {:>8}\n",
+                "  {}\n    {:>9}  {:>8}  {:>8}  {:>8}  {:>7}  {:>6}  {:>9}  {:>9}  {:>9}  {:>8}\n",
                 nc.name,
                 "f GHz",
                 "Z smooth",
                 "Z rough",
+                "Z at f",
                 "eps_eff",
                 "ps/mm",
                 "ac dB/mm",
@@ -145,10 +151,11 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
             for p in pts {
                 let j = point(p);
                 out.push_str(&format!(
-                    "    {:>9.3}  {:>8.2}  {:>8}  {:>7.4}  {:>6.3}  {:>9.5}  {:>9.5}  {:>9.5}  {:>8.5}\n",
+                    "    {:>9.3}  {:>8.2}  {:>8}  {:>8.2}  {:>7.4}  {:>6.3}  {:>9.5}  {:>9.5}  {:>9.5}  {:>8.5}\n",
                     j.frequency_ghz,
                     j.z_smooth_ohm,
                     j.z_rough_ohm.map_or("—".into(), |z| format!("{z:.2}")),
+                    j.z_at_frequency_ohm,
                     j.eps_eff_rough.unwrap_or(j.eps_eff_smooth),
                     j.delay_ps_per_mm,
                     j.conductor_loss_smooth_db_per_mm,
@@ -160,7 +167,7 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
         }
     }
     out.push_str(
-        "  Z: Z0, or Z_diff for pairs; eps_eff and delay with the declared (worst-case) roughness; ac: conductor loss (Wheeler's rule), ad: dielectric loss; one solve per class, carried across frequency by each material's causal model\n",
+        "  Z: Z0, or Z_diff for pairs, static (what a TDR coupon measures); Z at f: with a surface microstrip's impedance dispersion (Jansen-Kirschning 1983), used in Touchstone files; eps_eff and delay with the declared (worst-case) roughness; ac: conductor loss (Wheeler's rule), ad: dielectric loss; one solve per class, carried across frequency by each material's causal model\n",
     );
     out
 }
@@ -255,7 +262,7 @@ pub fn touchstone(
         length * 1e3,
     );
     for p in pts {
-        let n = p.rough.as_ref().unwrap_or(&p.smooth);
+        let n = p.at_frequency();
         let s = line_s_params(
             &rlgc(p.frequency, n.z, n.eps_eff, &p.loss),
             p.frequency,

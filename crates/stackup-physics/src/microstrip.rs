@@ -111,7 +111,7 @@ pub fn hammerstad_jensen(
 
 /// Normalised frequency fn = f·h in GHz·mm used by the Kirschning-Jansen
 /// formulas.
-fn f_n(freq: f64, height: f64) -> f64 {
+pub(crate) fn f_n(freq: f64, height: f64) -> f64 {
     freq * 1e-9 * height * 1e3
 }
 
@@ -164,13 +164,20 @@ pub fn kirschning_jansen_eps_eff(
 }
 
 fn kj_eps_eff_raw(u: f64, fnn: f64, eps_r: f64, eps_eff0: f64) -> f64 {
+    let [p1, p2, p3, p4] = kj_p1_to_p4(u, fnn, eps_r);
+    let p = p1 * p2 * ((0.1844 + p3 * p4) * fnn).powf(1.5763);
+    eps_r - (eps_r - eps_eff0) / (1.0 + p)
+}
+
+/// P1…P4 of Kirschning-Jansen 1982, shared with the coupled-line model of
+/// 1984 (`crate::coupled::kirschning_jansen_coupled_dispersion`).
+pub(crate) fn kj_p1_to_p4(u: f64, fnn: f64, eps_r: f64) -> [f64; 4] {
     let p1 = 0.27488 + (0.6315 + 0.525 / (1.0 + 0.0157 * fnn).powi(20)) * u
         - 0.065683 * (-8.7513 * u).exp();
     let p2 = 0.33622 * (1.0 - (-0.03442 * eps_r).exp());
     let p3 = 0.0363 * (-4.6 * u).exp() * (1.0 - (-(fnn / 38.7).powf(4.97)).exp());
     let p4 = 1.0 + 2.751 * (1.0 - (-(eps_r / 15.916).powi(8)).exp());
-    let p = p1 * p2 * ((0.1844 + p3 * p4) * fnn).powf(1.5763);
-    eps_r - (eps_r - eps_eff0) / (1.0 + p)
+    [p1, p2, p3, p4]
 }
 
 /// Frequency-dependent characteristic impedance of microstrip,

@@ -13,6 +13,7 @@
 //! this crate uses 0.267·u^7 (a few ppm); anything larger would be a
 //! transcription error on one side.
 
+use stackup_physics::coupled::kirschning_jansen_coupled_dispersion;
 use stackup_physics::cpw::gcpw;
 use stackup_physics::microstrip::{hammerstad_jensen, microstrip_dispersive};
 
@@ -67,6 +68,33 @@ fn microstrip_matches_scikit_rf() {
         );
     }
     eprintln!("worst relative differences vs scikit-rf (Z, eps, Z(f), eps(f)): {worst:?}");
+}
+
+/// Kirschning-Jansen 1984 coupled dispersion reduces to the single line's
+/// 1982 model when the strips are far apart (its P7 → 1 and P15 → 1); the
+/// single-line values are scikit-rf's. Rows with t = 0 (the coupled model
+/// has no thickness), gap 40 h; tolerance 2e-4 (what is left of the
+/// coupling terms at g = 40).
+#[test]
+fn coupled_dispersion_far_apart_matches_scikit_rf_single_line() {
+    let (_, rows) = table();
+    let mut n = 0;
+    for r in rows.iter().filter(|r| r.kind == "mline") {
+        let [w, _s, h, t, er, f, _z_s, e_s, _z_f, e_f] = r.v[..] else {
+            unreachable!()
+        };
+        if t != 0.0 || f * h > 25e6 {
+            continue;
+        }
+        let ((ee, eo), _) =
+            kirschning_jansen_coupled_dispersion(w, 40.0 * h, h, er, (e_s, e_s), f).unwrap();
+        assert!(
+            rel(ee, e_f) < 2e-4 && rel(eo, e_f) < 2e-4,
+            "w={w} h={h} er={er} f={f}: even {ee}, odd {eo}, scikit-rf single {e_f}"
+        );
+        n += 1;
+    }
+    assert!(n > 50, "{n} rows");
 }
 
 #[test]
