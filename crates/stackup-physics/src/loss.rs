@@ -173,6 +173,64 @@ pub fn conductor_loss_microstrip_hj(
     finite("conductor attenuation", rs * k_rough * ki / (z0 * w))
 }
 
+/// Microstrip conductor attenuation of Pucel, Massé and Hartwig, derived
+/// from Wheeler's incremental-inductance rule on Wheeler's microstrip
+/// impedance formulas, Np/m. With We the effective width,
+/// A = 1 + h/We + (h/(π We))·L:
+///
+/// * W/h ≤ 1/(2π): L = ln(4πW/t) + t/W, We = W + (t/π)(1 + ln(4πW/t)),
+///   αc = Rs/(2π Z0 h)·[1 − (We/4h)²]·A;
+/// * 1/(2π) < W/h ≤ 2: L = ln(2h/t) − t/h, We = W + (t/π)(1 + ln(2h/t)),
+///   αc = Rs/(2π Z0 h)·[1 − (We/4h)²]·A;
+/// * W/h > 2: L and We as above,
+///   αc = Rs/(Z0 h)·[We/h + (We/πh)/(We/2h + 0.94)]·A
+///   / {We/h + (2/π)·ln[2πe(We/2h + 0.94)]}².
+///
+/// Source: R. A. Pucel, D. J. Massé, C. P. Hartwig, "Losses in
+/// microstrip", IEEE T-MTT 16(6), 1968, pp. 342–350, DOI
+/// 10.1109/TMTT.1968.1126691, with its correction in 16(12), p. 1064; as
+/// collected in K. C. Gupta, R. Garg, I. Bahl, P. Bhartia, *Microstrip
+/// Lines and Slotlines*, 2nd ed., Artech House 1996, ch. 2 (the equations
+/// from memory; chapter not checked). `z0` is the line's quasi-static
+/// impedance (with its dielectric), `t` > 0 the strip thickness. The ranges
+/// join with a step of several per cent (the approximations of Wheeler's
+/// formulas differ); a cross-check, not the engine's value.
+///
+/// Errors: any input not finite and > 0.
+pub fn conductor_loss_microstrip_pucel(
+    rs: f64,
+    z0: f64,
+    w: f64,
+    h: f64,
+    t: f64,
+) -> Result<f64, InputError> {
+    require_positive("surface resistance", rs)?;
+    require_positive("impedance", z0)?;
+    require_positive("strip width", w)?;
+    require_positive("substrate height", h)?;
+    require_positive("strip thickness", t)?;
+    let pi = std::f64::consts::PI;
+    let u = w / h;
+    let narrow = u <= 1.0 / (2.0 * pi);
+    let (we, l) = if narrow {
+        let lg = (4.0 * pi * w / t).ln();
+        (w + t / pi * (1.0 + lg), lg + t / w)
+    } else {
+        let lg = (2.0 * h / t).ln();
+        (w + t / pi * (1.0 + lg), lg - t / h)
+    };
+    let a = 1.0 + h / we + h / (pi * we) * l;
+    let ue = we / h;
+    let alpha = if u <= 2.0 {
+        rs / (2.0 * pi * z0 * h) * (1.0 - (ue / 4.0).powi(2)) * a
+    } else {
+        let d = ue / 2.0 + 0.94;
+        let den = ue + 2.0 / pi * (2.0 * pi * std::f64::consts::E * d).ln();
+        rs / (z0 * h) * (ue + ue / pi / d) * a / (den * den)
+    };
+    finite("conductor attenuation", alpha)
+}
+
 /// Stripline conductor attenuation, closed form from Wheeler's rule as given
 /// by Pozar, *Microwave Engineering*, 4th ed., eq. 3.199 (from memory), Np/m:
 ///
