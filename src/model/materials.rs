@@ -10,6 +10,7 @@ use crate::finding::Finding;
 use crate::input::yaml::Node;
 use crate::source::{escape_token, SourceDb};
 use crate::units::Dimension;
+use stackup_physics::roughness::RoughLossModel;
 
 /// Materials and foils read from a library file.
 #[derive(Debug, Clone, Default)]
@@ -520,11 +521,79 @@ pub(super) fn read_roughness(r: &mut Reader<'_>, ptr: &str, required: bool) -> O
         }
         return None;
     }
-    let loss_model = r
-        .string(&format!("{ptr}/loss-model"))
-        .and_then(|k| stackup_physics::roughness::RoughLossModel::from_key(&k))
-        .unwrap_or_default();
+    let loss_model = read_loss_model(r, ptr);
     Some(Roughness { rz, rq, loss_model })
+}
+
+/// `loss-model` at `ptr`, with the sphere data of a fitted Huray model
+/// (`huray-radius`, `huray-surface-ratio`: both or neither, and only with
+/// `loss-model: huray`).
+fn read_loss_model(r: &mut Reader<'_>, ptr: &str) -> RoughLossModel {
+    let named = r
+        .string(&format!("{ptr}/loss-model"))
+        .and_then(|k| RoughLossModel::from_key(&k))
+        .unwrap_or_default();
+    let (pr, ps) = (
+        format!("{ptr}/huray-radius"),
+        format!("{ptr}/huray-surface-ratio"),
+    );
+    let (has_r, has_s) = (r.node(&pr).is_some(), r.node(&ps).is_some());
+    if !has_r && !has_s {
+        return named;
+    }
+    if named != RoughLossModel::CannonballHuray {
+        let at = if has_r { &pr } else { &ps };
+        r.error(
+            at,
+            "sphere data of a Huray model without `loss-model: huray`",
+            "not used by this loss model",
+            Some("add `loss-model: huray`, or remove the huray- keys".into()),
+        );
+        return named;
+    }
+    if has_r != has_s {
+        let (at, missing) = if has_r {
+            (&pr, "huray-surface-ratio")
+        } else {
+            (&ps, "huray-radius")
+        };
+        r.error(
+            at,
+            format!("a fitted Huray model needs both sphere keys; `{missing}` is missing"),
+            "half of the sphere data",
+            Some(format!(
+                "add `{missing}`, or remove this key to use the Cannonball-Huray rule from Rz"
+            )),
+        );
+        return named;
+    }
+    let radius = r.quantity(&pr, Dimension::Roughness, "huray-radius");
+    if let Some(v) = radius.filter(|v| !(0.01e-6..=20e-6).contains(v)) {
+        r.error(
+            &pr,
+            format!(
+                "huray-radius of {} is outside 0.01 to 20 µm; the nodules of copper foil lie well inside this",
+                fmt_len(v)
+            ),
+            "implausible sphere radius",
+            Some("check the unit: sphere radii are usually given in um".into()),
+        );
+        return named;
+    }
+    let ratio = r.number(&ps, "huray-surface-ratio");
+    if let Some(v) = ratio.filter(|v| !(0.0..=50.0).contains(v)) {
+        r.error(
+            &ps,
+            format!("huray-surface-ratio of {v} is outside 0 to 50 (sphere surface per flat area)"),
+            "implausible surface ratio",
+            None,
+        );
+        return named;
+    }
+    match (radius, ratio) {
+        (Some(a), Some(b)) => RoughLossModel::huray(a, b).unwrap_or(named),
+        _ => named,
+    }
 }
 
 /// Read a library file (already parsed and schema-checked).

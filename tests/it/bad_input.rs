@@ -86,6 +86,8 @@ const CASES: &[Case] = &[
     // Names that do not resolve.
     case("material-missing.stackup.yaml", "material `fr5` is not defined", 22, 17, Some("fr5")),
     case("foil-unknown.stackup.yaml", "foil `std-rtf` is not defined", 18, 35, Some("std-rtf")),
+    case("huray-half-sphere-data.stackup.yaml", "a fitted Huray model needs both sphere keys; `huray-surface-ratio` is missing", 14, 19, Some("0.5 um")),
+    case("huray-data-without-huray.stackup.yaml", "sphere data of a Huray model without `loss-model: huray`", 13, 19, Some("0.5 um")),
     case("layer-name-duplicate.stackup.yaml", "layer name `L1` is used twice (first at line 14)", 24, 11, Some("L1")),
     case("netclass-layer-unknown.stackup.yaml", "there is no layer named `L7`", 31, 12, Some("L7")),
     case("netclass-layer-dielectric.stackup.yaml", "layer `core` is a dielectric", 31, 12, Some("core")),

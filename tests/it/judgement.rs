@@ -793,7 +793,8 @@ fn causal_tables_pass_and_inconsistent_ones_warn() {
 /// all carry that foil, the rough conductor loss is the smooth one times
 /// the model's factor at the skin depth (every face group weighted by the
 /// same K): Cannonball-Huray (Simonovich's model, K from Rz) above the
-/// Hammerstad-Bekkadal factor, which saturates at 2.
+/// Hammerstad-Bekkadal factor, which saturates at 2, and Huray with the
+/// sphere radius and surface ratio given.
 #[test]
 fn a_foil_names_its_roughness_loss_model() {
     use stackup_physics::copper::skin_depth;
@@ -810,6 +811,10 @@ fn a_foil_names_its_roughness_loss_model() {
         )
     };
     let delta = skin_depth(20e9, 5.8e7).unwrap();
+    // Huray's snowball factor with one sphere family on a flat base, by
+    // hand: K = 1 + (3/2)·SR/(1 + δ/r + δ²/(2r²)) (Huray 2009).
+    let (r, sr) = (0.5e-6, 3.0);
+    let fitted = 1.0 + 1.5 * sr / (1.0 + delta / r + delta * delta / (2.0 * r * r));
     for (model, want) in [
         ("", hammerstad_factor(2.2e-6, delta).unwrap()),
         (
@@ -819,6 +824,10 @@ fn a_foil_names_its_roughness_loss_model() {
                 .loss_factor(delta)
                 .unwrap(),
         ),
+        (
+            ", loss-model: huray, huray-radius: 0.5 um, huray-surface-ratio: 3",
+            fitted,
+        ),
     ] {
         let t = text(model);
         assert!(t.contains("  ed: {"), "{t}");
@@ -827,10 +836,7 @@ fn a_foil_names_its_roughness_loss_model() {
         let k = l.conductor_rough / l.conductor_smooth;
         assert!((k / want - 1.0).abs() < 1e-6, "{model}: {k} vs {want}");
         assert_eq!(
-            a.classes[0]
-                .notes
-                .iter()
-                .any(|n| n.contains("Cannonball-Huray")),
+            a.classes[0].notes.iter().any(|n| n.contains("Huray")),
             !model.is_empty()
         );
     }

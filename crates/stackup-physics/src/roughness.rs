@@ -790,7 +790,7 @@ mod tests {
 }
 
 /// Which roughness loss factor a copper face's conductor loss uses.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
+#[derive(Debug, Clone, Copy, PartialEq, Default)]
 pub enum RoughLossModel {
     /// [`hammerstad_factor`] from Rq (saturates at 2); the default.
     #[default]
@@ -800,6 +800,11 @@ pub enum RoughLossModel {
     /// The Cannonball-Huray factor ([`HurayModel::cannonball_from_rz`])
     /// from Rz; it does not saturate at 2.
     CannonballHuray,
+    /// The Huray factor of one family of spheres on a flat base
+    /// (A_m/A_f = 1) with a measured or fitted sphere radius (m) and
+    /// surface ratio Σ N·4πr²/A_flat (e.g. from micrographs of the foil,
+    /// as Huray's method takes them); independent of Rz and Rq.
+    Huray { radius: f64, surface_ratio: f64 },
 }
 
 impl RoughLossModel {
@@ -808,7 +813,7 @@ impl RoughLossModel {
         match self {
             RoughLossModel::HammerstadBekkadal => "hammerstad-bekkadal",
             RoughLossModel::Groiss => "groiss",
-            RoughLossModel::CannonballHuray => "huray",
+            RoughLossModel::CannonballHuray | RoughLossModel::Huray { .. } => "huray",
         }
     }
 
@@ -818,10 +823,25 @@ impl RoughLossModel {
             RoughLossModel::HammerstadBekkadal => "Hammerstad-Bekkadal",
             RoughLossModel::Groiss => "Groiss",
             RoughLossModel::CannonballHuray => "Cannonball-Huray",
+            RoughLossModel::Huray { .. } => "Huray (sphere radius and surface ratio given)",
         }
     }
 
-    /// Parses [`Self::key`].
+    /// The fitted Huray model of one sphere family.
+    ///
+    /// Errors: `radius` not finite and > 0; `surface_ratio` negative or
+    /// not finite.
+    pub fn huray(radius: f64, surface_ratio: f64) -> Result<Self, InputError> {
+        require_positive("Huray sphere radius", radius)?;
+        require_non_negative("Huray surface ratio", surface_ratio)?;
+        Ok(RoughLossModel::Huray {
+            radius,
+            surface_ratio,
+        })
+    }
+
+    /// Parses [`Self::key`] (`huray` gives the Cannonball-Huray model from
+    /// Rz; [`Self::huray`] the one with sphere data).
     pub fn from_key(k: &str) -> Option<Self> {
         [
             RoughLossModel::HammerstadBekkadal,
@@ -848,6 +868,47 @@ impl RoughLossModel {
                 }
                 HurayModel::cannonball_from_rz(rz)?.loss_factor(delta)
             }
+            RoughLossModel::Huray {
+                radius,
+                surface_ratio,
+            } => {
+                let count_per_area = surface_ratio / (4.0 * PI * radius * radius);
+                HurayModel::new(
+                    1.0,
+                    vec![SphereFamily {
+                        radius,
+                        count_per_area,
+                    }],
+                )?
+                .loss_factor(delta)
+            }
+        }
+    }
+}
+
+#[cfg(test)]
+mod loss_model_tests {
+    use super::*;
+
+    /// Huray's loss factor for one sphere family on a flat base, by hand:
+    /// K = 1 + (3/2)·SR/(1 + δ/r + δ²/(2r²)). r = 0.5 µm, SR = 3, δ = 0.5 µm:
+    /// 1 + 4.5/2.5 = 2.8; δ → 0: 1 + 1.5·SR = 5.5 (P. G. Huray, *The
+    /// Foundations of Signal Integrity*, Wiley 2009, the snowball model).
+    #[test]
+    fn fitted_huray_factor_by_hand() {
+        let m = RoughLossModel::huray(0.5e-6, 3.0).unwrap();
+        let s = RoughSurface::from_rq(2e-6);
+        assert!((m.factor(&s, 0.5e-6).unwrap() - 2.8).abs() < 1e-12);
+        assert!((m.factor(&s, 1e-12).unwrap() - 5.5).abs() < 1e-5);
+        assert_eq!(m.key(), "huray");
+        for (r, sr) in [
+            (0.0, 1.0),
+            (-1e-6, 1.0),
+            (1e-6, -1.0),
+            (f64::NAN, 1.0),
+            (1e-6, f64::INFINITY),
+        ] {
+            assert!(RoughLossModel::huray(r, sr).is_err(), "{r} {sr}");
         }
     }
 }
