@@ -211,6 +211,32 @@ pub const CLOSED_FORM_MODEL: &str =
 /// a slab's own material (or the resin, mask or core that fills a copper
 /// slot), a block that of the slab it lies in, the air none (Dk `None`,
 /// loss tangent 0).
+/// A factor this close to its ceiling of 2 counts as saturated (common
+/// practice, no source: K_H = 1.9 at Rq/δ ≈ 2.7).
+const SATURATED_K: f64 = 1.9;
+
+/// The faces whose roughness loss factor is a saturating one
+/// (Hammerstad-Bekkadal, Groiss) at its ceiling at `f`, with their factor:
+/// there the rough conductor loss is likely under-stated, since measured
+/// loss of rough foil keeps rising (S. H. Hall, H. L. Heck, *Advanced
+/// Signal Integrity for High-Speed Digital Designs*, Wiley-IEEE Press 2009,
+/// ch. 5).
+pub(super) fn saturated_faces(g: &LineGeometry, f: f64) -> Vec<(FaceRole, f64)> {
+    use stackup_physics::roughness::RoughLossModel as M;
+    let Ok(delta) = stackup_physics::copper::skin_depth(f, SIGMA) else {
+        return Vec::new();
+    };
+    g.faces
+        .iter()
+        .filter(|face| matches!(face.loss_model, M::HammerstadBekkadal | M::Groiss))
+        .filter_map(|face| {
+            let sf = face.roughness.surface(true);
+            let k = face.loss_model.factor(&sf, delta).ok()?;
+            (k >= SATURATED_K).then_some((face.role, k))
+        })
+        .collect()
+}
+
 fn region_materials(
     g: &LineGeometry,
     dk: &BTreeMap<usize, DkAt>,

@@ -463,6 +463,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .filter(|f| f.loss_model != Default::default())
             .map(|f| format!("{} {}", f.role.as_str(), f.loss_model.name()))
             .collect();
+        let saturated = loss::saturated_faces(&g, f);
+        if !saturated.is_empty() {
+            let faces: Vec<String> = saturated
+                .iter()
+                .map(|(role, k)| format!("{} {k:.2}", role.as_str()))
+                .collect();
+            notes.push(format!(
+                "rough conductor loss likely low: the roughness factor is at its ceiling of 2 at {:.0} GHz ({}), while measured loss of rough foil keeps rising; give the foil's nodule data (`loss-model: huray` with `huray-radius` and `huray-surface-ratio`) for a factor without a ceiling",
+                f / 1e9,
+                faces.join(", ")
+            ));
+        }
         if !chosen.is_empty() {
             notes.push(format!(
                 "conductor loss roughness factor as the foils name it: {} (Hammerstad-Bekkadal elsewhere)",

@@ -387,6 +387,7 @@ pub fn geometry(
     let mut trace_slot = None;
     let mut skip_mask: Option<usize> = None;
     let mut mask: Option<MaskGeometry> = None;
+    let mut mask_opened = false;
     for &j in &order {
         match &s.layers[j].kind {
             // A conformal coat (or an opened mask) is not a slab: see `mask`.
@@ -411,6 +412,7 @@ pub fn geometry(
                             Some((n, d)) if d.kind == DielectricKind::SolderMask => {
                                 match (nc.mask_open, d.mask) {
                                     (true, _) => {
+                                        mask_opened = true;
                                         skip_mask = Some(n);
                                         notes.push(format!(
                                             "solder mask `{}` opened over the traces (`mask: open`): no mask in the section",
@@ -466,6 +468,12 @@ pub fn geometry(
                 }
             }
         }
+    }
+    if nc.mask_open && !mask_opened {
+        notes.push(format!(
+            "`mask: open` has no effect: no solder mask covers layer `{}`",
+            s.layers[i].name
+        ));
     }
     let trace_slot = trace_slot
         .ok_or_else(|| SectionError("the trace is not between its reference planes".into()))?;

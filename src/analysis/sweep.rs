@@ -144,13 +144,22 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                         _ => 1.0,
                     }
                 };
-                let scale = match &basis.energy {
-                    Some(sh) => sh
-                        .iter()
-                        .zip(&region_material)
-                        .map(|(s, m)| s * ratio(*m))
-                        .sum(),
-                    None => thickness_scale(g, &dk, &dk0),
+                let scale_of = |shares: Option<&Vec<f64>>| -> f64 {
+                    match shares {
+                        Some(sh) => sh
+                            .iter()
+                            .zip(&region_material)
+                            .map(|(s, m)| s * ratio(*m))
+                            .sum(),
+                        None => thickness_scale(g, &dk, &dk0),
+                    }
+                };
+                // The signal mode's shares (a pair's odd mode), and a
+                // pair's even mode by its own.
+                let scale = scale_of(basis.energy.as_ref());
+                let scale_even = match &basis.energy_even {
+                    Some(sh) => scale_of(Some(sh)),
+                    None => scale,
                 };
                 let disp = dispersion(s, g, f);
                 let at = |n: &LineNumbers| -> LineNumbers {
@@ -158,9 +167,9 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                     m.eps_eff *= scale;
                     m.z /= scale.sqrt();
                     if let Some(p) = m.pair.as_mut() {
-                        p.eps_eff_even *= scale;
+                        p.eps_eff_even *= scale_even;
                         p.eps_eff_odd *= scale;
-                        p.z_even /= scale.sqrt();
+                        p.z_even /= scale_even.sqrt();
                         p.z_odd /= scale.sqrt();
                     }
                     m.delay = m.eps_eff.sqrt() / C0;

@@ -839,5 +839,16 @@ fn a_foil_names_its_roughness_loss_model() {
             a.classes[0].notes.iter().any(|n| n.contains("Huray")),
             !model.is_empty()
         );
+        // Hammerstad-Bekkadal at Rq/δ = 4.7 is at its ceiling (K = 1.98):
+        // the class says its rough loss is likely low; Huray has no ceiling.
+        assert_eq!(
+            a.classes[0]
+                .notes
+                .iter()
+                .any(|n| n.contains("rough conductor loss likely low")),
+            model.is_empty(),
+            "{model}: {:?}",
+            a.classes[0].notes
+        );
     }
 }

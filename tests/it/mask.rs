@@ -125,6 +125,25 @@ fn an_opened_mask_is_no_mask_and_the_coat_converges() {
     );
 }
 
+/// `mask: open` where no mask covers the layer is said, not silently
+/// ignored.
+#[test]
+fn an_open_mask_without_mask_is_noted() {
+    let notes = |mask: Option<&str>| {
+        let loaded = load_text(
+            "t.stackup.yaml",
+            &board(mask, ", mask: open"),
+            &InputLimits::default(),
+        );
+        analyze(&loaded.stackups[0], &Default::default()).classes[0]
+            .notes
+            .clone()
+    };
+    let no_effect = |n: &Vec<String>| n.iter().any(|x| x.contains("`mask: open` has no effect"));
+    assert!(no_effect(&notes(None)));
+    assert!(!no_effect(&notes(Some("thickness: 20 um"))));
+}
+
 /// Coat thicknesses belong to solder mask only, and a planar mask takes
 /// no coat thicknesses.
 #[test]

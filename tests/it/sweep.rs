@@ -28,6 +28,7 @@ fn board(f: f64) -> String {
         .copper("L4", "role: plane, thickness: 17 um, up: {side: treated, foil: ed}")
         .class(&format!("name: ms, structure: microstrip, layer: L1, width: 0.18 mm, max-frequency: {f} GHz"))
         .class(&format!("name: pair, structure: diff-stripline, layer: L3, width: 0.1 mm, spacing: 0.15 mm, max-frequency: {f} GHz"))
+        .class(&format!("name: surface-pair, structure: diff-microstrip, layer: L1, width: 0.15 mm, spacing: 0.15 mm, max-frequency: {f} GHz"))
         .yaml()
 }
 
@@ -40,12 +41,16 @@ fn stackup(text: &str) -> Stackup {
 /// At the class's own frequency the sweep gives the class's numbers; at
 /// another it agrees with a full solve there (Dk, roughness layers and
 /// all solved at that frequency) within 0.3 % in Z and εeff and 3 % in
-/// loss: what carrying one solve across frequency costs.
+/// loss: what carrying one solve across frequency costs. A surface pair's
+/// even mode moves by its own energy shares (0.004 % from the solve at
+/// 2 GHz; with the odd mode's shares it was 0.08 %): held within 0.03 %
+/// there (at 40 GHz, 0.1 %, mostly the dispersion model's substrate Dk
+/// taken at the class frequency).
 #[test]
 fn sweep_matches_the_solves() {
     let s = stackup(&board(10.0));
     let a = analyze(&s, &Default::default());
-    for i in 0..2 {
+    for i in 0..3 {
         let ca = &a.classes[i];
         let p = &sweep(&s, &a, i, &[10e9]).unwrap()[0];
         let sm = ca.smooth.as_ref().unwrap();
@@ -57,7 +62,7 @@ fn sweep_matches_the_solves() {
     for f in [2.0, 40.0] {
         let s2 = stackup(&board(f));
         let a2 = analyze(&s2, &Default::default());
-        for i in 0..2 {
+        for i in 0..3 {
             let p = &sweep(&s, &a, i, &[f * 1e9]).unwrap()[0];
             let ca = &a2.classes[i];
             let sm = ca.smooth.as_ref().unwrap();
@@ -70,6 +75,12 @@ fn sweep_matches_the_solves() {
                 ("Z rough", pr.z, rw.z, 3e-3),
                 ("eps_eff rough", pr.eps_eff, rw.eps_eff, 3e-3),
                 ("loss", p.loss.total_rough(), l.total_rough(), 0.03),
+                (
+                    "even-mode eps_eff smooth",
+                    p.smooth.pair.map_or(1.0, |m| m.eps_eff_even),
+                    sm.pair.map_or(1.0, |m| m.eps_eff_even),
+                    if f < 10.0 { 3e-4 } else { 3e-3 },
+                ),
             ] {
                 assert!(
                     (got / want - 1.0).abs() < tol,
