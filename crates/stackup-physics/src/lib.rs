@@ -18,6 +18,9 @@ pub mod twoport;
 pub mod validity;
 pub mod vias;
 
+// Extraction from measured test coupons.
+pub mod coupon;
+
 // Materials and copper.
 pub mod copper;
 pub mod dispersion;

@@ -3,6 +3,7 @@
 //! against properties that must hold: one test binary, one module per
 //! subject. Each check names its source.
 
+mod coupon_reference;
 mod materials_apparent_dk;
 mod materials_copper;
 mod materials_dispersion;
