@@ -485,7 +485,83 @@ pub fn load(
     }
     problems.extend(earlier);
     loaded.problems = problems;
+    read_coupon_files(&mut loaded, limits, conf);
     loaded
+}
+
+/// Read and parse every coupon's Touchstone files, relative to its
+/// stackup and confined to the project root like libraries. A stackup
+/// with an unreadable or malformed coupon file is not analysed (its
+/// problems say why, at the coupon's entry, with the file's line; no byte
+/// of the file is echoed).
+fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confinement) {
+    let base = conf.cwd().to_path_buf();
+    let mut keep = Vec::new();
+    for mut s in std::mem::take(&mut loaded.stackups) {
+        let path = loaded.db.get(s.file).path.clone();
+        let root = conf.root_of(&path);
+        let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
+        let mut ok = true;
+        for c in &mut s.coupons {
+            for f in &mut c.files {
+                let rel = Path::new(&f.path);
+                let full = dir.join(rel);
+                let read = if rel.is_absolute() {
+                    Err((
+                        "an absolute path; coupon files are relative to the stackup file and stay inside the project".to_string(),
+                        "give the path relative to the stackup file",
+                    ))
+                } else {
+                    refuse(conf, &full, &root)
+                }
+                .and_then(|canonical| {
+                    files::read_regular(&canonical, limits.max_file_bytes)
+                        .map_err(|e| (e.message(), "check the path, its permissions and its size"))
+                })
+                .and_then(|bytes| {
+                    String::from_utf8(bytes).map_err(|_| {
+                        (
+                            "the file is not text (Touchstone files are ASCII)".to_string(),
+                            "export the coupon as a Touchstone .sNp file",
+                        )
+                    })
+                })
+                .and_then(|text| {
+                    let ports = crate::input::touchstone::ports_from_extension(&f.path);
+                    crate::input::touchstone::parse(&text, ports).map_err(|e| {
+                        (
+                            format!("line {}: {}", e.line, e.message),
+                            "fix the file, or export it again from the instrument",
+                        )
+                    })
+                });
+                match read {
+                    Ok(net) => f.network = Some(net),
+                    Err((why, help)) => {
+                        ok = false;
+                        loaded.problems.push(
+                            Finding::new(
+                                INVALID_INPUT,
+                                loaded.db.locate(s.file, &f.pointer),
+                                format!(
+                                    "coupon `{}`: file `{}` ({}) is not used: {why}",
+                                    c.name,
+                                    f.path,
+                                    display_path(&full, &base)
+                                ),
+                            )
+                            .label("coupon file")
+                            .with_help(help),
+                        );
+                    }
+                }
+            }
+        }
+        if ok {
+            keep.push(s);
+        }
+    }
+    loaded.stackups = keep;
 }
 
 /// Load one stackup from text (tests and fuzzing); `name` is its display

@@ -156,6 +156,18 @@ enum Command {
         #[command(flatten)]
         solve: SolveArgs,
     },
+    /// Hold each measured test coupon (`coupons:`) against the stackup's
+    /// model of its structure: effective Dk and loss across frequency, the
+    /// range the data are valid over, the Dk they imply
+    Coupons {
+        /// Stackup files or directories
+        paths: Vec<PathBuf>,
+        /// Output format
+        #[arg(long, value_enum, default_value = "human")]
+        format: Format,
+        #[command(flatten)]
+        solve: SolveArgs,
+    },
     /// Write the fabrication-note report of one stackup: a self-contained
     /// HTML page, a Markdown file and the SVG drawings it links to
     Report {
@@ -303,6 +315,11 @@ fn main() -> ExitCode {
             };
             impedance(paths, format, length, sweep, root, run)
         }
+        Command::Coupons {
+            paths,
+            format,
+            solve,
+        } => coupons(paths, format, root, solve.options(run)),
         Command::Report {
             file,
             output,
@@ -498,14 +515,21 @@ struct SweepArgs {
     touchstone: Option<PathBuf>,
 }
 
-fn impedance(
+/// Load and analyse the stackups of `paths` for the commands that print
+/// numbers (`impedance`, `coupons`): input errors are printed and end the
+/// run with code 2.
+fn load_analysed(
     paths: Vec<PathBuf>,
     format: Format,
-    length: Option<f64>,
-    sweep: Option<SweepArgs>,
     root: Option<PathBuf>,
     run: AnalysisOptions,
-) -> ExitCode {
+) -> Result<
+    (
+        stackup_lint::load::Loaded,
+        Vec<stackup_lint::analysis::Analysis>,
+    ),
+    ExitCode,
+> {
     let paths = if paths.is_empty() {
         vec![PathBuf::from(".")]
     } else {
@@ -513,7 +537,7 @@ fn impedance(
     };
     if matches!(format, Format::Github | Format::Gitlab) {
         eprintln!("error: --format github and gitlab apply to `check` only");
-        return ExitCode::from(2);
+        return Err(ExitCode::from(2));
     }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let opts = CheckOptions {
@@ -525,7 +549,7 @@ fn impedance(
         Ok(x) => x,
         Err(e) => {
             eprintln!("error: {e}");
-            return ExitCode::from(2);
+            return Err(ExitCode::from(2));
         }
     };
     if !loaded.problems.is_empty() {
@@ -548,17 +572,32 @@ fn impedance(
         );
         let _ = print(&text);
         eprintln!("error: the stackups have input errors; no numbers printed");
-        return ExitCode::from(2);
+        return Err(ExitCode::from(2));
     }
     if loaded.stackups.is_empty() {
         eprintln!("error: no stackup file found in the paths given");
-        return ExitCode::from(2);
+        return Err(ExitCode::from(2));
     }
     let analyses: Vec<_> = loaded
         .stackups
         .iter()
         .map(|s| stackup_lint::analysis::analyze(s, &opts.analysis))
         .collect();
+    Ok((loaded, analyses))
+}
+
+fn impedance(
+    paths: Vec<PathBuf>,
+    format: Format,
+    length: Option<f64>,
+    sweep: Option<SweepArgs>,
+    root: Option<PathBuf>,
+    run: AnalysisOptions,
+) -> ExitCode {
+    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+        Ok(x) => x,
+        Err(code) => return code,
+    };
     let items: Vec<(
         &str,
         &stackup_lint::model::Stackup,
@@ -584,6 +623,31 @@ fn impedance(
                 .collect();
             output::escape::controls_keep_lines(&text.join("\n")).into_owned()
         }
+    };
+    print_or(&text, ExitCode::SUCCESS)
+}
+
+/// `coupons`: every measured coupon against the stackup's model.
+fn coupons(
+    paths: Vec<PathBuf>,
+    format: Format,
+    root: Option<PathBuf>,
+    run: AnalysisOptions,
+) -> ExitCode {
+    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+        Ok(x) => x,
+        Err(code) => return code,
+    };
+    let items: Vec<output::coupons::FileCoupons> = loaded
+        .stackups
+        .iter()
+        .zip(&analyses)
+        .map(|(s, a)| (loaded.db.get(s.file).display.as_str(), s, a))
+        .collect();
+    // Names come from the stackups: nothing raw reaches the terminal.
+    let text = match format {
+        Format::Json => output::escape::json_text(&output::coupons::json(&items)).into_owned(),
+        _ => output::escape::controls_keep_lines(&output::coupons::table(&items)).into_owned(),
     };
     print_or(&text, ExitCode::SUCCESS)
 }

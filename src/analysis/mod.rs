@@ -12,6 +12,7 @@
 
 pub mod broadside;
 pub mod cache;
+pub mod coupons;
 pub mod delay;
 pub mod dielectrics;
 mod dispersion;
@@ -232,6 +233,9 @@ pub struct Analysis {
     /// The through-via stubs of each net class, same order as the classes
     /// (`None` on an outer layer).
     pub via_stubs: Vec<Option<vias::StubResonance>>,
+    /// The measured coupons against the model, same order as
+    /// `Stackup::coupons`.
+    pub coupons: Vec<coupons::CouponAnalysis>,
 }
 
 /// The project's field-solver model name, as reported.
@@ -603,10 +607,12 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         groups,
         weave: Vec::new(),
         via_stubs: Vec::new(),
+        coupons: Vec::new(),
     };
     a.plies = dielectrics::plies(s, &a);
     a.weave = weave::weave_skews(s, &a.classes);
     a.via_stubs = vias::stubs(s, &a);
+    a.coupons = coupons::analyze_coupons(s, &a);
     a
 }
 

@@ -23,7 +23,8 @@
 
 use std::collections::BTreeMap;
 
-use stackup_physics::consts::C0;
+use stackup_physics::consts::{C0, NP_TO_DB};
+use stackup_physics::twoport::Rlgc;
 
 use super::dispersion::dispersion;
 use super::loss::{even_mode_loss, line_loss};
@@ -96,23 +97,27 @@ pub fn parse_sweep(text: &str) -> Result<Vec<f64>, String> {
         .collect())
 }
 
-/// The numbers of class `i` of `s` at each of `freqs`; `None` when the
-/// class was not solved.
-pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<SweepPoint>> {
-    let ca = a.classes.get(i)?;
-    let g = ca.geometry.as_ref().ok()?;
-    let basis = ca.basis.as_ref()?;
+/// The dielectric layer of each region of `g`'s smooth section, in the
+/// order of its energy shares (`None` for air).
+pub(super) fn region_layers(g: &LineGeometry) -> Vec<Option<usize>> {
     let (cs, owners) = cross_section_owned(g, None);
-    // The material of each dielectric region of the smooth section.
-    let region_material: Vec<Option<usize>> = cs
-        .regions()
+    cs.regions()
         .into_iter()
         .map(|r| match r {
             Region::Layer(k) => g.slabs.get(k).and_then(|sl| sl.material),
             Region::Block(b) => owners.get(b).copied().flatten(),
             Region::Air => None,
         })
-        .collect();
+        .collect()
+}
+
+/// The numbers of class `i` of `s` at each of `freqs`; `None` when the
+/// class was not solved.
+pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<SweepPoint>> {
+    let ca = a.classes.get(i)?;
+    let g = ca.geometry.as_ref().ok()?;
+    let basis = ca.basis.as_ref()?;
+    let region_material = region_layers(g);
     let materials: Vec<usize> = g
         .slabs
         .iter()
@@ -255,5 +260,21 @@ fn thickness_scale(
         a / b
     } else {
         1.0
+    }
+}
+
+/// The per-unit-length parameters of one mode at frequency `f` from its
+/// impedance per line `z`, εeff and loss (dB/m; the declared, worst-case
+/// rough copper): L and C from Z and εeff, R from the conductor loss with
+/// the equal internal inductance R/ω of a skin-effect conductor (which
+/// keeps the model causal), G from the dielectric loss.
+pub fn rlgc(f: f64, z: f64, eps_eff: f64, loss: &LossNumbers) -> Rlgc {
+    let w = 2.0 * std::f64::consts::PI * f;
+    let r = 2.0 * z * loss.conductor_rough / NP_TO_DB;
+    Rlgc {
+        r,
+        l: z * eps_eff.sqrt() / C0 + r / w,
+        g: 2.0 * (loss.dielectric / NP_TO_DB) / z,
+        c: eps_eff.sqrt() / (z * C0),
     }
 }

@@ -66,10 +66,12 @@ pub fn build_stackup(
         foils,
         net_classes: Vec::new(),
         matched_groups: Vec::new(),
+        coupons: Vec::new(),
         settings: Settings::default(),
     };
     stackup.net_classes = read_net_classes(&mut r, &stackup);
     stackup.matched_groups = read_groups(&mut r, &stackup);
+    stackup.coupons = super::coupons::read_coupons(&mut r, &stackup);
     stackup.settings = read_settings(&mut r, &stackup, rules);
     if r.errors.is_empty() {
         Ok(stackup)

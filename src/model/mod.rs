@@ -4,6 +4,7 @@
 //! findings at it. Built from the positioned YAML tree by [`build`].
 
 mod build;
+mod coupons;
 mod derive;
 mod layers;
 mod materials;
@@ -12,6 +13,7 @@ mod reader;
 mod settings;
 
 pub use build::{build_stackup, HARMONIC_FACTOR};
+pub use coupons::{Coupon, CouponFile, CouponKind};
 pub use derive::default_fill;
 pub use materials::{
     load_library, LibraryData, FIT_DF_ABSOLUTE, FIT_DF_RELATIVE, FIT_DK_ABSOLUTE, FIT_DK_RELATIVE,
@@ -34,6 +36,8 @@ pub struct Stackup {
     pub foils: BTreeMap<String, Foil>,
     pub net_classes: Vec<NetClass>,
     pub matched_groups: Vec<MatchedGroup>,
+    /// Measured test coupons (their files parsed by the loader).
+    pub coupons: Vec<Coupon>,
     pub settings: Settings,
 }
 

@@ -3,11 +3,9 @@
 
 use serde::Serialize;
 
-use stackup_physics::consts::{C0, NP_TO_DB};
-use stackup_physics::twoport::{line_s_params, Rlgc};
+use stackup_physics::twoport::line_s_params;
 
-use crate::analysis::sweep::SweepPoint;
-use crate::analysis::LossNumbers;
+use crate::analysis::sweep::{rlgc, SweepPoint};
 use crate::model::Stackup;
 
 /// One file's sweeps: its name as shown, the stackup, and per net class
@@ -228,22 +226,6 @@ pub fn touchstone_pair(
         }
     }
     Ok(out)
-}
-
-/// The per-unit-length parameters of one mode at frequency `f` from its
-/// impedance per line `z`, εeff and loss (dB/m; the declared, worst-case
-/// rough copper): L and C from Z and εeff, R from the conductor loss with
-/// the equal internal inductance R/ω of a skin-effect conductor (which
-/// keeps the model causal), G from the dielectric loss.
-fn rlgc(f: f64, z: f64, eps_eff: f64, loss: &LossNumbers) -> Rlgc {
-    let w = 2.0 * std::f64::consts::PI * f;
-    let r = 2.0 * z * loss.conductor_rough / NP_TO_DB;
-    Rlgc {
-        r,
-        l: z * eps_eff.sqrt() / C0 + r / w,
-        g: 2.0 * (loss.dielectric / NP_TO_DB) / z,
-        c: eps_eff.sqrt() / (z * C0),
-    }
 }
 
 /// A Touchstone 1.1 two-port of `length` metres of a single line, 50 Ω

@@ -9,6 +9,7 @@
 mod board_thickness;
 mod broadside;
 mod copper_contact_dk;
+mod coupon_disagrees;
 mod frequency_validity;
 mod glass_weave_skew;
 mod impedance_off_target;
@@ -103,6 +104,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &glass_weave_skew::GlassWeaveSkew,
         &via_stub_resonance::ViaStubResonance,
         &material_data_not_causal::MaterialDataNotCausal,
+        &coupon_disagrees::CouponDisagrees,
     ]
 }
 

@@ -24,6 +24,7 @@ fn copy_board(edit: impl Fn(&str) -> String) -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
     let text = std::fs::read_to_string(root().join(BOARD)).unwrap();
     std::fs::write(dir.path().join("board.stackup.yaml"), edit(&text)).unwrap();
+    crate::common::copy_line_card_coupons(dir.path());
     dir
 }
 

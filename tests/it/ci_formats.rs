@@ -160,6 +160,7 @@ fn github_escapes_the_file_property() {
         dir.join("board.stackup.yaml"),
     )
     .unwrap();
+    crate::common::copy_line_card_coupons(&dir);
     let (code, out, _) = run_in(tmp.path(), &["check", ".", "--format", "github"]);
     assert_eq!(code, Some(1));
     assert!(!out.is_empty());
@@ -180,6 +181,7 @@ fn suppressed_copy(dir: &Path) -> String {
         1,
     );
     std::fs::write(dir.join("board.stackup.yaml"), text).unwrap();
+    crate::common::copy_line_card_coupons(dir);
     "board.stackup.yaml".to_string()
 }
 
@@ -304,6 +306,7 @@ fn gitlab_fingerprints_unique_and_stable() {
         format!("# reviewed\n{text}"),
     )
     .unwrap();
+    crate::common::copy_line_card_coupons(tmp.path());
     let (_, moved) = gitlab(tmp.path(), "board.stackup.yaml");
     let (_, orig) = gitlab(root, BOARD);
     assert_eq!(moved.len(), orig.len());
@@ -319,6 +322,7 @@ fn gitlab_fingerprints_unique_and_stable() {
     let same = tempfile::tempdir().unwrap();
     std::fs::create_dir_all(same.path().join("examples/line-card-10l")).unwrap();
     std::fs::write(same.path().join(BOARD), format!("# reviewed\n{text}")).unwrap();
+    crate::common::copy_line_card_coupons(&same.path().join("examples/line-card-10l"));
     let (_, shifted) = gitlab(same.path(), BOARD);
     assert_eq!(fp(&shifted), fp(&orig), "fingerprints ignore moved lines");
 }

@@ -12,6 +12,7 @@ mod cache;
 mod cache_trust;
 mod ci_formats;
 mod core_rules;
+mod coupons;
 mod determinism;
 mod examples;
 mod fuzz_regressions;

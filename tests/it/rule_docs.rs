@@ -21,8 +21,43 @@ fn blocks<'a>(doc: &'a str, label: &str) -> Vec<&'a str> {
     out
 }
 
+/// Load a page example: from text, or, when it names measured coupons,
+/// as a file in a scratch project beside a copy of the demo boards'
+/// coupon files (`coupons/<name>`), so that the loader reads them.
+fn load_example(text: &str) -> stackup_lint::load::Loaded {
+    if !text.contains("\ncoupons:") {
+        return load_text("example.stackup.yaml", text, &InputLimits::default());
+    }
+    let dir = tempfile::tempdir().unwrap();
+    let coupons = dir.path().join("coupons");
+    std::fs::create_dir(&coupons).unwrap();
+    let examples = concat!(env!("CARGO_MANIFEST_DIR"), "/examples");
+    for board in std::fs::read_dir(examples).unwrap() {
+        let from = board.unwrap().path().join("coupons");
+        for f in std::fs::read_dir(&from).into_iter().flatten() {
+            let f = f.unwrap().path();
+            std::fs::copy(&f, coupons.join(f.file_name().unwrap())).unwrap();
+        }
+    }
+    let file = dir.path().join("example.stackup.yaml");
+    std::fs::write(&file, text).unwrap();
+    let opts = stackup_lint::engine::CheckOptions {
+        root: Some(dir.path().to_path_buf()),
+        ..Default::default()
+    };
+    let (mut loaded, _, _) =
+        engine::load_paths(std::slice::from_ref(&file), dir.path(), &opts).unwrap();
+    // Show the example under the same name as the text-only ones.
+    for f in loaded.db.files.iter_mut() {
+        if f.path == file {
+            f.display = "example.stackup.yaml".into();
+        }
+    }
+    loaded
+}
+
 fn rules_fired(text: &str) -> Vec<&'static str> {
-    let loaded = load_text("example.stackup.yaml", text, &InputLimits::default());
+    let loaded = load_example(text);
     let outcome = engine::lint(loaded, &Default::default());
     outcome
         .findings
@@ -84,7 +119,7 @@ fn fires_examples_render_as_reviewed() {
     use stackup_lint::output::human::{render, HumanOptions};
     for m in rules::all_meta() {
         for (i, text) in blocks(m.doc, "fires").into_iter().enumerate() {
-            let loaded = load_text("example.stackup.yaml", text, &InputLimits::default());
+            let loaded = load_example(text);
             let outcome = engine::lint(loaded, &Default::default());
             let out = render(
                 &outcome.findings,

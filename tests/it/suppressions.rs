@@ -34,6 +34,7 @@ fn board_with(edits: &[(&str, &str)]) -> (tempfile::TempDir, Vec<usize>) {
         lines.join("\n") + "\n",
     )
     .unwrap();
+    crate::common::copy_line_card_coupons(dir.path());
     (dir, numbers)
 }
 

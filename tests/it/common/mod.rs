@@ -12,6 +12,18 @@ pub fn root() -> &'static Path {
     Path::new(env!("CARGO_MANIFEST_DIR"))
 }
 
+/// Copies the line card's coupon files (`examples/line-card-10l/coupons`)
+/// into `dir/coupons`, beside a copy of its board written to `dir`.
+pub fn copy_line_card_coupons(dir: &Path) {
+    let from = root().join("examples/line-card-10l/coupons");
+    let to = dir.join("coupons");
+    std::fs::create_dir_all(&to).unwrap();
+    for f in std::fs::read_dir(from).unwrap() {
+        let f = f.unwrap().path();
+        std::fs::copy(&f, to.join(f.file_name().unwrap())).unwrap();
+    }
+}
+
 /// The binary, to be run in `dir` with colour off.
 pub fn command(dir: &Path) -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_stackup-lint"));
