@@ -50,6 +50,17 @@ pub const MAX_EPS_JUMP: f64 = 0.02;
 /// routing and etch-back of the launches, about ±0.05 mm).
 pub const LENGTH_TOLERANCE: f64 = 0.05e-3;
 
+/// Largest median difference of measured and modelled εeff for a coupon
+/// to agree with the stackup (the default of `coupon-disagrees-with-stackup`;
+/// 1 % in εeff is 0.5 % in delay and about 0.5 % in impedance, the size of
+/// a typical Dk tolerance's effect: common practice, no source).
+pub const AGREE_EPS: f64 = 0.01;
+
+/// Largest median difference of measured and modelled loss for a coupon to
+/// agree (loss models of rough copper and Df data are rarely better:
+/// common practice, no source).
+pub const AGREE_LOSS: f64 = 0.10;
+
 /// One frequency of a coupon, measured against modelled.
 #[derive(Debug, Clone, PartialEq)]
 pub struct CouponPoint {
@@ -105,6 +116,19 @@ pub struct CouponAnalysis {
     pub resonances: Vec<Resonance>,
     /// The extraction could not be made (why).
     pub failure: Option<String>,
+}
+
+impl CouponAnalysis {
+    /// The material a coupon that agrees with the stackup validates, and
+    /// up to which frequency: the one holding most of the line's field,
+    /// to the top of the valid range.
+    pub fn validates(&self) -> Option<(&str, f64)> {
+        let (_, hi) = self.range?;
+        let eps_ok = self.eps_difference?.abs() <= AGREE_EPS;
+        let loss_ok = self.loss_difference.is_none_or(|d| d.abs() <= AGREE_LOSS);
+        let im = self.implied_dk.as_ref()?;
+        (eps_ok && loss_ok).then_some((im.material.as_str(), hi))
+    }
 }
 
 /// Every coupon of `s`, in order.

@@ -2,6 +2,7 @@
 //! permittivity or loss differs from the stackup's model of the same
 //! structure by more than a margin, inside the range the data are valid.
 
+use crate::analysis::coupons::{AGREE_EPS, AGREE_LOSS};
 use crate::finding::{key_step, Finding, Severity};
 use crate::model::{OptionKind, OptionSpec};
 use crate::rules::{Rule, RuleContext, RuleMeta};
@@ -21,19 +22,14 @@ static OPTIONS: [OptionSpec; 2] = [
     OptionSpec {
         key: "eps-margin",
         kind: OptionKind::Quantity(Dimension::Fraction),
-        // 1 % in εeff is 0.5 % in delay and about 0.5 % in impedance: the
-        // size of a typical Dk tolerance's effect (common practice, no
-        // source).
-        default: 0.01,
+        default: AGREE_EPS,
         default_text: "1 %",
         doc: "largest median difference of measured and modelled eps_eff inside the valid range",
     },
     OptionSpec {
         key: "loss-margin",
         kind: OptionKind::Quantity(Dimension::Fraction),
-        // Loss models of rough copper and Df data are rarely better than
-        // this (common practice, no source).
-        default: 0.10,
+        default: AGREE_LOSS,
         default_text: "10 %",
         doc: "largest median difference of measured and modelled loss inside the valid range",
     },

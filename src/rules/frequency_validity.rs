@@ -50,6 +50,14 @@ impl Rule for FrequencyBeyondValidity {
         // frequency of a data rate; above Nyquist only the harmonics are
         // extrapolated, a note).
         let mut by_material: BTreeMap<String, Vec<(String, f64, bool)>> = BTreeMap::new();
+        // A measured coupon that agrees with the stackup validates the
+        // material holding most of its line's field up to the top of its
+        // valid range.
+        let mut by_coupon: BTreeMap<&str, f64> = BTreeMap::new();
+        for (m, hi) in a.coupons.iter().filter_map(|c| c.validates()) {
+            let e = by_coupon.entry(m).or_insert(hi);
+            *e = e.max(hi);
+        }
         for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
             let Some(fmax) = nc.max_frequency else {
                 continue;
@@ -70,9 +78,12 @@ impl Rule for FrequencyBeyondValidity {
                 let Some(m) = a.materials.get(&d.material) else {
                     continue;
                 };
-                if fmax > m.valid_to * (1.0 + 1e-9) {
+                let valid_to = by_coupon
+                    .get(d.material.as_str())
+                    .map_or(m.valid_to, |&c| c.max(m.valid_to));
+                if fmax > valid_to * (1.0 + 1e-9) {
                     let needed = nc.max_frequency_given
-                        || nc.nyquist.is_none_or(|n| n > m.valid_to * (1.0 + 1e-9));
+                        || nc.nyquist.is_none_or(|n| n > valid_to * (1.0 + 1e-9));
                     let e = by_material.entry(d.material.clone()).or_default();
                     if !e.iter().any(|(n, _, _)| n == &nc.name) {
                         e.push((nc.name.clone(), fmax, needed));

@@ -86,6 +86,22 @@ const CASES: &[Case] = &[
     // Names that do not resolve.
     case("material-missing.stackup.yaml", "material `fr5` is not defined", 22, 17, Some("fr5")),
     case("foil-unknown.stackup.yaml", "foil `std-rtf` is not defined", 18, 35, Some("std-rtf")),
+    // Measured coupons: every bad Touchstone file is named at the stackup's
+    // entry for it, with the file's line, and nothing is analysed.
+    case("coupon-one-port-in-s2p.stackup.yaml", "line 3: frequency point 1 (line 3) holds 3 values, expected 9", 38, 13, Some("coupons/one-port-in-s2p.s2p")),
+    case("coupon-frequency-falls.stackup.yaml", "line 5: frequency '2.0' GHz (line 5) is below the previous point's '3.0' GHz", 38, 13, Some("coupons/frequency-falls.s2p")),
+    case("coupon-nan-value.stackup.yaml", "line 4: real part 'nan' is not a finite number", 38, 13, Some("coupons/nan-value.s2p")),
+    case("coupon-truncated.stackup.yaml", "line 5: frequency point 3 (line 5) holds 4 values, expected 9", 38, 13, Some("coupons/truncated.s2p")),
+    case("coupon-y-parameters.stackup.yaml", "line 1: the option line declares Y parameters (admittance): only S parameters are read", 38, 13, Some("coupons/y-parameters.s2p")),
+    case("coupon-data-before-option-line.stackup.yaml", "line 1: data before the option line", 38, 13, Some("coupons/data-before-option-line.s2p")),
+    case("coupon-v2-count-mismatch.stackup.yaml", "line 9: [Number of Frequencies] is 3 (line 5) but the network data holds 2 frequency points", 38, 13, Some("coupons/v2-count-mismatch.s2p")),
+    case("coupon-v2-unknown-keyword.stackup.yaml", "line 4: unknown keyword [Colour]", 38, 13, Some("coupons/v2-unknown-keyword.s2p")),
+    case("coupon-negative-magnitude.stackup.yaml", "line 2: magnitude '-0.9' is negative", 38, 13, Some("coupons/negative-magnitude.s2p")),
+    case("coupon-empty.stackup.yaml", "line 1: empty file: no option line and no data", 38, 13, Some("coupons/empty.s2p")),
+    case("coupon-not-text.stackup.yaml", "the file is not text (Touchstone files are ASCII)", 38, 13, Some("coupons/not-text.s2p")),
+    case("coupon-missing.stackup.yaml", "file `coupons/no-such-file.s2p`", 38, 13, Some("coupons/no-such-file.s2p")),
+    case("coupon-outside-project.stackup.yaml", "the path resolves outside the project root", 38, 13, Some("../../../../../../../etc/hostname")),
+    case("coupon-absolute-path.stackup.yaml", "an absolute path; coupon files are relative to the stackup file", 38, 13, Some("/etc/hostname.s2p")),
     case("huray-half-sphere-data.stackup.yaml", "a fitted Huray model needs both sphere keys; `huray-surface-ratio` is missing", 14, 19, Some("0.5 um")),
     case("huray-data-without-huray.stackup.yaml", "sphere data of a Huray model without `loss-model: huray`", 13, 19, Some("0.5 um")),
     case("layer-name-duplicate.stackup.yaml", "layer name `L1` is used twice (first at line 14)", 24, 11, Some("L1")),

@@ -124,3 +124,51 @@ fn the_table_says_what_was_found() {
         assert!(out.contains(want), "{want}\n{out}");
     }
 }
+
+/// A coupon that agrees validates the material that holds most of its
+/// line's field up to the top of its valid range: with the sensor's
+/// PTFE/ceramic data stated only to 5 GHz, its 12 GHz and 24 GHz classes
+/// are beyond the data; the coupon (valid to about 37 GHz) covers both.
+#[test]
+fn an_agreeing_coupon_extends_the_validated_range() {
+    let copy = |with_coupons: bool| {
+        let dir = tempfile::tempdir().unwrap();
+        let ex = dir.path().join("examples");
+        for sub in ["radar-sensor-6l", "radar-sensor-6l/coupons", "materials"] {
+            std::fs::create_dir_all(ex.join(sub)).unwrap();
+            for f in std::fs::read_dir(root().join("examples").join(sub)).unwrap() {
+                let f = f.unwrap().path();
+                if f.is_file() {
+                    std::fs::copy(&f, ex.join(sub).join(f.file_name().unwrap())).unwrap();
+                }
+            }
+        }
+        let lib = ex.join("materials/demo-generic.materials.yaml");
+        let text = std::fs::read_to_string(&lib).unwrap();
+        let text = text.replacen("    valid-to: 40 GHz\n", "    valid-to: 5 GHz\n", 1);
+        std::fs::write(&lib, text).unwrap();
+        let board = ex.join("radar-sensor-6l/board.stackup.yaml");
+        let text = std::fs::read_to_string(&board).unwrap();
+        if !with_coupons {
+            let (head, tail) = text.split_once("\ncoupons:\n").unwrap();
+            let rest = &tail[tail.find("\nsettings:").unwrap()..];
+            std::fs::write(&board, format!("{head}{rest}")).unwrap();
+        }
+        let (_, out, err) = run_in(
+            dir.path(),
+            &["check", "examples", "--format", "json", "--root", "."],
+        );
+        let v: Value = serde_json::from_str(&out).unwrap_or_else(|_| panic!("{err}"));
+        v["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| {
+                f["rule"] == "frequency-beyond-validity"
+                    && f["message"].as_str().unwrap().contains("ptfe-ceramic-3.0")
+            })
+            .count()
+    };
+    assert!(copy(false) > 0);
+    assert_eq!(copy(true), 0);
+}
