@@ -43,6 +43,7 @@ fn line_card_report_files_and_markdown() {
     assert_eq!(
         names(&out),
         [
+            "board-coupon-cal-line.svg",
             "board-cross-section-to-scale.svg",
             "board-cross-section.svg",
             "board-loss.svg",
@@ -100,9 +101,10 @@ fn drawings_are_well_formed_and_the_page_is_self_contained() {
         );
     }
     let html = std::fs::read_to_string(out.join("board.html")).unwrap();
-    // Both cross-sections, the loss plot and three material plots, inline.
+    // Both cross-sections, the loss plot, three material plots and the
+    // coupon's plot, inline.
     let svgs = inline_svgs(&html);
-    assert_eq!(svgs.len(), 6);
+    assert_eq!(svgs.len(), 7);
     for svg in svgs {
         roxmltree::Document::parse(svg).expect("inline svg is well-formed");
     }

@@ -88,14 +88,18 @@ pub fn document(
     Document {
         title,
         source: display.to_string(),
-        sections: vec![
-            summary_section(s, findings),
-            cross_section_section(s, a, &stem, &rows, opts),
-            impedance_section(s, a, opts, &stem),
-            materials_section(s, a, &stem),
-            skew_section(s, a),
-            findings_section(findings, db),
-        ],
+        sections: [
+            Some(summary_section(s, findings)),
+            Some(cross_section_section(s, a, &stem, &rows, opts)),
+            Some(impedance_section(s, a, opts, &stem)),
+            Some(materials_section(s, a, &stem)),
+            coupons_section(s, a, &stem),
+            Some(skew_section(s, a)),
+            Some(findings_section(findings, db)),
+        ]
+        .into_iter()
+        .flatten()
+        .collect(),
     }
 }
 

@@ -5,6 +5,7 @@
 
 use plotters::prelude::*;
 
+use crate::analysis::coupons::CouponPoint;
 use crate::analysis::materials::MaterialModel;
 use crate::model::Material;
 
@@ -216,6 +217,97 @@ pub fn loss_plot(series: &[(String, Vec<(f64, f64)>)]) -> Result<String, String>
             .position(SeriesLabelPosition::UpperLeft)
             .draw()
             .map_err(|err| format!("plot: {err}"))?;
+        root.present().map_err(|err| format!("plot: {err}"))?;
+    }
+    Ok(buf)
+}
+
+/// A measured coupon against the model: εeff (upper panel) and loss per
+/// 100 mm (lower panel) against frequency, measured as points and the model
+/// as a line, the valid range shaded; only points inside it are drawn.
+pub fn coupon_plot(pts: &[CouponPoint], range: Option<(f64, f64)>) -> Result<String, String> {
+    let f1 = pts.iter().map(|p| p.frequency).fold(0.0, f64::max);
+    if pts.is_empty() || !(f1 > 0.0 && f1.is_finite()) {
+        return Err("no coupon points to draw".into());
+    }
+    let fold = |vals: &mut dyn Iterator<Item = f64>| {
+        vals.filter(|v| v.is_finite())
+            .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+                (a.min(v), b.max(v))
+            })
+    };
+    // Only the valid points set the scales: the left-out ones may be wild.
+    let valid = || pts.iter().filter(|p| p.in_range);
+    let (e0, e1) = fold(&mut valid().flat_map(|p| [p.eps_measured, p.eps_model]));
+    let (e0, e1) = padded(e0, e1, 0.02);
+    let l1 =
+        fold(&mut valid().flat_map(|p| [p.loss_measured.unwrap_or(p.loss_model), p.loss_model])).1
+            * 0.1;
+    if ![e0, e1, l1].iter().all(|v| v.is_finite()) || e1 <= e0 {
+        return Err("no drawable range".into());
+    }
+    let l1 = if l1 > 0.0 { l1 * 1.1 } else { 1.0 };
+    let mut buf = String::new();
+    {
+        let root = SVGBackend::with_string(&mut buf, SIZE).into_drawing_area();
+        let e = |err: DrawingAreaErrorKind<_>| format!("plot: {err}");
+        root.fill(&WHITE).map_err(e)?;
+        let (upper, lower) = root.split_vertically(SIZE.1 / 2);
+        for (k, area) in [upper, lower].iter().enumerate() {
+            let (y0, y1, name) = if k == 0 {
+                (e0, e1, "eps_eff")
+            } else {
+                (0.0, l1, "dB per 100 mm")
+            };
+            let mut chart = ChartBuilder::on(area)
+                .margin(8)
+                .x_label_area_size(30)
+                .y_label_area_size(62)
+                .build_cartesian_2d(0.0..f1, y0..y1)
+                .map_err(|err| format!("plot: {err}"))?;
+            chart
+                .configure_mesh()
+                .x_desc("frequency, GHz")
+                .y_desc(name)
+                .x_label_formatter(&ghz_label)
+                .y_label_formatter(&|v| format!("{v:.2}"))
+                .light_line_style(WHITE.mix(0.0))
+                .bold_line_style(RGBColor(0xe2, 0xe4, 0xe6))
+                .draw()
+                .map_err(|err| format!("plot: {err}"))?;
+            if let Some((v0, v1)) = range {
+                chart
+                    .draw_series(std::iter::once(Rectangle::new(
+                        [(v0, y0), (v1, y1)],
+                        VALID.filled(),
+                    )))
+                    .map_err(|err| format!("plot: {err}"))?;
+            }
+            let model = |p: &CouponPoint| {
+                if k == 0 {
+                    p.eps_model
+                } else {
+                    p.loss_model * 0.1
+                }
+            };
+            chart
+                .draw_series(LineSeries::new(
+                    pts.iter().map(|p| (p.frequency, model(p))),
+                    MODEL.stroke_width(2),
+                ))
+                .map_err(|err| format!("plot: {err}"))?;
+            chart
+                .draw_series(pts.iter().filter(|p| p.in_range).filter_map(|p| {
+                    let y = if k == 0 {
+                        Some(p.eps_measured)
+                    } else {
+                        p.loss_measured.map(|l| l * 0.1)
+                    };
+                    y.filter(|y| (y0..=y1).contains(y))
+                        .map(|y| Circle::new((p.frequency, y), 2, DATA.filled()))
+                }))
+                .map_err(|err| format!("plot: {err}"))?;
+        }
         root.present().map_err(|err| format!("plot: {err}"))?;
     }
     Ok(buf)

@@ -614,3 +614,83 @@ fn loss_figure(s: &Stackup, a: &Analysis, stem: &str) -> Option<Block> {
         Err(e) => Block::Note(format!("no loss plot: {e}")),
     })
 }
+
+/// Measured coupons against the model: a table for the fabrication note,
+/// and per coupon its εeff and loss against frequency.
+pub(super) fn coupons_section(s: &Stackup, a: &Analysis, stem: &str) -> Option<Section> {
+    if a.coupons.is_empty() {
+        return None;
+    }
+    let mut blocks = vec![Block::Paragraph(
+        "Measured test coupons held against the stackup's model of the structure each represents: the effective Dk and loss measured, the model's at the same frequencies, the range the data are valid over, and the Dk the measurement implies for the material holding most of the line's field.".into(),
+    )];
+    let mut t = Table::new(&[
+        "coupon",
+        "net class",
+        "kind",
+        "valid range",
+        "eps_eff vs model",
+        "loss vs model",
+        "implied Dk",
+    ]);
+    let mut figures = Vec::new();
+    for ca in &a.coupons {
+        let c = &s.coupons[ca.coupon];
+        let nc = &s.net_classes[c.net_class];
+        let pct = |d: Option<f64>, digits: usize| {
+            d.map_or("—".into(), |d| format!("{:+.*} %", digits, 100.0 * d))
+        };
+        let implied = ca.implied_dk.as_ref().map_or("—".into(), |im| {
+            format!(
+                "{} {:.3} ± {:.3} at {} (stated {:.3})",
+                im.material,
+                im.implied,
+                im.uncertainty,
+                fmt_frequency(im.frequency),
+                im.stated
+            )
+        });
+        let disagrees = ca
+            .eps_difference
+            .is_some_and(|d| d.abs() > crate::analysis::coupons::AGREE_EPS);
+        t.push(
+            vec![
+                c.name.clone(),
+                nc.name.clone(),
+                c.kind.keyword().into(),
+                ca.failure.as_ref().map_or_else(
+                    || {
+                        ca.range.map_or("none".into(), |(lo, hi)| {
+                            format!("{} to {}", fmt_frequency(lo), fmt_frequency(hi))
+                        })
+                    },
+                    |f| format!("not extracted: {f}"),
+                ),
+                pct(ca.eps_difference, 2),
+                pct(ca.loss_difference, 1),
+                implied,
+            ],
+            disagrees.then_some("error"),
+        );
+        if let Ok(svg) = plot::coupon_plot(&ca.points, ca.range) {
+            figures.push(Block::Figure(Figure {
+                file: format!("{stem}-coupon-{}.svg", slug(&c.name)),
+                caption: format!(
+                    "Coupon {} ({}): measured (points) and modelled (line) eps_eff and loss per 100 mm; the valid range shaded.",
+                    c.name, nc.name
+                ),
+                svg,
+            }));
+        }
+    }
+    blocks.push(Block::Table(t));
+    blocks.push(Block::Note(
+        "eps_eff and loss vs model: the median of measured over modelled minus one inside the valid range (a pair: its odd mode). The model includes each conductor's internal inductance, as a measurement does.".into(),
+    ));
+    blocks.extend(figures);
+    Some(Section {
+        id: "coupons",
+        title: "Measured coupons",
+        blocks,
+    })
+}
