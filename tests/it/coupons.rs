@@ -14,6 +14,23 @@ fn coupons_json(board: &str) -> Value {
     serde_json::from_str(&out).unwrap()
 }
 
+/// A scratch project holding a copy of the sensor board and the material
+/// library (and `more` example subdirectories); its `examples` directory.
+fn sensor_project(more: &[&str]) -> (tempfile::TempDir, std::path::PathBuf) {
+    let dir = tempfile::tempdir().unwrap();
+    let ex = dir.path().join("examples");
+    for sub in ["radar-sensor-6l", "materials"].iter().chain(more) {
+        std::fs::create_dir_all(ex.join(sub)).unwrap();
+        for f in std::fs::read_dir(root().join("examples").join(sub)).unwrap() {
+            let f = f.unwrap().path();
+            if f.is_file() {
+                std::fs::copy(&f, ex.join(sub).join(f.file_name().unwrap())).unwrap();
+            }
+        }
+    }
+    (dir, ex)
+}
+
 fn coupon<'a>(j: &'a Value, name: &str) -> &'a Value {
     j[0]["coupons"]
         .as_array()
@@ -132,17 +149,7 @@ fn the_table_says_what_was_found() {
 #[test]
 fn an_agreeing_coupon_extends_the_validated_range() {
     let copy = |with_coupons: bool| {
-        let dir = tempfile::tempdir().unwrap();
-        let ex = dir.path().join("examples");
-        for sub in ["radar-sensor-6l", "radar-sensor-6l/coupons", "materials"] {
-            std::fs::create_dir_all(ex.join(sub)).unwrap();
-            for f in std::fs::read_dir(root().join("examples").join(sub)).unwrap() {
-                let f = f.unwrap().path();
-                if f.is_file() {
-                    std::fs::copy(&f, ex.join(sub).join(f.file_name().unwrap())).unwrap();
-                }
-            }
-        }
+        let (dir, ex) = sensor_project(&["radar-sensor-6l/coupons"]);
         let lib = ex.join("materials/demo-generic.materials.yaml");
         let text = std::fs::read_to_string(&lib).unwrap();
         let text = text.replacen("    valid-to: 40 GHz\n", "    valid-to: 5 GHz\n", 1);
@@ -179,17 +186,7 @@ fn an_agreeing_coupon_extends_the_validated_range() {
 /// even and odd modes) read back within 0.2 % in εeff and 3 % in loss.
 #[test]
 fn a_pair_coupon_gives_the_odd_mode() {
-    let dir = tempfile::tempdir().unwrap();
-    let ex = dir.path().join("examples");
-    for sub in ["radar-sensor-6l", "materials"] {
-        std::fs::create_dir_all(ex.join(sub)).unwrap();
-        for f in std::fs::read_dir(root().join("examples").join(sub)).unwrap() {
-            let f = f.unwrap().path();
-            if f.is_file() {
-                std::fs::copy(&f, ex.join(sub).join(f.file_name().unwrap())).unwrap();
-            }
-        }
-    }
+    let (dir, ex) = sensor_project(&[]);
     let board = ex.join("radar-sensor-6l/board.stackup.yaml");
     let text = std::fs::read_to_string(&board).unwrap();
     let (head, tail) = text.split_once("\ncoupons:\n").unwrap();
