@@ -96,6 +96,11 @@ pub struct ImpliedDk {
     pub uncertainty: f64,
     /// The material's share of the signal mode's electric energy.
     pub share: f64,
+    /// The same per frequency band (the valid points in three bands of
+    /// equal count): (lowest Hz, highest Hz, implied Dk). A Dk that moves
+    /// across the bands more than the material's model does says its
+    /// frequency dependence is off too.
+    pub bands: Vec<(f64, f64, f64)>,
 }
 
 /// One coupon's result.
@@ -532,6 +537,20 @@ fn finish(
     let q = |f: f64| sorted[((sorted.len() - 1) as f64 * f).round() as usize];
     let spread = 0.5 * (q(0.75) - q(0.25)) / share;
     let length = 2.0 * length_rel / share;
+    let bands: Vec<(f64, f64, f64)> = if used.len() >= 6 {
+        used.chunks(used.len().div_ceil(3))
+            .filter_map(|b| {
+                let r = median(b.iter().map(|p| p.eps_measured / p.eps_model).collect())?;
+                Some((
+                    b[0].frequency,
+                    b[b.len() - 1].frequency,
+                    first.dk * scale(r),
+                ))
+            })
+            .collect()
+    } else {
+        Vec::new()
+    };
     out.implied_dk = Some(ImpliedDk {
         material: name.to_string(),
         stated: first.dk,
@@ -539,5 +558,6 @@ fn finish(
         implied: first.dk * scale(r),
         uncertainty: first.dk * (spread * spread + length * length).sqrt(),
         share,
+        bands,
     });
 }

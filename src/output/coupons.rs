@@ -36,6 +36,14 @@ struct ImpliedJson<'a> {
     implied_dk: f64,
     uncertainty: f64,
     energy_share: f64,
+    bands: Vec<BandJson>,
+}
+
+#[derive(Serialize)]
+struct BandJson {
+    from_ghz: f64,
+    to_ghz: f64,
+    implied_dk: f64,
 }
 
 #[derive(Serialize)]
@@ -89,6 +97,15 @@ fn coupon_json<'a>(s: &'a Stackup, ca: &'a CouponAnalysis) -> CouponJson<'a> {
             implied_dk: round(im.implied, 4),
             uncertainty: round(im.uncertainty, 4),
             energy_share: round(im.share, 4),
+            bands: im
+                .bands
+                .iter()
+                .map(|b| BandJson {
+                    from_ghz: round(b.0 / 1e9, 6),
+                    to_ghz: round(b.1 / 1e9, 6),
+                    implied_dk: round(b.2, 4),
+                })
+                .collect(),
         }),
         resonances: ca
             .resonances
@@ -185,6 +202,14 @@ pub fn table(files: &[FileCoupons<'_>]) -> String {
                     im.stated,
                     100.0 * im.share
                 ));
+                if !im.bands.is_empty() {
+                    let b: Vec<String> = im
+                        .bands
+                        .iter()
+                        .map(|b| format!("{:.1}-{:.1} GHz {:.3}", b.0 / 1e9, b.1 / 1e9, b.2))
+                        .collect();
+                    out.push_str(&format!("      by band: {}\n", b.join(", ")));
+                }
             }
             if !ca.resonances.is_empty() {
                 out.push_str(&format!(
