@@ -22,6 +22,7 @@ pub mod materials;
 pub mod section;
 mod solve;
 pub mod sweep;
+pub mod tolerance;
 pub mod vias;
 pub mod weave;
 
@@ -185,6 +186,8 @@ pub struct ClassAnalysis {
     pub ply_shares: Vec<PlyShare>,
     /// What the numbers at other frequencies are derived from (`sweep`).
     pub basis: Option<SweepBasis>,
+    /// Z at the build tolerances' corners (classes with a target).
+    pub tolerance: Option<tolerance::ToleranceStack>,
 }
 
 /// A solved class's quasi-static results, from which its numbers at any
@@ -372,9 +375,9 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             None => Err(ClassError::NoImpedance),
         }
     };
-    // Width back to target (secant on the worst-case section) for every
-    // class off its target, the classes spread over the solver threads.
-    let searches: Vec<(usize, &LineGeometry, f64, f64, f64)> = s
+    // Every solved class with a target: its worst-case section's
+    // impedance and the target.
+    let targets: Vec<(usize, &LineGeometry, f64, f64, f64)> = s
         .net_classes
         .iter()
         .zip(&pending)
@@ -383,19 +386,28 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             let p = p.as_ref().ok().filter(|p| p.blocked.is_none())?;
             let t = nc.impedance?;
             let w = numbers(&p.family, p.worst).ok()?;
-            ((w.z - t.target).abs() > 1e-3 * t.target).then_some((
-                i,
-                &p.geometry,
-                nc.analysis_frequency(),
-                t.target,
-                w.z,
-            ))
+            Some((i, &p.geometry, nc.analysis_frequency(), t.target, w.z))
         })
         .collect();
-    let widths = solver.pool().map(&searches, |&(i, g, f, target, z)| {
+    // Width back to target (secant on the worst-case section) for every
+    // class off its target, the classes spread over the solver threads.
+    let searches: Vec<_> = targets
+        .iter()
+        .filter(|t| (t.4 - t.3).abs() > 1e-3 * t.3)
+        .collect();
+    let widths = solver.pool().map(&searches, |&&(i, g, f, target, z)| {
         (i, solver.width_for_target(g, f, target, z))
     });
     let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
+    // Impedance at the build tolerances' corners, for every class with a
+    // target.
+    let stacks: HashMap<usize, Option<tolerance::ToleranceStack>> = solver
+        .pool()
+        .map(&targets, |&(i, g, f, _, z)| {
+            (i, solver.tolerance_stack(s, g, f, z))
+        })
+        .into_iter()
+        .collect();
     // Conductor loss by Wheeler's rule: each solvable class's metal faces
     // receded group by group, spread over the solver threads.
     let wheeler_items: Vec<(usize, &LineGeometry)> = pending
@@ -583,6 +595,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 energy_even,
                 wheeler: derivs.map(<[InductanceDerivative]>::to_vec),
             }),
+            tolerance: stacks.get(&i).cloned().flatten(),
         });
     }
     solver.settle();
@@ -670,6 +683,7 @@ impl ClassAnalysis {
             pair_crosstalk: None,
             ply_shares: Vec::new(),
             basis: None,
+            tolerance: None,
         }
     }
 

@@ -15,7 +15,7 @@ use stackup_physics::roughness::RoughLayerModel;
 
 use super::cache::{self, DiskCache};
 use super::section::{self, LineGeometry, RoughLayers};
-use super::{ClassError, LineNumbers, SIGMA};
+use super::{tolerance, ClassError, LineNumbers, SIGMA};
 use crate::pool::Pool;
 
 /// Default of [`AnalysisOptions::max_mesh_nodes`].
@@ -222,6 +222,42 @@ impl<'a> Solver<'a> {
             self.tally.stored.fetch_add(n, Ordering::Relaxed);
         }
         w
+    }
+
+    /// The impedance at the build tolerances' corners of the class with
+    /// geometry `g` at `f` and accurate worst-case impedance `z`
+    /// (`tolerance`), through the disk cache as one entry; a cached entry
+    /// is used only if `tolerance::plausible` holds.
+    pub(super) fn tolerance_stack(
+        &self,
+        s: &crate::model::Stackup,
+        g: &LineGeometry,
+        f: f64,
+        z: f64,
+    ) -> Option<tolerance::ToleranceStack> {
+        let q = tolerance::Quantities::of(s, g);
+        let k = format!(
+            "tolerance stack v1 {:016x} {} | {}",
+            z.to_bits(),
+            q.key(),
+            self.key(&tolerance::base_section(g, f))
+        );
+        if let Some(c) = self.cache() {
+            if let Some(v) = c.get_numbers(&k) {
+                if tolerance::plausible(&q, z, &v) {
+                    self.tally.add(1, 0);
+                    return Some(tolerance::assemble(&q, z, &v));
+                }
+                self.tally.rejected.fetch_add(1, Ordering::Relaxed);
+            }
+        }
+        self.tally.add(0, 1);
+        let v = tolerance::solve(&q, g, f, z, &self.solver)?;
+        if let Some(c) = self.cache() {
+            let n = c.put_numbers(&k, &v);
+            self.tally.stored.fetch_add(n, Ordering::Relaxed);
+        }
+        Some(tolerance::assemble(&q, z, &v))
     }
 
     /// ∂L/∂n of each group of metal faces of a class's smooth section

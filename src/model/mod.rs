@@ -550,8 +550,43 @@ pub struct BoardThickness {
 #[derive(Debug, Clone, Default)]
 pub struct Settings {
     pub board_thickness: Option<BoardThickness>,
+    /// The fabricator's tolerances (`settings.fabrication`).
+    pub fabrication: Fabrication,
     pub rules: BTreeMap<String, RuleSettings>,
     pub suppressions: Vec<Suppression>,
+}
+
+/// The fabricator's build tolerances the impedance corners use. Each
+/// default is common practice, no source (typical of board fabricators'
+/// capability statements), and `settings.fabrication` overrides it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Fabrication {
+    /// Etched trace width, ± m (default 12.7 µm: ±0.5 mil).
+    pub etch_width: f64,
+    /// Pressed prepreg and core thickness, ± fraction (default 10 %).
+    pub dielectric_thickness: f64,
+    /// Trace copper thickness (foil plus plating), ± fraction (default 10 %).
+    pub copper_thickness: f64,
+    /// Solder-mask thickness, ± fraction (default 30 %).
+    pub mask_thickness: f64,
+    /// Dk of a material that states no `dk-tolerance`, ± fraction (default
+    /// 2 %).
+    pub dk: f64,
+    /// JSON pointer of each key given (for findings that name it).
+    pub given: BTreeMap<&'static str, String>,
+}
+
+impl Default for Fabrication {
+    fn default() -> Self {
+        Fabrication {
+            etch_width: 12.7e-6,
+            dielectric_thickness: 0.10,
+            copper_thickness: 0.10,
+            mask_thickness: 0.30,
+            dk: 0.02,
+            given: BTreeMap::new(),
+        }
+    }
 }
 
 impl Stackup {

@@ -69,6 +69,58 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
             }
         }
     }
+    let fp = "/settings/fabrication";
+    if r.node(fp).is_some() {
+        let f = &mut out.fabrication;
+        let p = format!("{fp}/etch-width");
+        if r.node(&p).is_some() {
+            if let Some(v) = r.bounded(
+                &p,
+                Dimension::Length,
+                "etched width tolerance",
+                0.0,
+                1e-3,
+                fmt_len,
+            ) {
+                f.etch_width = v;
+                f.given.insert("etch-width", p);
+            }
+        }
+        for (key, what) in [
+            ("dielectric-thickness", "dielectric thickness tolerance"),
+            ("copper-thickness", "copper thickness tolerance"),
+            ("mask-thickness", "solder-mask thickness tolerance"),
+            ("dk", "Dk tolerance"),
+        ] {
+            let p = format!("{fp}/{key}");
+            if r.node(&p).is_none() {
+                continue;
+            }
+            let Some(v) = r.fraction(&p, what) else {
+                continue;
+            };
+            if !(v > 0.0 && v < 0.5) {
+                r.error(
+                    &p,
+                    format!(
+                        "{what} of {:.1} % is not a build tolerance (give one between 0 and 50 %)",
+                        100.0 * v
+                    ),
+                    "implausible tolerance",
+                    None,
+                );
+                continue;
+            }
+            let slot = match key {
+                "dielectric-thickness" => &mut out.fabrication.dielectric_thickness,
+                "copper-thickness" => &mut out.fabrication.copper_thickness,
+                "mask-thickness" => &mut out.fabrication.mask_thickness,
+                _ => &mut out.fabrication.dk,
+            };
+            *slot = v;
+            out.fabrication.given.insert(key, p);
+        }
+    }
     let names = || {
         let mut v: Vec<&str> = rules.iter().map(|x| x.name).collect();
         v.sort_unstable();

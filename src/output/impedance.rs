@@ -40,9 +40,27 @@ struct Row<'a> {
     pair_crosstalk: Option<CrosstalkJson>,
     /// The worst through-via stub of an inner-layer class.
     via_stub: Option<StubJson>,
+    /// Z at the build tolerances' corners.
+    tolerance: Option<ToleranceJson<'a>>,
     model: &'a str,
     error: Option<String>,
     notes: &'a [String],
+}
+
+#[derive(Serialize)]
+struct ToleranceJson<'a> {
+    nominal_ohm: f64,
+    worst_case_ohm: [f64; 2],
+    rss_ohm: [f64; 2],
+    corners_solved_ohm: Option<[f64; 2]>,
+    contributions: Vec<ContributionJson<'a>>,
+}
+
+#[derive(Serialize)]
+struct ContributionJson<'a> {
+    quantity: &'a str,
+    tolerance: &'a str,
+    delta_ohm: f64,
 }
 
 #[derive(Serialize)]
@@ -154,6 +172,21 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             via_stub: a.via_stubs.get(i).copied().flatten().map(|v| StubJson {
                 length_mm: round(v.worst.length * 1e3, 3),
                 resonance_ghz: round(v.worst.resonance / 1e9, 3),
+            }),
+            tolerance: ca.tolerance.as_ref().map(|t| ToleranceJson {
+                nominal_ohm: round(t.nominal, 3),
+                worst_case_ohm: [round(t.worst.0, 3), round(t.worst.1, 3)],
+                rss_ohm: [round(t.rss.0, 3), round(t.rss.1, 3)],
+                corners_solved_ohm: t.corners.map(|c| [round(c.0, 3), round(c.1, 3)]),
+                contributions: t
+                    .contributions
+                    .iter()
+                    .map(|c| ContributionJson {
+                        quantity: &c.what,
+                        tolerance: &c.tolerance,
+                        delta_ohm: round(c.dz, 3),
+                    })
+                    .collect(),
             }),
             model: ca.model,
             error: ca.smooth.as_ref().err().map(ToString::to_string),
@@ -341,6 +374,27 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
                 ));
             }
         }
+    }
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        let Some(t) = &ca.tolerance else { continue };
+        let (lo, hi) = t.extreme();
+        let top: Vec<String> = {
+            let mut c: Vec<_> = t.contributions.iter().collect();
+            c.sort_by(|a, b| b.dz.abs().total_cmp(&a.dz.abs()));
+            c.iter()
+                .take(3)
+                .map(|c| format!("{} {} {:+.2} ohm", c.what, c.tolerance, c.dz))
+                .collect()
+        };
+        out.push_str(&format!(
+            "  {}: Z at the build tolerances {:.1} to {:.1} ohm (worst case; RSS {:.1} to {:.1}); most from {}\n",
+            nc.name,
+            lo,
+            hi,
+            t.rss.0,
+            t.rss.1,
+            top.join(", ")
+        ));
     }
     out.push_str("\n  Z rough, eps_eff, ps/mm and dB/mm include the declared copper roughness (worst case where a face is unknown);\n");
     out.push_str(

@@ -28,6 +28,7 @@ mod rule_docs;
 mod sarif;
 mod suppressions;
 mod sweep;
+mod tolerance;
 mod untrusted;
 mod via_stubs;
 mod width_for_target;
