@@ -60,7 +60,8 @@ fn pub_consts(dir: &Path, out: &mut Vec<(String, String)>) {
                         .chars()
                         .take_while(|c| c.is_ascii_alphanumeric() || *c == '_')
                         .collect();
-                    out.push((name, p.display().to_string()));
+                    let file = p.strip_prefix(root()).unwrap_or(&p);
+                    out.push((name, file.display().to_string()));
                 }
             }
         }
