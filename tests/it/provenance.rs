@@ -68,9 +68,13 @@ fn pub_consts(dir: &Path, out: &mut Vec<(String, String)>) {
     }
 }
 
-/// What the table must list: the constants and `rule:<name>/<key>` for
-/// every rule option, with the option's default as its page writes it.
-fn required() -> (Vec<(String, String)>, Vec<(String, &'static str)>) {
+/// A constant's name and the file it is in.
+type Const = (String, String);
+/// `rule:<name>/<key>` and the option's default as its page writes it.
+type RuleOption = (String, &'static str);
+
+/// What the table must list: the constants and every rule option.
+fn required() -> (Vec<Const>, Vec<RuleOption>) {
     let mut consts = Vec::new();
     pub_consts(&root().join("crates/stackup-physics/src"), &mut consts);
     pub_consts(&root().join("src/analysis"), &mut consts);
