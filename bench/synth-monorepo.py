@@ -103,7 +103,7 @@ def make_class(rng, build):
     layer = rng.choice(signals)
     outer = layer in (0, build["n"] - 1)
     if outer:
-        structure = rng.choice(["microstrip", "diff-microstrip", "coplanar-grounded"])
+        structure = rng.choice(["microstrip", "diff-microstrip", "grounded-coplanar"])
     else:
         structure = rng.choice(["stripline", "diff-stripline"])
     c = {
@@ -117,7 +117,7 @@ def make_class(rng, build):
         c["target"] = rng.choice([85, 90, 100])
     else:
         c["target"] = rng.choice([45, 50, 55])
-    if structure == "coplanar-grounded":
+    if structure == "grounded-coplanar":
         c["gap"] = rng.randrange(10, 26) * 10
     return c
 

@@ -517,7 +517,7 @@ impl Board {
                 "stripline",
                 "diff-microstrip",
                 "diff-stripline",
-                "coplanar-grounded",
+                "grounded-coplanar",
             ][usize::from(c.structure) % 6];
             writeln!(y, "  - name: c{i}\n    structure: {structure}").unwrap();
             writeln!(y, "    layer: {}", copper(c.layer)).unwrap();

@@ -74,7 +74,7 @@ pub fn structure_limits(
             .iter()
             .map(|sl| sl.eps)
             .fold(1.0_f64, f64::max);
-        if nc.structure == Structure::CoplanarGrounded {
+        if nc.structure == Structure::GroundedCoplanar {
             if let Ok(fc) = modes::gcpw_te1_cutoff(h, eps_sub) {
                 limits.push((
                     fc,

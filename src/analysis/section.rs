@@ -563,7 +563,7 @@ pub fn geometry(
         width_top,
         thickness: trace.thickness,
         spacing: nc.spacing,
-        gap: if nc.structure == Structure::CoplanarGrounded {
+        gap: if nc.structure == Structure::GroundedCoplanar {
             nc.gap
         } else {
             None

@@ -50,9 +50,10 @@ pub struct Layer {
 
 /// The YAML keywords of a model enum, both ways: `keyword()` writes the
 /// word the schema allows, `FromStr` reads it (anything else is an error;
-/// the schema has already refused it).
+/// the schema has already refused it). A word may be followed by deprecated
+/// aliases (`Variant => "word" | "old-word"`): they are read, never written.
 macro_rules! keywords {
-    ($ty:ident { $($variant:ident => $word:literal),+ $(,)? }) => {
+    ($ty:ident { $($variant:ident => $word:literal $(| $alias:literal)*),+ $(,)? }) => {
         impl $ty {
             /// The word the YAML uses for this value.
             pub fn keyword(self) -> &'static str {
@@ -66,7 +67,7 @@ macro_rules! keywords {
             type Err = UnknownKeyword;
             fn from_str(s: &str) -> Result<Self, Self::Err> {
                 match s {
-                    $($word => Ok($ty::$variant),)+
+                    $($word $(| $alias)* => Ok($ty::$variant),)+
                     _ => Err(UnknownKeyword(s.to_string())),
                 }
             }
@@ -97,7 +98,9 @@ keywords!(Structure {
     Stripline => "stripline",
     DiffMicrostrip => "diff-microstrip",
     DiffStripline => "diff-stripline",
-    CoplanarGrounded => "coplanar-grounded",
+    // `coplanar-grounded` is the deprecated spelling of `grounded-coplanar`
+    // (the trade's word order); still accepted, never written.
+    GroundedCoplanar => "grounded-coplanar" | "coplanar-grounded",
 });
 keywords!(Modulation { Nrz => "nrz", Pam4 => "pam4" });
 
@@ -137,8 +140,11 @@ mod tests {
             Structure::Stripline,
             Structure::DiffMicrostrip,
             Structure::DiffStripline,
-            Structure::CoplanarGrounded
+            Structure::GroundedCoplanar
         );
+        // The deprecated alias reads as the same structure.
+        assert_eq!("coplanar-grounded".parse(), Ok(Structure::GroundedCoplanar));
+        assert_eq!(Structure::GroundedCoplanar.keyword(), "grounded-coplanar");
         check!(Modulation::Nrz, Modulation::Pam4);
         assert!("strip-line".parse::<Structure>().is_err());
     }
@@ -364,7 +370,7 @@ pub enum Structure {
     Stripline,
     DiffMicrostrip,
     DiffStripline,
-    CoplanarGrounded,
+    GroundedCoplanar,
 }
 
 impl Structure {

@@ -224,7 +224,7 @@ pub(super) fn read_net_class(
             return None;
         }
     }
-    if structure == Structure::CoplanarGrounded && gap.is_none() {
+    if structure == Structure::GroundedCoplanar && gap.is_none() {
         r.error(
             ptr,
             format!("coplanar net class `{name}` needs `gap` (trace edge to coplanar ground)"),

@@ -171,7 +171,7 @@ impl Rule for FrequencyBeyondValidity {
             }
             // A grounded coplanar line at millimetre-wave with no stated
             // fence: its grounds may not be tied to the plane closely enough.
-            if nc.structure == Structure::CoplanarGrounded
+            if nc.structure == Structure::GroundedCoplanar
                 && nc.via_fence_pitch.is_none()
                 && fmax > GCPW_FENCE_NOTE_F
             {

@@ -48,7 +48,7 @@ impl Rule for MissingReferencePlane {
                 Structure::Microstrip
                 | Structure::DiffMicrostrip
                 | Structure::EmbeddedMicrostrip
-                | Structure::CoplanarGrounded => {
+                | Structure::GroundedCoplanar => {
                     // Microstrip-like lines reference the nearest copper on
                     // one side; a plane on the other side makes them striplines.
                     let (near, far) = if above.is_none() {

@@ -257,7 +257,7 @@ fn via_fence_pitch_against_lambda_g_over_8() {
     // eps_r 3.5, lambda_g = c0/(f sqrt(eps_r)) = 4.006 mm, /8 = 0.501 mm.
     let text = Board::microstrip("m", "0.127 mm")
         .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 50 GHz")
-        .class("name: cpw, structure: coplanar-grounded, layer: L1, width: 0.25 mm, gap: 0.15 mm, max-frequency: 40 GHz, via-fence-pitch: 0.6 mm")
+        .class("name: cpw, structure: grounded-coplanar, layer: L1, width: 0.25 mm, gap: 0.15 mm, max-frequency: 40 GHz, via-fence-pitch: 0.6 mm")
         .yaml();
     let text = text.as_str();
     let f = findings(text, "frequency-beyond-validity");
@@ -277,6 +277,46 @@ fn via_fence_pitch_against_lambda_g_over_8() {
     )
     .iter()
     .all(|x| !x.message.contains("via-fence")));
+}
+
+#[test]
+fn deprecated_coplanar_grounded_reads_as_grounded_coplanar() {
+    // `coplanar-grounded` is the deprecated spelling of the structure
+    // keyword `grounded-coplanar`: the schema still accepts it and the board
+    // lints exactly as with the new word (no input error, same findings).
+    let text = Board::microstrip("m", "0.127 mm")
+        .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz, valid-to: 50 GHz")
+        .class("name: cpw, structure: grounded-coplanar, layer: L1, width: 0.25 mm, gap: 0.15 mm, max-frequency: 40 GHz, via-fence-pitch: 0.6 mm")
+        .yaml();
+    let old = text.replace(
+        "structure: grounded-coplanar",
+        "structure: coplanar-grounded",
+    );
+    assert_ne!(old, text);
+    let all = |t: &str| -> Vec<(String, String)> {
+        let loaded = load_text("t.stackup.yaml", t, &InputLimits::default());
+        engine::lint(loaded, &Default::default())
+            .findings
+            .into_iter()
+            .map(|f| (f.rule.to_string(), f.message))
+            .collect()
+    };
+    let (new_findings, old_findings) = (all(&text), all(&old));
+    assert!(
+        new_findings.iter().all(|(r, _)| r != "invalid-input"),
+        "{new_findings:#?}"
+    );
+    // The via-fence finding shows the class was solved as a grounded coplanar line.
+    assert!(
+        new_findings
+            .iter()
+            .any(|(_, m)| m.contains("via-fence pitch")),
+        "{new_findings:#?}"
+    );
+    assert_eq!(new_findings, old_findings);
+    // A misspelling is still refused.
+    let bad = all(&text.replace("structure: grounded-coplanar", "structure: coplanar-ground"));
+    assert!(bad.iter().any(|(r, _)| r == "invalid-input"), "{bad:#?}");
 }
 
 #[test]
@@ -350,7 +390,7 @@ fn extreme_geometry_is_refused_not_meshed() {
     // cells: the analysis refuses it with a reason, and the rule says so.
     let text = Board::microstrip("m", "0.1 mm")
         .material("m", "dk: 3.5, df: 0.002, frequency: 10 GHz")
-        .class("name: y, structure: coplanar-grounded, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}")
+        .class("name: y, structure: grounded-coplanar, layer: L1, width: 1 um, gap: 19 mm, impedance: {target: 50}")
         .yaml();
     let text = text.as_str();
     // An uncheckable class is an error of its own (not a warning of the

@@ -172,7 +172,7 @@ fn an_agreeing_coupon_extends_the_validated_range() {
             .iter()
             .filter(|f| {
                 f["rule"] == "frequency-beyond-validity"
-                    && f["message"].as_str().unwrap().contains("ptfe-ceramic-3.0")
+                    && f["message"].as_str().unwrap().contains("ptfe-ceramic-3.15")
             })
             .count()
     };

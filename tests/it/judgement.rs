@@ -339,7 +339,7 @@ fn missing_facts_are_noted() {
     // A grounded coplanar line at 28 GHz with no via-fence pitch.
     let gcpw = Board::microstrip("m", "0.127 mm")
         .material("m", "dk: 3.0, df: 0.002, frequency: 10 GHz, valid-to: 40 GHz")
-        .class("name: cpw, structure: coplanar-grounded, layer: L1, width: 0.25 mm, gap: 0.15 mm, impedance: {target: 50 ohm, tolerance: 10 %}, max-frequency: 28 GHz")
+        .class("name: cpw, structure: grounded-coplanar, layer: L1, width: 0.25 mm, gap: 0.15 mm, impedance: {target: 50 ohm, tolerance: 10 %}, max-frequency: 28 GHz")
         .yaml();
     let f = all(&gcpw);
     let n: Vec<_> = of(&f, "frequency-beyond-validity")

@@ -22,6 +22,7 @@ mod judgement;
 mod mask;
 mod materials_wiring;
 mod pre_commit;
+mod provenance;
 mod report;
 mod report_browser;
 mod rule_docs;
