@@ -19,6 +19,7 @@ mod mirror_symmetry;
 mod propagation_skew;
 mod reference_plane;
 mod roughness_drift;
+mod tolerance_stack;
 mod via_stub_resonance;
 
 use crate::analysis::Analysis;
@@ -105,6 +106,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &via_stub_resonance::ViaStubResonance,
         &material_data_not_causal::MaterialDataNotCausal,
         &coupon_disagrees::CouponDisagrees,
+        &tolerance_stack::ImpedanceToleranceStack,
     ]
 }
 
