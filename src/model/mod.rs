@@ -582,14 +582,31 @@ pub struct Fabrication {
     pub given: BTreeMap<&'static str, String>,
 }
 
+/// Default etched-width tolerance, ± m: ±0.5 mil (common practice, no
+/// source: typical of fabricators' capability statements for inner layers).
+pub const DEFAULT_ETCH_WIDTH: f64 = 12.7e-6;
+/// Default pressed-thickness tolerance of prepreg and core, ± fraction
+/// (common practice, no source).
+pub const DEFAULT_DIELECTRIC_THICKNESS: f64 = 0.10;
+/// Default trace copper thickness tolerance (foil and plating), ± fraction
+/// (common practice, no source).
+pub const DEFAULT_COPPER_THICKNESS: f64 = 0.10;
+/// Default solder-mask thickness tolerance, ± fraction (common practice,
+/// no source: liquid photoimageable mask varies widely over the panel).
+pub const DEFAULT_MASK_THICKNESS: f64 = 0.30;
+/// Default Dk tolerance of a material that states none, ± fraction (common
+/// practice, no source: laminate Dk lots are commonly held to about ±0.05
+/// on 3 to 4).
+pub const DEFAULT_DK_TOLERANCE: f64 = 0.02;
+
 impl Default for Fabrication {
     fn default() -> Self {
         Fabrication {
-            etch_width: 12.7e-6,
-            dielectric_thickness: 0.10,
-            copper_thickness: 0.10,
-            mask_thickness: 0.30,
-            dk: 0.02,
+            etch_width: DEFAULT_ETCH_WIDTH,
+            dielectric_thickness: DEFAULT_DIELECTRIC_THICKNESS,
+            copper_thickness: DEFAULT_COPPER_THICKNESS,
+            mask_thickness: DEFAULT_MASK_THICKNESS,
+            dk: DEFAULT_DK_TOLERANCE,
             given: BTreeMap::new(),
         }
     }

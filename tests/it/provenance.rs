@@ -78,6 +78,7 @@ fn required() -> (Vec<Const>, Vec<RuleOption>) {
     let mut consts = Vec::new();
     pub_consts(&root().join("crates/stackup-physics/src"), &mut consts);
     pub_consts(&root().join("src/analysis"), &mut consts);
+    pub_consts(&root().join("src/model"), &mut consts);
     let options = stackup_lint::rules::all_meta()
         .into_iter()
         .flat_map(|m| {
