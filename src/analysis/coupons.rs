@@ -244,6 +244,19 @@ fn analyze_one(
             ));
         }
     }
+    // A via fence stops confining the field where its pitch reaches λg/8
+    // (the loose limit of `stackup_physics::modes::via_pitch_check`).
+    if let (Some(pitch), Some(l)) = (nc.via_fence_pitch, ca.limits.as_ref()) {
+        let f_fence = C0 / (8.0 * pitch * l.eps_max.sqrt());
+        if f_fence < hi {
+            hi = f_fence;
+            out.range_notes.push(format!(
+                "the via fence's {:.2} mm pitch reaches an eighth of the guided wavelength at {:.1} GHz",
+                pitch * 1e3,
+                f_fence / 1e9
+            ));
+        }
+    }
     // The launch: the first frequency where either file's return loss
     // falls below the threshold, at either end (a line pair; a resonator
     // reflects nearly everything off resonance by design).
