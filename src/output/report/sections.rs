@@ -233,8 +233,11 @@ pub(super) fn impedance_section(
         "delay ps/mm",
         "loss dB/mm",
         "W for target µm",
+        "Z at corners Ω",
     ]);
     let mut notes = Vec::new();
+    // The sensitivity table: each class's toleranced quantities.
+    let mut sens = Table::new(&["net class", "quantity", "tolerance", "ΔZ Ω"]);
     for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
         let ws = match (nc.spacing, nc.top_width) {
             (Some(sp), _) => format!("{:.0} / {:.0}", nc.width * 1e6, sp * 1e6),
@@ -286,9 +289,28 @@ pub(super) fn impedance_section(
                     .as_ref()
                     .map(|l| format!("{:.4}", l.total_rough() / 1e3))),
                 opt(ca.width_for_target.map(|w| format!("{:.1}", w * 1e6))),
+                opt(ca.tolerance.as_ref().map(|st| {
+                    let (lo, hi) = st.extreme();
+                    format!("{lo:.1}..{hi:.1} (RSS {:.1}..{:.1})", st.rss.0, st.rss.1)
+                })),
             ],
             tone,
         );
+        if let Some(st) = &ca.tolerance {
+            let mut c: Vec<_> = st.contributions.iter().collect();
+            c.sort_by(|a, b| b.dz.abs().total_cmp(&a.dz.abs()));
+            for x in c {
+                sens.push(
+                    vec![
+                        nc.name.clone(),
+                        x.what.clone(),
+                        x.tolerance.clone(),
+                        format!("{:+.2}", x.dz),
+                    ],
+                    None,
+                );
+            }
+        }
         if let Err(e) = &ca.smooth {
             notes.push(format!("{}: not solved: {e}", nc.name));
         }
@@ -321,6 +343,18 @@ pub(super) fn impedance_section(
         )));
         for n in notes {
             blocks.push(Block::Note(n));
+        }
+        if !sens.rows.is_empty() {
+            blocks.push(Block::Heading("Impedance at the build tolerances".into()));
+            blocks.push(Block::Table(sens));
+            blocks.push(Block::Note(format!(
+                "Each toleranced quantity moved alone to the upper end of its tolerance (settings.fabrication; a material's dk-tolerance), the section solved again; the corners column adds the changes (worst case: every quantity at the end that moves Z the same way; RSS: root-sum-square) and holds the two worst-case corners solved as they are. Tolerances used: etched width ±{:.1} µm, dielectric thickness ±{:.0} %, copper ±{:.0} %, mask ±{:.0} %, Dk ±{:.0} % where the material states none (defaults are common practice, no source).",
+                s.settings.fabrication.etch_width * 1e6,
+                100.0 * s.settings.fabrication.dielectric_thickness,
+                100.0 * s.settings.fabrication.copper_thickness,
+                100.0 * s.settings.fabrication.mask_thickness,
+                100.0 * s.settings.fabrication.dk,
+            )));
         }
         blocks.extend(loss_figure(s, a, stem));
     }
