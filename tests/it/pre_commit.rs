@@ -131,6 +131,10 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
         stackups.join("radar/board.stackup.yaml"),
     )
     .unwrap();
+    copy_coupons(
+        &root.join("examples/radar-sensor-6l"),
+        &stackups.join("radar"),
+    );
     std::fs::copy(
         root.join("examples/materials/demo-generic.materials.yaml"),
         stackups.join("materials/demo-generic.materials.yaml"),
@@ -199,6 +203,10 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
         stackups.join("line-card/board.stackup.yaml"),
     )
     .unwrap();
+    copy_coupons(
+        &root.join("examples/line-card-10l"),
+        &stackups.join("line-card"),
+    );
     let head_before = ok(git(&hw).args(["rev-parse", "HEAD"])).stdout;
     ok(git(&hw).args(["add", "-A"]));
     let mut commit = git(&hw);
@@ -227,4 +235,14 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
         "pre-commit test took {:.0} s",
         started.elapsed().as_secs_f64()
     );
+}
+
+/// Copies a demo board's measured coupon files (`coupons/`) beside its copy.
+fn copy_coupons(from: &Path, to: &Path) {
+    let (from, to) = (from.join("coupons"), to.join("coupons"));
+    std::fs::create_dir_all(&to).unwrap();
+    for f in std::fs::read_dir(&from).unwrap() {
+        let f = f.unwrap().path();
+        std::fs::copy(&f, to.join(f.file_name().unwrap())).unwrap();
+    }
 }
