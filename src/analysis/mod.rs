@@ -163,6 +163,8 @@ pub struct ClassAnalysis {
     pub implied_faces: Vec<(section::FaceRole, section::GenericFace)>,
     /// Width that brings the worst-case rough line back to its target, m.
     pub width_for_target: Option<f64>,
+    /// For a pair: the spacing that brings it back at its drawn width, m.
+    pub spacing_for_target: Option<f64>,
     pub loss: Option<LossNumbers>,
     /// For a class with a `loss-budget`: the frequency it is judged at (the
     /// Nyquist frequency of a data rate, else the analysis frequency) and
@@ -399,6 +401,15 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         (i, solver.width_for_target(g, f, target, z))
     });
     let widths: HashMap<usize, Option<f64>> = widths.into_iter().collect();
+    // A pair off its target: the spacing that meets it at the drawn width.
+    let pairs: Vec<_> = searches.iter().filter(|t| t.1.spacing.is_some()).collect();
+    let spacings: HashMap<usize, Option<f64>> = solver
+        .pool()
+        .map(&pairs, |&&&(i, g, f, target, z)| {
+            (i, solver.spacing_for_target(g, f, target, z))
+        })
+        .into_iter()
+        .collect();
     // Impedance at the build tolerances' corners, for every class with a
     // target.
     let stacks: HashMap<usize, Option<tolerance::ToleranceStack>> = solver
@@ -596,6 +607,11 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 wheeler: derivs.map(<[InductanceDerivative]>::to_vec),
             }),
             tolerance: stacks.get(&i).cloned().flatten(),
+            spacing_for_target: match spacings.get(&i) {
+                Some(sp) => *sp,
+                // On target already: the drawn spacing.
+                None => nc.spacing.filter(|_| width_for_target == Some(nc.width)),
+            },
         });
     }
     solver.settle();
@@ -684,6 +700,7 @@ impl ClassAnalysis {
             ply_shares: Vec::new(),
             basis: None,
             tolerance: None,
+            spacing_for_target: None,
         }
     }
 

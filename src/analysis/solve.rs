@@ -183,25 +183,61 @@ impl<'a> Solver<'a> {
         z_now: f64,
     ) -> Option<f64> {
         let w0 = g.width_bottom.max(g.width_top);
-        let section = |w: f64| {
-            let mut g2 = g.clone();
+        self.dimension_for_target("width", g, f, target, z_now, w0, &|g2, w| {
             let scale = w / w0;
             g2.width_bottom = g.width_bottom * scale;
             g2.width_top = g.width_top * scale;
+        })
+    }
+
+    /// The edge-to-edge spacing that brings a pair's worst-case section to
+    /// `target` at its drawn width (`None` for a single line), searched as
+    /// the width is.
+    pub(super) fn spacing_for_target(
+        &self,
+        g: &LineGeometry,
+        f: f64,
+        target: f64,
+        z_now: f64,
+    ) -> Option<f64> {
+        let s0 = g.spacing.filter(|s| *s > 0.0)?;
+        self.dimension_for_target("spacing", g, f, target, z_now, s0, &|g2, sp| {
+            g2.spacing = Some(sp);
+        })
+    }
+
+    /// One dimension of the section (set by `set`, now `x0`) that brings
+    /// the worst-case section to `target`: `fieldsolver::width_for_target`
+    /// on it, cached as one entry and checked against the closed-form
+    /// estimate (`plausible_width`).
+    #[allow(clippy::too_many_arguments)]
+    fn dimension_for_target(
+        &self,
+        what: &str,
+        g: &LineGeometry,
+        f: f64,
+        target: f64,
+        z_now: f64,
+        x0: f64,
+        set: &dyn Fn(&mut LineGeometry, f64),
+    ) -> Option<f64> {
+        let section = |x: f64| {
+            let mut g2 = g.clone();
+            set(&mut g2, x);
             section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
         };
         // The search's result is cached as a whole (one entry instead of
         // one per coarse solve): it follows from the worst-case section at
-        // the current width, its accurate impedance and the target.
+        // the current value, its accurate impedance and the target.
         let k = format!(
-            "width for target {:016x} from {:016x} | {}",
+            "{what} for target {:016x} from {:016x} | {}",
             target.to_bits(),
             z_now.to_bits(),
-            self.key(&section(w0))
+            self.key(&section(x0))
         );
         if let Some(c) = self.cache() {
             if let Some(v) = c.get_numbers(&k) {
-                if plausible_width(&v, w0, z_now, target, &section) {
+                if plausible_width(&v, x0, z_now, target, &section) {
                     self.tally.add(1, 0);
                     return v.first().copied();
                 }
@@ -209,19 +245,19 @@ impl<'a> Solver<'a> {
             }
         }
         self.tally.add(0, 1);
-        let w = fieldsolver::width_for_target(
+        let x = fieldsolver::width_for_target(
             section,
             |r| LineNumbers::from_solved(r).map(|n| n.z),
-            w0,
+            x0,
             z_now,
             target,
             &self.solver,
         );
         if let Some(c) = self.cache() {
-            let n = c.put_numbers(&k, w.as_slice());
+            let n = c.put_numbers(&k, x.as_slice());
             self.tally.stored.fetch_add(n, Ordering::Relaxed);
         }
-        w
+        x
     }
 
     /// The impedance at the build tolerances' corners of the class with

@@ -22,6 +22,8 @@ struct Row<'a> {
     rough_worst: Option<Numbers>,
     roughness_unknown: bool,
     width_for_target_um: Option<f64>,
+    /// A pair: the spacing that meets the target at the drawn width.
+    spacing_for_target_um: Option<f64>,
     loss_db_per_mm: Option<f64>,
     loss_db_per_inch: Option<f64>,
     dielectric_loss_db_per_mm: Option<f64>,
@@ -136,6 +138,7 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             rough_worst: ca.rough_worst.as_ref().map(numbers),
             roughness_unknown: ca.roughness_unknown,
             width_for_target_um: ca.width_for_target.map(|w| round(w * 1e6, 1)),
+            spacing_for_target_um: ca.spacing_for_target.map(|w| round(w * 1e6, 1)),
             loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.total_rough() / 1e3, 5)),
             loss_db_per_inch: ca.loss.as_ref().map(|l| round(l.total_rough() * 0.0254, 4)),
             dielectric_loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.dielectric / 1e3, 5)),
@@ -371,6 +374,18 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
                     l.conductor_smooth * len,
                     l.dielectric * len,
                     l.total_rough() * 0.0254
+                ));
+            }
+        }
+    }
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        if let (Some(sp), Some(now)) = (ca.spacing_for_target, nc.spacing) {
+            if (sp - now).abs() > 0.05e-6 {
+                out.push_str(&format!(
+                    "  {}: or keep the width and change the spacing to {:.1} um (now {:.1} um)\n",
+                    nc.name,
+                    sp * 1e6,
+                    now * 1e6
                 ));
             }
         }

@@ -96,3 +96,48 @@ fn proposed_widths_meet_their_targets() {
         .count();
     assert!(far >= 10, "{far} classes more than 30 % off");
 }
+
+/// The spacing proposed for a pair off its target (at its drawn width)
+/// meets the target when applied: the line card's two 90 Ω pairs, one low
+/// and one high, re-solved at their proposed spacings read 90 Ω within
+/// 0.3 % with the declared copper.
+#[test]
+fn proposed_spacings_meet_their_targets() {
+    use stackup_lint::analysis::analyze;
+    use stackup_lint::engine::load_text;
+    use stackup_lint::load::InputLimits;
+    let path = common::root().join("examples/line-card-10l/board.stackup.yaml");
+    let text = std::fs::read_to_string(&path).unwrap();
+    let solve = |text: &str| {
+        let loaded = load_text("board.stackup.yaml", text, &InputLimits::default());
+        assert!(loaded.problems.is_empty(), "{:#?}", loaded.problems);
+        let s = loaded.stackups.into_iter().next().unwrap();
+        let a = analyze(&s, &Default::default());
+        (s, a)
+    };
+    let (s, a) = solve(&text);
+    let mut edited = text.clone();
+    let mut checked = Vec::new();
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        let (Some(sp), Some(now)) = (ca.spacing_for_target, nc.spacing) else {
+            continue;
+        };
+        if (sp - now).abs() < 1e-7 {
+            continue;
+        }
+        // Each pair's `spacing:` line follows its `name:` in the file.
+        let at = edited.find(&format!("name: {}\n", nc.name)).unwrap();
+        let rel = edited[at..].find("spacing: ").unwrap() + at;
+        let end = edited[rel..].find('\n').unwrap() + rel;
+        edited.replace_range(rel..end, &format!("spacing: {:.2} um", sp * 1e6));
+        checked.push(nc.name.clone());
+    }
+    assert_eq!(checked.len(), 2, "{checked:?}");
+    let (s2, a2) = solve(&edited);
+    for name in &checked {
+        let i = s2.net_classes.iter().position(|c| &c.name == name).unwrap();
+        let z = a2.classes[i].rough_worst.unwrap().z;
+        let t = s2.net_classes[i].impedance.unwrap().target;
+        assert!((z / t - 1.0).abs() < 3e-3, "{name}: {z} against {t}");
+    }
+}
