@@ -74,6 +74,19 @@ pub struct Finding {
     /// variant of an error rule); a severity configured by the project
     /// still overrides it.
     pub severity_chosen: bool,
+    /// An edit of the YAML that resolves the finding, where the change
+    /// needs no judgement (a solved width, say); SARIF carries it as a
+    /// `fix` review tools can offer.
+    pub fix: Option<Fix>,
+}
+
+/// A fix: what it does, and the values it replaces.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Fix {
+    pub description: String,
+    /// Each edit replaces the text of a value span (a YAML scalar) with
+    /// new text.
+    pub edits: Vec<(Location, String)>,
 }
 
 impl Finding {
@@ -90,7 +103,26 @@ impl Finding {
             suppressed: None,
             baselined: None,
             severity_chosen: false,
+            fix: None,
         }
+    }
+
+    /// A fix replacing the value at `location` (a scalar's span) with
+    /// `replacement`.
+    pub fn with_fix(
+        mut self,
+        description: impl Into<String>,
+        location: Location,
+        replacement: impl Into<String>,
+    ) -> Self {
+        if location.span.is_empty() {
+            return self;
+        }
+        self.fix = Some(Fix {
+            description: description.into(),
+            edits: vec![(location, replacement.into())],
+        });
+        self
     }
 
     /// Give this finding its own severity (see `severity_chosen`).

@@ -9,9 +9,10 @@
 use std::collections::BTreeMap;
 
 use serde_sarif::sarif::{
-    ArtifactLocation, Location, Message, MultiformatMessageString, PhysicalLocation, Region,
-    ReportingConfiguration, ReportingDescriptor, Result as SarifResult, ResultLevel, Run, Sarif,
-    Suppression, Tool, ToolComponent,
+    ArtifactChange, ArtifactContent, ArtifactLocation, Fix, Location, Message,
+    MultiformatMessageString, PhysicalLocation, Region, Replacement, ReportingConfiguration,
+    ReportingDescriptor, Result as SarifResult, ResultLevel, Run, Sarif, Suppression, Tool,
+    ToolComponent,
 };
 
 use crate::finding::{Finding, Severity};
@@ -148,6 +149,27 @@ pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url:
             };
             if !related.is_empty() {
                 r.related_locations = Some(related);
+            }
+            if let Some(fx) = &f.fix {
+                let changes: Vec<ArtifactChange> = fx
+                    .edits
+                    .iter()
+                    .map(|(loc, text)| {
+                        ArtifactChange::builder()
+                            .artifact_location(artifact(lines.db(), loc.file))
+                            .replacements(vec![Replacement::builder()
+                                .deleted_region(region(&lines, loc))
+                                .inserted_content(
+                                    ArtifactContent::builder().text(text.clone()).build(),
+                                )
+                                .build()])
+                            .build()
+                    })
+                    .collect();
+                r.fixes = Some(vec![Fix::builder()
+                    .description(text(fx.description.clone()))
+                    .artifact_changes(changes)
+                    .build()]);
             }
             if let Some(b) = f.baselined {
                 let state = if b { "unchanged" } else { "new" };

@@ -164,6 +164,21 @@ impl Rule for ImpedanceOffTarget {
                     None => "get the roughness of the faces from the foil and the fabricator's treatment data to narrow the range".into(),
                 })
             };
+            // The solved width as an edit of the `width:` value, where a
+            // width fixes the line (not for a plane beyond another layer).
+            let f = match ca.width_for_target.filter(|_| !far_plane) {
+                Some(w) if (w - nc.width).abs() > 0.05e-6 => f.with_fix(
+                    format!(
+                        "set the width of net class `{}` to {:.1} µm, the width that meets {:.1} Ω with the declared copper",
+                        nc.name,
+                        w * 1e6,
+                        t.target
+                    ),
+                    cx.at(&format!("{}/width", nc.pointer)),
+                    format!("{:.4} mm", w * 1e3),
+                ),
+                _ => f,
+            };
             // Whole ohms: a baseline holds until the line moves by one.
             out.push(f.key(key_step(far, 1.0)));
         }

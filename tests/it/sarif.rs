@@ -146,3 +146,79 @@ fn suppressed_findings_are_kept_as_suppressed() {
         "prototype lot, thickness not controlled"
     );
 }
+
+/// A SARIF fix, applied as a review tool would (its replacement at its
+/// region, columns in code points, the end column exclusive), resolves its
+/// finding: the line card's 90 Ω pair at its proposed width no longer
+/// misses its target.
+#[test]
+fn a_sarif_fix_applied_resolves_its_finding() {
+    let dir = tempfile::tempdir().unwrap();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let board = dir.path().join("board.stackup.yaml");
+    std::fs::copy(
+        root.join("examples/line-card-10l/board.stackup.yaml"),
+        &board,
+    )
+    .unwrap();
+    crate::common::copy_line_card_coupons(dir.path());
+    let check = |sarif: &Path| {
+        Command::new(env!("CARGO_BIN_EXE_stackup-lint"))
+            .current_dir(dir.path())
+            .args(["check", "board.stackup.yaml", "--root", ".", "--sarif"])
+            .arg(sarif)
+            .output()
+            .expect("binary runs")
+    };
+    let out = dir.path().join("a.sarif");
+    check(&out);
+    let log: Value = serde_json::from_str(&std::fs::read_to_string(&out).unwrap()).unwrap();
+    let results = log["runs"][0]["results"].as_array().unwrap();
+    let fixed: Vec<&Value> = results
+        .iter()
+        .filter(|r| r.get("fixes").is_some())
+        .collect();
+    assert!(!fixed.is_empty());
+    let r = fixed
+        .iter()
+        .find(|r| {
+            r["message"]["text"]
+                .as_str()
+                .unwrap()
+                .contains("host-56g-pam4")
+        })
+        .expect("a fix for the host pair");
+    let rep = &r["fixes"][0]["artifactChanges"][0]["replacements"][0];
+    let (line, c0, c1) = (
+        rep["deletedRegion"]["startLine"].as_u64().unwrap() as usize,
+        rep["deletedRegion"]["startColumn"].as_u64().unwrap() as usize,
+        rep["deletedRegion"]["endColumn"].as_u64().unwrap() as usize,
+    );
+    let new = rep["insertedContent"]["text"].as_str().unwrap();
+    let text = std::fs::read_to_string(&board).unwrap();
+    let mut lines: Vec<String> = text.lines().map(str::to_string).collect();
+    let l: Vec<char> = lines[line - 1].chars().collect();
+    let old: String = l[c0 - 1..c1 - 1].iter().collect();
+    assert_eq!(old, "0.195 mm", "the region is the width's value");
+    lines[line - 1] = format!(
+        "{}{new}{}",
+        l[..c0 - 1].iter().collect::<String>(),
+        l[c1 - 1..].iter().collect::<String>()
+    );
+    std::fs::write(&board, lines.join("\n") + "\n").unwrap();
+    let out2 = dir.path().join("b.sarif");
+    check(&out2);
+    let log2: Value = serde_json::from_str(&std::fs::read_to_string(&out2).unwrap()).unwrap();
+    let still = log2["runs"][0]["results"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .any(|r| {
+            r["ruleId"] == "impedance-off-target"
+                && r["message"]["text"]
+                    .as_str()
+                    .unwrap()
+                    .contains("host-56g-pam4")
+        });
+    assert!(!still, "the fixed width still misses its target");
+}
