@@ -502,7 +502,12 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
         let root = conf.root_of(&path);
         let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
         let mut ok = true;
-        for c in &mut s.coupons {
+        let pairs: Vec<bool> = s
+            .coupons
+            .iter()
+            .map(|c| s.net_classes[c.net_class].structure.is_differential())
+            .collect();
+        for (c, pair) in s.coupons.iter_mut().zip(pairs) {
             for f in &mut c.files {
                 let rel = Path::new(&f.path);
                 let full = dir.join(rel);
@@ -555,6 +560,19 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
                         );
                     }
                 }
+            }
+            if let Err((i, why)) = c.check_files(pair) {
+                ok = false;
+                let f = &c.files[i];
+                loaded.problems.push(
+                    Finding::new(
+                        INVALID_INPUT,
+                        loaded.db.locate(s.file, &f.pointer),
+                        format!("coupon `{}`: file `{}` does not fit: {why}", c.name, f.path),
+                    )
+                    .label("coupon file")
+                    .with_help("a single line's coupon is a two-port (.s2p), a pair's a four-port (.s4p, ports 1-2 one line, 3-4 the other); the files of one coupon share one sweep and one reference impedance"),
+                );
             }
         }
         if ok {

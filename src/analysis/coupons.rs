@@ -205,32 +205,11 @@ fn analyze_one(
     let nc = &s.net_classes[c.net_class];
     let ca = &a.classes[c.net_class];
     let nets = networks(c)?;
+    // The loader has checked the files against each other and the class
+    // (`Coupon::check_files`).
     let pair = nc.structure.is_differential();
     let ports = if pair { 4 } else { 2 };
-    for (n, f) in nets.iter().zip(&c.files) {
-        if n.ports != ports {
-            return Err(format!(
-                "file `{}` has {} ports; net class `{}` is {} and needs {ports}",
-                f.path,
-                n.ports,
-                nc.name,
-                if pair { "a pair" } else { "a single line" }
-            ));
-        }
-    }
     let freqs = nets[0].frequencies.clone();
-    if nets.iter().any(|n| {
-        n.frequencies.len() != freqs.len()
-            || n.frequencies
-                .iter()
-                .zip(&freqs)
-                .any(|(x, y)| (x - y).abs() > 1e-9 * y.abs().max(1.0))
-    }) {
-        return Err("the coupon's files are not on the same frequencies".into());
-    }
-    if nets.iter().any(|n| n.reference != nets[0].reference) {
-        return Err("the coupon's files use different reference impedances".into());
-    }
     // The range the user trusts, and the structure's own limit.
     let lo = c.trust.0.unwrap_or(0.0);
     let mut hi = c.trust.1.unwrap_or(f64::INFINITY);
@@ -277,14 +256,21 @@ fn analyze_one(
             ));
         }
     }
-    let model: Vec<SweepPoint> = sweep(s, a, c.net_class, &freqs)
-        .ok_or_else(|| format!("net class `{}` was not solved", nc.name))?;
+    // The model at the measured frequencies (a line pair: every point; a
+    // resonator: its resonances, below).
+    let model_at = |fs: &[f64]| {
+        sweep(s, a, c.net_class, fs)
+            .ok_or_else(|| format!("net class `{}` was not solved", nc.name))
+    };
     // What a measurement of the modelled line would read: β and α of its
     // RLGC (the skin effect's internal inductance R/ω included: it slows
     // a thin line noticeably at low frequency, and a coupon measures it).
     let model_eps = |p: &SweepPoint| measured_view(p).0;
     let model_loss = |p: &SweepPoint| measured_view(p).1;
-    let guess = model.first().map(model_eps);
+    let f_first = *freqs
+        .first()
+        .ok_or("the coupon's files hold no frequency")?;
+    let guess = model_at(&[f_first])?.first().map(model_eps);
     match c.kind {
         CouponKind::LinePair { lengths } => {
             let dl = lengths[1] - lengths[0];
@@ -312,6 +298,7 @@ fn analyze_one(
             };
             let mut last: Option<f64> = None;
             let mut ill = 0;
+            let model = model_at(&freqs)?;
             for (p, m) in pts.iter().zip(&model) {
                 let Some(g) = p.propagation else {
                     continue;
@@ -408,10 +395,9 @@ fn analyze_one(
             }
             let r0 = nets[0].reference.first().copied().unwrap_or(50.0);
             let mut resonances = r.resonances;
-            for x in &mut resonances {
-                let m = sweep(s, a, c.net_class, &[x.freq])
-                    .and_then(|v| v.into_iter().next())
-                    .ok_or("the model gave no numbers at a resonance")?;
+            let at: Vec<f64> = resonances.iter().map(|x| x.freq).collect();
+            let model = model_at(&at)?;
+            for (x, m) in resonances.iter_mut().zip(&model) {
                 // The coupling gaps lengthen the resonator too: each is a
                 // series capacitance into the port, whose susceptance is
                 // an end extension; its size follows from the coupling
@@ -434,9 +420,9 @@ fn analyze_one(
                 out.points.push(CouponPoint {
                     frequency: x.freq,
                     eps_measured: x.eps_eff,
-                    eps_model: model_eps(&m),
+                    eps_model: model_eps(m),
                     loss_measured,
-                    loss_model: model_loss(&m),
+                    loss_model: model_loss(m),
                     tan_delta,
                     reliable: x.flags.is_empty(),
                     in_range: false,

@@ -57,6 +57,68 @@ pub struct CouponFile {
     pub network: Option<Network>,
 }
 
+impl Coupon {
+    /// Whether the parsed files fit the coupon and its net class: the port
+    /// count of its structure (two for a single line, four for a pair),
+    /// one frequency grid and one set of reference impedances for all
+    /// files. On a misfit: the index of the file at fault and why.
+    pub fn check_files(&self, pair: bool) -> Result<(), (usize, String)> {
+        let ports = if pair { 4 } else { 2 };
+        let nets: Vec<(usize, &Network)> = self
+            .files
+            .iter()
+            .enumerate()
+            .filter_map(|(i, f)| Some((i, f.network.as_ref()?)))
+            .collect();
+        for &(i, n) in &nets {
+            if n.ports != ports {
+                return Err((
+                    i,
+                    format!(
+                        "it has {} ports, and a coupon of a {} needs {ports}",
+                        n.ports,
+                        if pair { "pair" } else { "single line" }
+                    ),
+                ));
+            }
+        }
+        let Some(&(_, first)) = nets.first() else {
+            return Ok(());
+        };
+        for &(i, n) in &nets[1..] {
+            let differs = if n.frequencies.len() != first.frequencies.len() {
+                Some(format!(
+                    "it has {} frequency points and the coupon's first file {}",
+                    n.frequencies.len(),
+                    first.frequencies.len()
+                ))
+            } else {
+                n.frequencies
+                    .iter()
+                    .zip(&first.frequencies)
+                    .find(|(x, y)| (*x - *y).abs() > 1e-9 * y.abs().max(1.0))
+                    .map(|(x, y)| {
+                        format!(
+                            "its sweep differs from the coupon's first file's ({} where that has {})",
+                            crate::units::fmt_frequency(*x),
+                            crate::units::fmt_frequency(*y)
+                        )
+                    })
+            };
+            if let Some(why) = differs {
+                return Err((i, format!("{why}; measure both lines over one sweep")));
+            }
+            if n.reference != first.reference {
+                return Err((
+                    i,
+                    "its reference impedances differ from the coupon's first file's".into(),
+                ));
+            }
+        }
+        Ok(())
+    }
+}
+
 pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
     let n = r
         .node("/coupons")

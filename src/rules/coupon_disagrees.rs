@@ -48,6 +48,29 @@ impl Rule for CouponDisagrees {
         for ca in &cx.analysis.coupons {
             let c = &s.coupons[ca.coupon];
             let nc = &s.net_classes[c.net_class];
+            // A coupon that gives nothing to compare says so: a measurement
+            // the check silently skips would read as one that agreed.
+            let unused = match (&ca.failure, ca.range) {
+                (Some(why), _) => Some(format!("could not be extracted: {why}")),
+                (None, None) => Some(format!(
+                    "has no reliable point inside its valid range ({})",
+                    ca.range_notes.join("; ")
+                )),
+                _ => None,
+            };
+            if let Some(why) = unused {
+                out.push(
+                    Finding::new(
+                        META.name,
+                        cx.at(&format!("{}/name", c.pointer)),
+                        format!("coupon `{}` {why}; it checks nothing", c.name),
+                    )
+                    .label("coupon not used")
+                    .with_help("check the files against the coupon's kind and lengths, and the sweep against its trust range (`stackup-lint coupons` shows every point)")
+                    .with_severity(Severity::Warning),
+                );
+                continue;
+            }
             let Some((lo, hi)) = ca.range else {
                 continue;
             };

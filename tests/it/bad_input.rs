@@ -100,6 +100,8 @@ const CASES: &[Case] = &[
     case("coupon-empty.stackup.yaml", "line 1: empty file: no option line and no data", 38, 13, Some("coupons/empty.s2p")),
     case("coupon-not-text.stackup.yaml", "the file is not text (Touchstone files are ASCII)", 38, 13, Some("coupons/not-text.s2p")),
     case("coupon-missing.stackup.yaml", "file `coupons/no-such-file.s2p`", 38, 13, Some("coupons/no-such-file.s2p")),
+    case("coupon-ports-for-class.stackup.yaml", "does not fit: it has 4 ports, and a coupon of a single line needs 2", 38, 13, Some("coupons/four-port.s4p")),
+    case("coupon-different-sweeps.stackup.yaml", "its sweep differs from the coupon's first file's (2.500 GHz where that has 2 GHz)", 38, 33, Some("coupons/grid-b.s2p")),
     case("coupon-outside-project.stackup.yaml", "the path resolves outside the project root", 38, 13, Some("../../../../../../../etc/hostname")),
     case("coupon-absolute-path.stackup.yaml", "an absolute path; coupon files are relative to the stackup file", 38, 13, Some("/etc/hostname.s2p")),
     case("huray-half-sphere-data.stackup.yaml", "a fitted Huray model needs both sphere keys; `huray-surface-ratio` is missing", 14, 19, Some("0.5 um")),

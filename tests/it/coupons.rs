@@ -233,3 +233,42 @@ fn a_pair_coupon_gives_the_odd_mode() {
     );
     assert!(c["loss_difference"].as_f64().unwrap().abs() < 0.03, "{c}");
 }
+
+/// A coupon that gives nothing to compare is reported, not skipped: a
+/// plain line's file named as a resonator has no resonance.
+#[test]
+fn a_coupon_that_checks_nothing_is_reported() {
+    let (dir, ex) = sensor_project(&["radar-sensor-6l/coupons"]);
+    let board = ex.join("radar-sensor-6l/board.stackup.yaml");
+    let text = std::fs::read_to_string(&board).unwrap();
+    let text = text.replace(
+        "files: [coupons/lo-resonator-60mm.s2p]",
+        "files: [coupons/lo-line-25mm.s2p]",
+    );
+    std::fs::write(&board, text).unwrap();
+    let (code, out, err) = run_in(
+        dir.path(),
+        &[
+            "check",
+            "examples/radar-sensor-6l",
+            "--root",
+            ".",
+            "--format",
+            "json",
+        ],
+    );
+    assert_eq!(code, Some(0), "{err}");
+    let v: Value = serde_json::from_str(&out).unwrap();
+    let f = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|f| f["rule"] == "coupon-disagrees-with-stackup")
+        .expect("a finding for the unused coupon");
+    assert_eq!(f["severity"], "warning");
+    let m = f["message"].as_str().unwrap();
+    assert!(
+        m.contains("lo-resonator") && m.contains("checks nothing"),
+        "{m}"
+    );
+}
