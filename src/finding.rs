@@ -80,13 +80,22 @@ pub struct Finding {
     pub fix: Option<Fix>,
 }
 
-/// A fix: what it does, and the values it replaces.
+/// A fix: what it does, and the text edits that make it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Fix {
     pub description: String,
-    /// Each edit replaces the text of a value span (a YAML scalar) with
-    /// new text.
-    pub edits: Vec<(Location, String)>,
+    pub edits: Vec<Edit>,
+}
+
+/// One text edit of a YAML file: the text at `location.span` (a scalar's
+/// span, or an empty span where a key is inserted) becomes `text`, after
+/// which the node at `location.pointer` reads `value` (its source text).
+/// Built by [`crate::edit`], which keeps the user's unit and quoting.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Edit {
+    pub location: Location,
+    pub text: String,
+    pub value: String,
 }
 
 impl Finding {
@@ -107,21 +116,21 @@ impl Finding {
         }
     }
 
-    /// A fix replacing the value at `location` (a scalar's span) with
-    /// `replacement`.
+    /// A fix made of `edits`; none when any edit could not be placed
+    /// (a value the file does not hold as a plain scalar, a mapping
+    /// written in flow style): a partial fix would be wrong.
     pub fn with_fix(
         mut self,
         description: impl Into<String>,
-        location: Location,
-        replacement: impl Into<String>,
+        edits: impl IntoIterator<Item = Option<Edit>>,
     ) -> Self {
-        if location.span.is_empty() {
-            return self;
+        let edits: Option<Vec<Edit>> = edits.into_iter().collect();
+        if let Some(edits) = edits.filter(|e| !e.is_empty()) {
+            self.fix = Some(Fix {
+                description: description.into(),
+                edits,
+            });
         }
-        self.fix = Some(Fix {
-            description: description.into(),
-            edits: vec![(location, replacement.into())],
-        });
         self
     }
 

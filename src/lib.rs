@@ -6,9 +6,11 @@
 
 pub mod analysis;
 pub mod baseline;
+pub mod edit;
 pub mod engine;
 pub mod files;
 pub mod finding;
+pub mod fix;
 pub mod input;
 pub mod load;
 pub mod model;

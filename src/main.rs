@@ -156,6 +156,23 @@ enum Command {
         #[command(flatten)]
         solve: SolveArgs,
     },
+    /// Apply the fixes that need no judgement (a solved width, a modelled
+    /// Dk to record, matched-group lengths) to the YAML at their values,
+    /// leaving everything else as written
+    Fix {
+        /// Files or directories to fix [default: .]
+        paths: Vec<PathBuf>,
+        #[command(flatten)]
+        walk: WalkArgs,
+        /// Print the changes as a unified diff and write nothing
+        #[arg(long)]
+        dry_run: bool,
+        /// Apply only this rule's fixes (repeatable)
+        #[arg(long = "rule", value_name = "NAME")]
+        rules: Vec<String>,
+        #[command(flatten)]
+        solve: SolveArgs,
+    },
     /// Hold each measured test coupon (`coupons:`) against the stackup's
     /// model of its structure: effective Dk and loss across frequency, the
     /// range the data are valid over, the Dk they imply
@@ -340,6 +357,20 @@ fn main() -> ExitCode {
                 run,
             )
         }
+        Command::Fix {
+            paths,
+            walk,
+            dry_run,
+            rules: only,
+            solve,
+        } => fix_command(
+            paths,
+            walk.options(),
+            root,
+            solve.options(run),
+            dry_run,
+            &only,
+        ),
         Command::Rules => {
             let mut out = String::new();
             for m in rules::all_meta() {
@@ -508,6 +539,86 @@ fn main() -> ExitCode {
     }
 }
 
+/// `fix`: check, plan the edits the findings carry, then print them as a
+/// diff (`--dry-run`) or write them. Exit 0 when done or nothing to fix,
+/// 1 when the plan is refused (nothing written), 2 on input errors.
+fn fix_command(
+    paths: Vec<PathBuf>,
+    walk: WalkOptions,
+    root: Option<PathBuf>,
+    run: AnalysisOptions,
+    dry_run: bool,
+    only: &[String],
+) -> ExitCode {
+    if let Some(bad) = only.iter().find(|r| rules::find_meta(r).is_none()) {
+        eprintln!(
+            "error: no rule named `{}` (`stackup-lint rules` lists them)",
+            output::escape::controls(bad)
+        );
+        return ExitCode::from(2);
+    }
+    let outcome = match check_for_writing(
+        paths,
+        walk,
+        root,
+        run,
+        "the input has errors; fix them first (nothing was changed)",
+    ) {
+        Ok(o) => o,
+        Err(code) => return code,
+    };
+    let plan = match stackup_lint::fix::plan(&outcome.findings, &outcome.db, only) {
+        Ok(p) => p,
+        Err(why) => {
+            for w in why {
+                eprintln!("refused: {}", output::escape::controls(&w));
+            }
+            eprintln!("nothing was changed");
+            return ExitCode::from(1);
+        }
+    };
+    let left = outcome
+        .findings
+        .iter()
+        .filter(|f| f.suppressed.is_none() && f.fix.is_none())
+        .count();
+    let mut text = String::new();
+    if dry_run {
+        text.push_str(&plan.diff());
+    }
+    for c in &plan.changes {
+        for a in &c.applied {
+            text.push_str(&format!(
+                "{}:{}:{}: {}: {}\n",
+                c.display, a.line, a.column, a.rule, a.description
+            ));
+        }
+    }
+    let verb = if dry_run { "would apply" } else { "applied" };
+    text.push_str(&format!(
+        "{verb} {} fix{} in {} file{}; {left} finding{} need{} a judgement and {} left as help (`stackup-lint check` shows {})\n",
+        plan.fixes(),
+        if plan.fixes() == 1 { "" } else { "es" },
+        plan.changes.len(),
+        if plan.changes.len() == 1 { "" } else { "s" },
+        if left == 1 { "" } else { "s" },
+        if left == 1 { "s" } else { "" },
+        if left == 1 { "is" } else { "are" },
+        if left == 1 { "it" } else { "them" },
+    ));
+    if !dry_run {
+        if let Err(e) = stackup_lint::fix::write(&plan, InputLimits::default().max_file_bytes) {
+            eprintln!("refused: {}", output::escape::controls(&e));
+            return ExitCode::from(1);
+        }
+    }
+    let text = output::escape::controls_keep_lines(&text);
+    match print(&text) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(code) => code,
+    }
+}
+
 /// What `impedance --sweep` asks for.
 struct SweepArgs {
     freqs: Vec<f64>,
@@ -661,30 +772,16 @@ fn baseline_write(
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
-    let paths = if paths.is_empty() {
-        vec![PathBuf::from(".")]
-    } else {
-        paths
-    };
-    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
-    let opts = CheckOptions {
+    let outcome = match check_for_writing(
+        paths,
         walk,
         root,
-        analysis: run,
-        ..CheckOptions::default()
-    };
-    let outcome = match engine::check_paths(&paths, &base, &opts) {
+        run,
+        "input errors are never baselined; fix them first (nothing written)",
+    ) {
         Ok(o) => o,
-        Err(e) => {
-            eprintln!("error: {e}");
-            return ExitCode::from(2);
-        }
+        Err(code) => return code,
     };
-    if outcome.has_input_errors() {
-        print_input_errors(&outcome);
-        eprintln!("error: input errors are never baselined; fix them first (nothing written)");
-        return ExitCode::from(2);
-    }
     let b = Baseline::record(&outcome);
     let inputs = stackup_lint::files::input_paths(&outcome.db);
     let shown = output::escape::controls(&output.to_string_lossy()).into_owned();
@@ -701,6 +798,40 @@ fn baseline_write(
 }
 
 /// Print a run's input errors (plain text) to standard output.
+/// Check `paths` for a command that writes from the findings (`baseline
+/// write`, `fix`): input errors are printed, then `why`, and end the run
+/// with code 2.
+fn check_for_writing(
+    paths: Vec<PathBuf>,
+    walk: WalkOptions,
+    root: Option<PathBuf>,
+    run: AnalysisOptions,
+    why: &str,
+) -> Result<engine::CheckOutcome, ExitCode> {
+    let paths = if paths.is_empty() {
+        vec![PathBuf::from(".")]
+    } else {
+        paths
+    };
+    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let opts = CheckOptions {
+        walk,
+        root,
+        analysis: run,
+        ..CheckOptions::default()
+    };
+    let outcome = engine::check_paths(&paths, &base, &opts).map_err(|e| {
+        eprintln!("error: {e}");
+        ExitCode::from(2)
+    })?;
+    if outcome.has_input_errors() {
+        print_input_errors(&outcome);
+        eprintln!("error: {why}");
+        return Err(ExitCode::from(2));
+    }
+    Ok(outcome)
+}
+
 fn print_input_errors(outcome: &engine::CheckOutcome) {
     let errors: Vec<_> = outcome
         .findings

@@ -192,6 +192,18 @@ fn split_number(text: &str) -> Result<(f64, &str), UnitError> {
     Ok((value, rest.trim()))
 }
 
+/// The number and unit of a quantity as written ("0.2 mm" → 0.2, "mm"),
+/// with the unit's scale to SI (1 for a bare number). For edits that keep
+/// the user's unit.
+pub fn written_unit(text: &str) -> Option<(f64, &str, f64)> {
+    let (value, unit) = split_number(text).ok()?;
+    if unit.is_empty() {
+        return Some((value, unit, 1.0));
+    }
+    let (scale, _) = unit_scale(unit)?;
+    Some((value, unit, scale))
+}
+
 /// Parse a quantity given as text into SI.
 pub fn parse_quantity(text: &str, dim: Dimension) -> Result<f64, UnitError> {
     let (value, unit) = split_number(text)?;

@@ -19,8 +19,9 @@ pub struct NetDelay {
     /// Delay, s, or the JSON pointers of the segments whose delay is
     /// unknown (no solved class on their layer).
     pub delay: Result<f64, Vec<String>>,
-    /// The net's longest segment: its layer and the delay per unit length
-    /// there (s/m), when known (to say how much length a skew is).
+    /// The net's longest segment: its index in the net and the delay per
+    /// unit length there (s/m), when known (to say how much length a skew
+    /// is, and where to add it).
     pub longest: Option<(usize, f64)>,
 }
 
@@ -56,8 +57,9 @@ fn net_delay(s: &Stackup, classes: &[ClassAnalysis], net: &Net) -> NetDelay {
     let longest = net
         .segments
         .iter()
-        .max_by(|x, y| x.length.total_cmp(&y.length))
-        .and_then(|seg| Some((seg.layer_index, per_m(seg)?)));
+        .enumerate()
+        .max_by(|x, y| x.1.length.total_cmp(&y.1.length))
+        .and_then(|(i, seg)| Some((i, per_m(seg)?)));
     NetDelay {
         delay: if missing.is_empty() {
             Ok(t)

@@ -151,18 +151,32 @@ pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url:
                 r.related_locations = Some(related);
             }
             if let Some(fx) = &f.fix {
-                let changes: Vec<ArtifactChange> = fx
-                    .edits
-                    .iter()
-                    .map(|(loc, text)| {
+                // One change per file, its replacements in file order.
+                let mut by_file: BTreeMap<usize, Vec<&crate::finding::Edit>> = BTreeMap::new();
+                for e in &fx.edits {
+                    by_file.entry(e.location.file).or_default().push(e);
+                }
+                let changes: Vec<ArtifactChange> = by_file
+                    .into_iter()
+                    .map(|(file, mut edits)| {
+                        edits.sort_by_key(|e| (e.location.span.start, e.location.span.end));
                         ArtifactChange::builder()
-                            .artifact_location(artifact(lines.db(), loc.file))
-                            .replacements(vec![Replacement::builder()
-                                .deleted_region(region(&lines, loc))
-                                .inserted_content(
-                                    ArtifactContent::builder().text(text.clone()).build(),
-                                )
-                                .build()])
+                            .artifact_location(artifact(lines.db(), file))
+                            .replacements(
+                                edits
+                                    .iter()
+                                    .map(|e| {
+                                        Replacement::builder()
+                                            .deleted_region(region(&lines, &e.location))
+                                            .inserted_content(
+                                                ArtifactContent::builder()
+                                                    .text(e.text.clone())
+                                                    .build(),
+                                            )
+                                            .build()
+                                    })
+                                    .collect::<Vec<_>>(),
+                            )
                             .build()
                     })
                     .collect();

@@ -318,6 +318,21 @@ fn rough_finding(
         key_step(c.apparent_best, 0.02),
         key_step(c.apparent_worst, 0.02)
     ));
+    // Recording the worst-case apparent Dk, rounded up to the two decimals
+    // Dk is written with, is the edit the help asks for.
+    let dk = (c.apparent_worst * 100.0).ceil() / 100.0;
+    f = f.with_fix(
+        format!(
+            "record `modelled-dk: {dk:.2}` for {} `{}` (size its lines with this Dk in the impedance model the widths come from)",
+            d.kind.as_str(),
+            layer.name
+        ),
+        [cx.edit_key(
+            &format!("{}/dielectric", layer.pointer),
+            "modelled-dk",
+            &format!("{dk:.2}"),
+        )],
+    );
     for (_, ptr, _) in &c.faces {
         if let Some(p) = ptr {
             f = f.secondary(cx.at(p), "copper face touching this ply");

@@ -63,6 +63,30 @@ impl<'a> RuleContext<'a> {
         self.db.locate(self.stackup.file, pointer)
     }
 
+    /// An edit setting the quantity at `pointer` to `si` (SI units) to a
+    /// resolution of `step`, in the unit and quoting the file uses there
+    /// (see [`crate::edit`]).
+    pub fn edit_quantity(
+        &self,
+        pointer: &str,
+        si: f64,
+        step: f64,
+        dim: crate::units::Dimension,
+    ) -> Option<crate::finding::Edit> {
+        crate::edit::quantity(self.db, self.stackup.file, pointer, si, step, dim)
+    }
+
+    /// An edit setting `key` of the mapping at `map_pointer` to `value`
+    /// (YAML text), inserting the key if it is missing.
+    pub fn edit_key(
+        &self,
+        map_pointer: &str,
+        key: &str,
+        value: &str,
+    ) -> Option<crate::finding::Edit> {
+        crate::edit::set_key(self.db, self.stackup.file, map_pointer, key, value)
+    }
+
     /// Location of the key that introduces a node (for whole entries).
     pub fn at_key(&self, pointer: &str) -> Location {
         self.db.locate_key(self.stackup.file, pointer)

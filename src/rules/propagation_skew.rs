@@ -152,15 +152,41 @@ impl Rule for PropagationSkew {
             let slow_net = &g.nets[slow];
             let fast_net = &g.nets[fast];
             // Length change on the slow net's longest segment's layer.
-            let fix = gd.nets[slow].longest.map(|(layer, d)| {
+            let fix = gd.nets[slow].longest.map(|(seg, d)| {
                 format!(
                     "shorten `{}` on `{}` by {} (or lengthen `{}` by the same delay)",
                     slow_net.name,
-                    s.layers[layer].name,
+                    s.layers[slow_net.segments[seg].layer_index].name,
                     fmt_length(spread / d),
                     fast_net.name
                 )
             });
+            // The edit: every net that arrives early lengthened on its
+            // longest segment until it arrives with the slowest (tuning
+            // adds length; it cannot take any away).
+            let mut added = Vec::new();
+            let edits: Vec<Option<crate::finding::Edit>> = delays
+                .iter()
+                .filter(|&&(_, t)| t_slow - t > 0.01e-12)
+                .map(|&(ni, t)| {
+                    let (seg, d) = gd.nets[ni].longest?;
+                    let sg = &g.nets[ni].segments[seg];
+                    let more = (t_slow - t) / d;
+                    added.push(format!(
+                        "`{}` by {} on `{}`",
+                        g.nets[ni].name,
+                        fmt_length(more),
+                        s.layers[sg.layer_index].name
+                    ));
+                    cx.edit_quantity(
+                        &format!("{}/length", sg.pointer),
+                        sg.length + more,
+                        // 1 µm: 0.01 ps on a board.
+                        1e-6,
+                        Dimension::Length,
+                    )
+                })
+                .collect();
             let len = |n: &crate::model::Net| n.segments.iter().map(|x| x.length).sum::<f64>();
             out.push(
                 Finding::new(
@@ -183,6 +209,14 @@ impl Rule for PropagationSkew {
                 .secondary(cx.at(&format!("{}/name", slow_net.pointer)), "slowest net")
                 .secondary(cx.at(&format!("{}/name", fast_net.pointer)), "fastest net")
                 .with_help(fix.unwrap_or_else(|| "equalise the delays, not the lengths".into()))
+                .with_fix(
+                    format!(
+                        "lengthen {} to arrive with `{}` (each on its longest segment; route the layout to the new lengths)",
+                        added.join(", "),
+                        slow_net.name,
+                    ),
+                    edits,
+                )
                 // Whole picoseconds.
                 .key(key_step(spread * 1e12, 1.0)),
             );

@@ -15,6 +15,7 @@ mod core_rules;
 mod coupons;
 mod determinism;
 mod examples;
+mod fix;
 mod fuzz_regressions;
 mod glass_weave;
 mod hostile_input;

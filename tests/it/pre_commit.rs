@@ -178,16 +178,8 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
     // The first hook run builds stackup-lint (cargo install) and checks the
     // clean board: the commit goes through.
     ok(git(&hw).args(["add", "-A"]));
-    let mut commit = git(&hw);
-    commit.args(["commit", "-m", "clean board"]);
-    with_env(&mut commit);
     let built = Instant::now();
-    let o = run(&mut commit);
-    let text = format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    );
+    let (o, text) = commit(&hw, "clean board", &with_env);
     assert!(o.status.success(), "clean board refused:\n{text}");
     assert!(text.contains("stackup-lint"), "hook did not run:\n{text}");
     assert!(text.contains("Passed"), "hook did not pass:\n{text}");
@@ -209,15 +201,7 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
     );
     let head_before = ok(git(&hw).args(["rev-parse", "HEAD"])).stdout;
     ok(git(&hw).args(["add", "-A"]));
-    let mut commit = git(&hw);
-    commit.args(["commit", "-m", "flawed board"]);
-    with_env(&mut commit);
-    let o = run(&mut commit);
-    let text = format!(
-        "{}{}",
-        String::from_utf8_lossy(&o.stdout),
-        String::from_utf8_lossy(&o.stderr)
-    );
+    let (o, text) = commit(&hw, "flawed board", &with_env);
     assert!(!o.status.success(), "flawed board was committed:\n{text}");
     assert!(text.contains("Failed"), "hook did not fail:\n{text}");
     // The hook's own report reaches the user: an error-level rule, the file.
@@ -231,10 +215,46 @@ fn pre_commit_hook_passes_clean_and_refuses_flawed_stackups() {
         head_before, head_after,
         "HEAD moved although the hook failed"
     );
+
+    // The fixing hook on the same staged board: it applies the fixes,
+    // fails the commit as fixing hooks do, and the edits are in the file.
+    std::fs::write(
+        hw.join(".pre-commit-config.yaml"),
+        format!(
+            "repos:\n  - repo: {}\n    rev: {rev}\n    hooks:\n      - id: stackup-lint-fix\n",
+            hooks.display()
+        ),
+    )
+    .unwrap();
+    ok(git(&hw).args(["add", "-A"]));
+    let (o, text) = commit(&hw, "flawed board, fixed", &with_env);
+    assert!(!o.status.success(), "{text}");
+    assert!(text.contains("files were modified by this hook"), "{text}");
+    let board = std::fs::read_to_string(stackups.join("line-card/board.stackup.yaml")).unwrap();
+    assert!(board.contains("modelled-dk: 3.18"), "{board}");
+    // Staged again, the fixes have nothing left to do.
+    ok(git(&hw).args(["add", "-A"]));
+    let (o, text) = commit(&hw, "flawed board, fixed", &with_env);
+    assert!(o.status.success(), "{text}");
     println!(
         "pre-commit test took {:.0} s",
         started.elapsed().as_secs_f64()
     );
+}
+
+/// `git commit -m msg` in `hw` with pre-commit's environment: the output
+/// and its text (stdout then stderr).
+fn commit(hw: &Path, msg: &str, with_env: &dyn Fn(&mut Command)) -> (Output, String) {
+    let mut c = git(hw);
+    c.args(["commit", "-m", msg]);
+    with_env(&mut c);
+    let o = run(&mut c);
+    let text = format!(
+        "{}{}",
+        String::from_utf8_lossy(&o.stdout),
+        String::from_utf8_lossy(&o.stderr)
+    );
+    (o, text)
 }
 
 /// Copies a demo board's measured coupon files (`coupons/`) beside its copy.

@@ -13,7 +13,7 @@ use std::ops::Range;
 
 use crate::source::{unescape_token, SpanChildren, SpanNode};
 
-pub use parse::parse;
+pub use parse::{parse, parse_with_anchors};
 
 /// Input budgets enforced while reading YAML.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -52,10 +52,21 @@ impl<'a> Offsets<'a> {
 /// An empty document gives a `Null` node. A stream of several documents is
 /// rejected: one stackup per file.
 pub fn parse(text: &str, limits: YamlLimits) -> Result<Node, YamlError> {
+    parse_with_anchors(text, limits).map(|(node, _)| node)
+}
+
+/// As [`parse`], and also return the spans of every anchored node (`&name`)
+/// and alias (`*name`): text that stands for more than one place, which an
+/// edit must not change unseen.
+pub fn parse_with_anchors(
+    text: &str,
+    limits: YamlLimits,
+) -> Result<(Node, Vec<Range<usize>>), YamlError> {
     let offsets = Offsets::new(text);
     let mut builder = Builder {
         offsets: &offsets,
         limits,
+        anchored: Vec::new(),
         anchors: HashMap::new(),
         nodes: 0,
         bytes: 0,
@@ -87,10 +98,11 @@ pub fn parse(text: &str, limits: YamlLimits) -> Result<Node, YamlError> {
             }
         }
     }
-    Ok(root.unwrap_or(Node {
+    let root = root.unwrap_or(Node {
         value: Value::Null,
         span: 0..0,
-    }))
+    });
+    Ok((root, builder.anchored))
 }
 
 fn next<'i>(
@@ -148,6 +160,8 @@ struct Builder<'o, 'a> {
     /// Anchored nodes with the nodes and scalar bytes an alias to them
     /// materialises.
     anchors: HashMap<usize, (Node, usize, usize)>,
+    /// Spans of the anchored nodes and of the aliases.
+    anchored: Vec<Range<usize>>,
     nodes: usize,
     bytes: usize,
 }
@@ -191,6 +205,7 @@ impl Builder<'_, '_> {
     /// Remember an anchored node with what an alias to it costs.
     fn anchor(&mut self, anchor: usize, node: &Node) {
         if anchor > 0 {
+            self.anchored.push(node.span.clone());
             let cost = (count_nodes(node), count_bytes(node));
             self.anchors.insert(anchor, (node.clone(), cost.0, cost.1));
         }
@@ -229,6 +244,7 @@ impl Builder<'_, '_> {
                 };
                 self.count(nodes, &range)?;
                 self.count_bytes(bytes, &range)?;
+                self.anchored.push(range.clone());
                 let value = self.anchors[&id].0.value.clone();
                 // The alias takes the anchored value but reports at the alias.
                 Ok(Node { value, span: range })
