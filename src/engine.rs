@@ -68,6 +68,14 @@ pub fn lint(loaded: load::Loaded, opts: &AnalysisOptions) -> CheckOutcome {
     lint_inner(loaded, opts, false).0
 }
 
+/// Lint already-loaded stackups, and return each with its analysis.
+pub fn lint_analysed(
+    loaded: load::Loaded,
+    opts: &AnalysisOptions,
+) -> (CheckOutcome, Vec<(Stackup, Analysis)>) {
+    lint_inner(loaded, opts, true)
+}
+
 /// Lint, and keep each stackup with its analysis when `keep` is set.
 fn lint_inner(
     loaded: load::Loaded,

@@ -13,6 +13,7 @@ pub mod finding;
 pub mod fix;
 pub mod input;
 pub mod load;
+pub mod lsp;
 pub mod model;
 pub mod output;
 pub mod pool;

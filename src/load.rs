@@ -3,7 +3,7 @@
 //! Any problem becomes an `invalid-input` finding at its span; nothing here
 //! panics on bad input.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, HashMap};
 use std::path::{Path, PathBuf};
 
 use crate::files::{self, Confinement, ReadError, Refusal};
@@ -126,6 +126,7 @@ fn prepare(
     limits: &InputLimits,
     kind: FileKind,
     conf: &Confinement,
+    overlay: Option<&str>,
 ) -> Prepared {
     let display = display_path(path, base);
     let mut file = SourceFile {
@@ -136,6 +137,20 @@ fn prepare(
     };
     let root = conf.root_of(path);
     let bytes = refuse(conf, path, &root).and_then(|canonical| {
+        // An editor's unsaved text of a file inside the project.
+        if let Some(text) = overlay {
+            if text.len() as u64 > limits.max_file_bytes {
+                return Err((
+                    ReadError::TooLarge {
+                        size: text.len() as u64,
+                        limit: limits.max_file_bytes,
+                    }
+                    .message(),
+                    "raise the limit with --max-file-size if this file is genuine",
+                ));
+            }
+            return Ok(text.as_bytes().to_vec());
+        }
         files::read_regular(&canonical, limits.max_file_bytes).map_err(|e| {
             let help = match e {
                 ReadError::TooLarge { .. } => {
@@ -355,9 +370,30 @@ pub fn load(
     pool: Pool,
     rules: &[RuleSpec],
 ) -> Loaded {
+    load_with(paths, limits, conf, pool, rules, &HashMap::new())
+}
+
+/// As [`load`], with the text of some stackups given (an editor's unsaved
+/// buffers, by path) instead of read; they are confined all the same, and
+/// libraries and coupon files are read from disk.
+pub fn load_with(
+    paths: &[PathBuf],
+    limits: &InputLimits,
+    conf: &Confinement,
+    pool: Pool,
+    rules: &[RuleSpec],
+    overlay: &HashMap<PathBuf, String>,
+) -> Loaded {
     let base = conf.cwd();
     let prepared = pool.map(paths, |path| {
-        prepare(path, base, limits, FileKind::Stackup, conf)
+        prepare(
+            path,
+            base,
+            limits,
+            FileKind::Stackup,
+            conf,
+            overlay.get(path).map(String::as_str),
+        )
     });
     let mut loaded = Loaded::default();
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
@@ -446,7 +482,7 @@ pub fn load(
                 } else {
                     admit(
                         &mut loaded,
-                        prepare(&lib_path, base, limits, FileKind::Library, conf),
+                        prepare(&lib_path, base, limits, FileKind::Library, conf, None),
                     )
                 };
                 let data = lid.and_then(|(lid, tree)| {

@@ -173,6 +173,16 @@ enum Command {
         #[command(flatten)]
         solve: SolveArgs,
     },
+    /// Serve the Language Server Protocol on standard input and output:
+    /// findings while typing, hover, completion, go to definition and
+    /// quick fixes (see the README for editor set-up)
+    Lsp {
+        /// Base address of the rule pages linked from diagnostics
+        #[arg(long, default_value = sarif::DEFAULT_DOCS_URL, value_name = "URL")]
+        rule_docs_url: String,
+        #[command(flatten)]
+        solve: SolveArgs,
+    },
     /// Hold each measured test coupon (`coupons:`) against the stackup's
     /// model of its structure: effective Dk and loss across frequency, the
     /// range the data are valid over, the Dk they imply
@@ -371,6 +381,24 @@ fn main() -> ExitCode {
             dry_run,
             &only,
         ),
+        Command::Lsp {
+            rule_docs_url,
+            solve,
+        } => {
+            let opts = stackup_lint::lsp::ServerOptions {
+                analysis: solve.options(run),
+                root,
+                limits: InputLimits::default(),
+                docs_url: rule_docs_url,
+            };
+            match stackup_lint::lsp::run(opts) {
+                Ok(()) => ExitCode::SUCCESS,
+                Err(e) => {
+                    eprintln!("error: language server: {}", output::escape::controls(&e));
+                    ExitCode::from(1)
+                }
+            }
+        }
         Command::Rules => {
             let mut out = String::new();
             for m in rules::all_meta() {

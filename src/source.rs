@@ -77,6 +77,45 @@ impl Spans {
         Some(node)
     }
 
+    /// The JSON pointer of the innermost node at byte `offset`, and whether
+    /// the offset is on its key rather than its value (an editor's cursor).
+    pub fn pointer_at(&self, offset: usize) -> Option<(String, bool)> {
+        let mut node = self.root.as_ref()?;
+        let mut pointer = String::new();
+        let inside = |r: &Range<usize>| r.start <= offset && offset <= r.end;
+        loop {
+            let next = match &node.children {
+                SpanChildren::Map(entries) => {
+                    let mut found = None;
+                    for (key, key_span, value) in entries {
+                        let token = key.replace('~', "~0").replace('/', "~1");
+                        if inside(key_span) {
+                            return Some((format!("{pointer}/{token}"), true));
+                        }
+                        if inside(&value.span) && !value.span.is_empty() {
+                            found = Some((token, value));
+                            break;
+                        }
+                    }
+                    found
+                }
+                SpanChildren::Seq(items) => items
+                    .iter()
+                    .enumerate()
+                    .find(|(_, n)| inside(&n.span))
+                    .map(|(i, n)| (i.to_string(), n)),
+                SpanChildren::None => None,
+            };
+            match next {
+                Some((token, n)) => {
+                    pointer = format!("{pointer}/{token}");
+                    node = n;
+                }
+                None => return Some((pointer, false)),
+            }
+        }
+    }
+
     /// The span of the key that introduces the node at `pointer`, if it is
     /// a mapping value; otherwise the node's own span.
     pub fn key_span(&self, pointer: &str) -> Option<Range<usize>> {
@@ -240,7 +279,7 @@ impl<'a> DbLines<'a> {
 }
 
 /// `byte` clamped to the text and moved back to a character boundary.
-fn floor_char_boundary(text: &str, byte: usize) -> usize {
+pub fn floor_char_boundary(text: &str, byte: usize) -> usize {
     let byte = byte.min(text.len());
     (0..=byte)
         .rev()

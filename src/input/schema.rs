@@ -18,7 +18,8 @@ pub const STACKUP_SCHEMA: &str = include_str!("../../schema/stackup.schema.json"
 /// The material library schema (schema/materials.schema.json).
 pub const MATERIALS_SCHEMA: &str = include_str!("../../schema/materials.schema.json");
 
-const STACKUP_ID: &str = "https://stackup-lint.invalid/schema/stackup.schema.json";
+const STACKUP_ID: &str =
+    "https://raw.githubusercontent.com/stackup-lint/stackup-lint/main/schema/stackup.schema.json";
 
 /// Which kind of file is being validated.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

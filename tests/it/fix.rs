@@ -9,7 +9,7 @@ use std::path::Path;
 
 use serde_json::Value;
 
-use crate::common::{output_in, root, run_in};
+use crate::common::{copy_dir, output_in, root, run_in};
 
 /// A scratch copy of `examples/` (boards, coupons, the material library);
 /// the tests run in it on `<name>/board.stackup.yaml`.
@@ -17,19 +17,6 @@ fn copy_examples() -> tempfile::TempDir {
     let dir = tempfile::tempdir().unwrap();
     copy_dir(&root().join("examples"), dir.path());
     dir
-}
-
-fn copy_dir(from: &Path, to: &Path) {
-    std::fs::create_dir_all(to).unwrap();
-    for e in std::fs::read_dir(from).unwrap() {
-        let p = e.unwrap().path();
-        let target = to.join(p.file_name().unwrap());
-        if p.is_dir() {
-            copy_dir(&p, &target);
-        } else {
-            std::fs::copy(&p, &target).unwrap();
-        }
-    }
 }
 
 const LINE_CARD: &str = "line-card-10l/board.stackup.yaml";

@@ -20,6 +20,7 @@ mod fuzz_regressions;
 mod glass_weave;
 mod hostile_input;
 mod judgement;
+mod lsp;
 mod mask;
 mod materials_wiring;
 mod pre_commit;

@@ -24,6 +24,20 @@ pub fn copy_line_card_coupons(dir: &Path) {
     }
 }
 
+/// Copies directory `from` into `to`, recursively.
+pub fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for e in std::fs::read_dir(from).unwrap() {
+        let p = e.unwrap().path();
+        let target = to.join(p.file_name().unwrap());
+        if p.is_dir() {
+            copy_dir(&p, &target);
+        } else {
+            std::fs::copy(&p, &target).unwrap();
+        }
+    }
+}
+
 /// The binary, to be run in `dir` with colour off.
 pub fn command(dir: &Path) -> Command {
     let mut c = Command::new(env!("CARGO_BIN_EXE_stackup-lint"));
