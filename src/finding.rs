@@ -151,6 +151,14 @@ impl Finding {
         self
     }
 
+    /// A secondary place, where there is one.
+    pub fn also(self, location: Option<Location>, message: impl Into<String>) -> Self {
+        match location {
+            Some(l) => self.secondary(l, message),
+            None => self,
+        }
+    }
+
     pub fn secondary(mut self, location: Location, message: impl Into<String>) -> Self {
         self.labels.push(Label {
             location,

@@ -79,6 +79,10 @@ fn descriptor(m: &RuleMeta, docs_url: &str) -> ReportingDescriptor {
         .build()
 }
 
+fn builtin(db: &SourceDb, file: usize) -> bool {
+    db.get(file).path == std::path::Path::new(crate::load::BUILTIN_GENERIC_NAME)
+}
+
 fn artifact(db: &SourceDb, file: usize) -> ArtifactLocation {
     let shown = &db.get(file).display;
     if shown.starts_with('/') {
@@ -132,9 +136,12 @@ pub fn build(findings: &[Finding], db: &SourceDb, rules: &[&RuleMeta], docs_url:
             }
             let mut fp = BTreeMap::new();
             fp.insert(FINGERPRINT_KEY.to_string(), f.fingerprint(display));
+            // The built-in library is no file a review tool can open: it is
+            // never an artifact (rules place their findings at its use).
             let related: Vec<Location> = f
                 .labels
                 .iter()
+                .filter(|l| !builtin(db, l.location.file))
                 .map(|l| location(&lines, &l.location, Some(&l.message)))
                 .collect();
             let base = SarifResult::builder()

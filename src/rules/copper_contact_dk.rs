@@ -192,7 +192,7 @@ impl Rule for CopperContactDkMismatch {
                     c.bulk.dk
                 ))
                 .key(format!("{:.2}", c.bulk.dk));
-                f = f.secondary(cx.at_in(material.file, &material.pointer), "material data");
+                f = f.also(cx.material_entry(&d.material), "material data");
                 out.push(f);
             }
         }

@@ -77,16 +77,18 @@ impl Rule for CouponDisagrees {
             let range = format!("{} to {}", fmt_frequency(lo), fmt_frequency(hi));
             if let Some(d) = ca.eps_difference.filter(|d| d.abs() > eps_margin) {
                 let coupon_at = cx.at(&format!("{}/name", c.pointer));
-                let (at, help) = match &ca.implied_dk {
+                let (at, entry, help) = match &ca.implied_dk {
                     Some(im) => {
                         let m = &s.materials[&im.material];
-                        let ptr = if m.points.len() == 1 {
-                            format!("{}/dk", m.pointer)
+                        let sub = if m.points.len() == 1 {
+                            "/dk"
                         } else {
-                            format!("{}/points/0", m.pointer)
+                            "/points/0"
                         };
+                        let (at, entry) = cx.at_material(&im.material, sub);
                         (
-                            cx.at_in(m.file, &ptr),
+                            at,
+                            entry,
                             format!(
                                 "the coupon implies Dk {:.3} ± {:.3} for `{}` at {} (stated {:.3}; the material holds {:.0} % of the line's field): confirm with the fabricator which lot was built, and state the Dk the board is made of",
                                 im.implied,
@@ -100,6 +102,7 @@ impl Rule for CouponDisagrees {
                     }
                     None => (
                         coupon_at.clone(),
+                        None,
                         "check the coupon's lengths and the Dk of the plies around the line"
                             .to_string(),
                     ),
@@ -118,6 +121,7 @@ impl Rule for CouponDisagrees {
                     )
                     .label("what the coupon disproves")
                     .secondary(coupon_at, "the coupon")
+                    .also(entry, "material data (library)")
                     .with_help(help)
                     .key(key_step(100.0 * d, 0.5)),
                 );

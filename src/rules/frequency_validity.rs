@@ -240,14 +240,9 @@ impl Rule for FrequencyBeyondValidity {
             }
         }
         for (name, classes) in by_material {
-            let m = &s.materials[&name];
             let model = &a.materials[&name];
             let fmax = classes.iter().map(|c| c.1).fold(0.0_f64, f64::max);
-            let at = if m.valid_to.is_some() {
-                cx.at_in(m.file, &format!("{}/valid-to", m.pointer))
-            } else {
-                cx.at_in(m.file, &m.pointer)
-            };
+            let (at, entry) = cx.at_material(&name, "/valid-to");
             let list: Vec<String> = classes
                 .iter()
                 .map(|(n, f, _)| format!("`{n}` ({})", fmt_frequency(*f)))
@@ -275,6 +270,9 @@ impl Rule for FrequencyBeyondValidity {
                 f = f
                     .with_severity(Severity::Note)
                     .label("validated to the classes' Nyquist frequency, not their harmonics");
+            }
+            if let Some(e) = entry {
+                f = f.secondary(e, "material data (library)");
             }
             out.push(f);
         }

@@ -38,17 +38,19 @@ impl Rule for MaterialDataNotCausal {
                 continue;
             }
             if let Some(why) = &model.fit_problem {
+                let (at, entry) = cx.at_material(name, "");
                 out.push(
                     Finding::new(
                         META.name,
-                        cx.at_in(m.file, &m.pointer),
+                        at,
                         format!(
                             "material `{name}`'s data admit no causal wideband model ({why}); every frequency uses its first point, Dk {:.2} and Df {:.4}, unchanged",
                             m.points[0].dk, m.points[0].df
                         ),
                     )
                     .label("material data")
-                    .with_help("check the data against their source; give points measured over the band the lines use"),
+                    .with_help("check the data against their source; give points measured over the band the lines use")
+                    .also(entry, "material data (library)"),
                 );
                 continue;
             }
@@ -85,10 +87,11 @@ impl Rule for MaterialDataNotCausal {
                 .iter()
                 .map(|p| (p.fit_df / p.df - 1.0).abs())
                 .fold(0.0, f64::max);
+            let (at_points, entry) = cx.at_material(name, &format!("/points/{}", first.index));
             out.push(
                 Finding::new(
                     META.name,
-                    cx.at_in(m.file, &format!("{}/points/{}", m.pointer, first.index)),
+                    at_points,
                     format!(
                         "material `{name}`'s points cannot all hold for one causal material (a Djordjevic-Sarkar term, nearly flat Df): {}{}; loss and Dk use the fitted values{direction}",
                         list.join("; "),
@@ -102,6 +105,7 @@ impl Rule for MaterialDataNotCausal {
                     first.fit_df,
                     fmt_frequency(first.frequency)
                 ))
+                .also(entry, "material data (library)")
                 .key(key_step(worst_df * 100.0, 5.0)),
             );
         }

@@ -24,7 +24,7 @@ mod via_stub_resonance;
 
 use crate::analysis::Analysis;
 use crate::finding::{Finding, Severity, INVALID_INPUT};
-use crate::model::{Level, OptionSpec, RuleSpec, Stackup};
+use crate::model::{LayerKind, Level, OptionSpec, RuleSpec, Stackup};
 use crate::source::{Location, SourceDb};
 
 /// What a rule is, for `rules`, `explain` and SARIF metadata.
@@ -100,6 +100,51 @@ impl<'a> RuleContext<'a> {
     /// Location of a node in any file (materials may live in libraries).
     pub fn at_in(&self, file: usize, pointer: &str) -> Location {
         self.db.locate(file, pointer)
+    }
+
+    /// Where a finding about material `name` goes. A material the
+    /// stackup file defines: its entry, at `sub` (e.g. `/valid-to`; the
+    /// entry itself where `sub` is not there). A library material: the
+    /// first ply that names it (the board's use, where the fix and a
+    /// suppression belong), with the library's entry as the second place
+    /// when the library is a real file (the built-in one is not).
+    pub fn at_material(&self, name: &str, sub: &str) -> (Location, Option<Location>) {
+        let s = self.stackup;
+        let Some(m) = s.materials.get(name) else {
+            return (self.at(""), None);
+        };
+        let entry = {
+            let at = self.at_in(m.file, &format!("{}{sub}", m.pointer));
+            if at.span.is_empty() {
+                self.at_in(m.file, &m.pointer)
+            } else {
+                at
+            }
+        };
+        if m.file == s.file {
+            return (entry, None);
+        }
+        let ply = s.layers.iter().find_map(|l| match &l.kind {
+            LayerKind::Dielectric(d) if d.material == name => {
+                Some(self.at(&format!("{}/dielectric/material", l.pointer)))
+            }
+            _ => None,
+        });
+        match ply {
+            Some(p) => (p, self.is_real(m.file).then_some(entry)),
+            None => (entry, None),
+        }
+    }
+
+    /// Material `name`'s entry, unless it is in the built-in library
+    /// (which is no file a reader or a review tool can open).
+    pub fn material_entry(&self, name: &str) -> Option<Location> {
+        let m = self.stackup.materials.get(name)?;
+        self.is_real(m.file).then(|| self.at_in(m.file, &m.pointer))
+    }
+
+    fn is_real(&self, file: usize) -> bool {
+        self.db.get(file).path != std::path::Path::new(crate::load::BUILTIN_GENERIC_NAME)
     }
 
     /// The value of one of this rule's options: as the file gives it in
@@ -289,6 +334,20 @@ fn pointers_named(stackup: &Stackup, name: &str) -> Vec<String> {
             .filter(|m| m.file == stackup.file)
             .map(|m| m.pointer.clone()),
     );
+    // A library material: where the board uses it (its findings are
+    // placed there).
+    if stackup
+        .materials
+        .get(name)
+        .is_some_and(|m| m.file != stackup.file)
+    {
+        v.extend(stackup.layers.iter().filter_map(|l| match &l.kind {
+            LayerKind::Dielectric(d) if d.material == name => {
+                Some(format!("{}/dielectric/material", l.pointer))
+            }
+            _ => None,
+        }));
+    }
     v.extend(
         stackup
             .foils

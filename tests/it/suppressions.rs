@@ -221,3 +221,114 @@ fn an_inline_suppression_needs_a_reason_and_a_real_rule() {
         );
     }
 }
+
+/// A board whose ply `c` uses the built-in `generic-fr4` (data validated
+/// to 5 GHz) under a class carrying 20 GHz, with `extra` added to its
+/// settings.
+fn builtin_board(extra: &str) -> String {
+    let mut board = crate::common::board::Board::microstrip("generic-fr4", "0.2 mm")
+        .class("name: fast, structure: microstrip, layer: L1, width: 0.35 mm, impedance: {target: 50 ohm, tolerance: 20 %}, max-frequency: 20 GHz");
+    if !extra.is_empty() {
+        board = board.settings(extra);
+    }
+    let yaml = board.yaml();
+    yaml.replacen(
+        "stackup-lint: 1\n",
+        "stackup-lint: 1\nlibraries: [builtin:generic]\n",
+        1,
+    )
+}
+
+fn run_board(text: &str) -> (tempfile::TempDir, Value, String) {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("b.stackup.yaml"), text).unwrap();
+    let (_, j) = report(dir.path());
+    let o = run(
+        dir.path(),
+        &[
+            "check",
+            "b.stackup.yaml",
+            "--format",
+            "json",
+            "--sarif",
+            "out.sarif",
+        ],
+    );
+    assert!(
+        o.status.code().unwrap_or(9) < 2,
+        "{}",
+        String::from_utf8_lossy(&o.stdout)
+    );
+    let sarif = std::fs::read_to_string(dir.path().join("out.sarif")).unwrap();
+    (dir, j, sarif)
+}
+
+/// A finding about a built-in material sits where the board uses it (the
+/// ply's `material:`), never in the built-in library, which SARIF never
+/// names as an artifact; `at: <material>` suppresses it.
+#[test]
+fn library_material_findings_point_at_their_use_and_can_be_suppressed() {
+    let (_d, j, sarif) = run_board(&builtin_board(""));
+    let f = findings(&j)
+        .iter()
+        .find(|f| {
+            f["rule"] == "frequency-beyond-validity"
+                && f["message"].as_str().unwrap().contains("generic-fr4")
+        })
+        .unwrap_or_else(|| panic!("{j:#}"));
+    assert_eq!(f["file"], "b.stackup.yaml");
+    assert_eq!(f["pointer"], "/layers/1/dielectric/material");
+    assert!(!sarif.contains("builtin:"), "{sarif}");
+
+    let (_d, j, _) = run_board(&builtin_board(
+        "  suppress:\n    - {rule: frequency-beyond-validity, at: generic-fr4, reason: \"data to 20 GHz on file\"}\n",
+    ));
+    let f = findings(&j)
+        .iter()
+        .find(|f| {
+            f["rule"] == "frequency-beyond-validity"
+                && f["message"].as_str().unwrap().contains("generic-fr4")
+        })
+        .unwrap();
+    assert_eq!(f["suppressed"], "data to 20 GHz on file");
+    assert!(
+        !findings(&j)
+            .iter()
+            .any(|f| f["rule"] == "unused-suppression"),
+        "{j:#}"
+    );
+}
+
+/// A material from a library file: the finding at the ply that names it,
+/// the library's entry as a related place.
+#[test]
+fn library_file_material_findings_relate_to_the_library() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(
+        dir.path().join("lib.materials.yaml"),
+        "stackup-lint-materials: 1\nmaterials:\n  slow-fr4: {class: FR-4 class epoxy/glass (demo values), dk: 4.2, df: 0.02, frequency: 1 GHz, valid-to: 3 GHz}\n",
+    )
+    .unwrap();
+    let text = crate::common::board::Board::microstrip("slow-fr4", "0.2 mm")
+        .class("name: fast, structure: microstrip, layer: L1, width: 0.35 mm, impedance: {target: 50 ohm, tolerance: 20 %}, max-frequency: 20 GHz")
+        .yaml()
+        .replacen("stackup-lint: 1\n", "stackup-lint: 1\nlibraries: [lib.materials.yaml]\n", 1);
+    std::fs::write(dir.path().join("b.stackup.yaml"), text).unwrap();
+    let (code, j) = report(dir.path());
+    assert!(code.unwrap_or(9) < 2, "{j:#}");
+    let f = findings(&j)
+        .iter()
+        .find(|f| {
+            f["rule"] == "frequency-beyond-validity"
+                && f["message"].as_str().unwrap().contains("slow-fr4")
+        })
+        .unwrap_or_else(|| panic!("{j:#}"));
+    assert_eq!(f["pointer"], "/layers/1/dielectric/material");
+    let lib = f["labels"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|l| l["file"] == "lib.materials.yaml")
+        .unwrap_or_else(|| panic!("{f:#}"));
+    assert_eq!(lib["line"], 3);
+}
