@@ -78,6 +78,11 @@ pub struct Finding {
     /// needs no judgement (a solved width, say); SARIF carries it as a
     /// `fix` review tools can offer.
     pub fix: Option<Fix>,
+    /// Findings this one is the root cause of: of rule `.0`, placed (first
+    /// or second place) at the element with JSON pointer `.1` of the same
+    /// file. The run folds them into this one as related places instead of
+    /// reporting them on their own (`rules::fold_consequences`).
+    pub explains: Vec<(&'static str, String)>,
 }
 
 /// A fix: what it does, and the text edits that make it.
@@ -113,6 +118,7 @@ impl Finding {
             baselined: None,
             severity_chosen: false,
             fix: None,
+            explains: Vec::new(),
         }
     }
 
@@ -131,6 +137,13 @@ impl Finding {
                 edits,
             });
         }
+        self
+    }
+
+    /// Findings of `rule` at the element `pointer` follow from this one
+    /// (see `explains`).
+    pub fn explains(mut self, rule: &'static str, pointer: impl Into<String>) -> Self {
+        self.explains.push((rule, pointer.into()));
         self
     }
 

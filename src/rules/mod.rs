@@ -23,7 +23,7 @@ mod tolerance_stack;
 mod via_stub_resonance;
 
 use crate::analysis::Analysis;
-use crate::finding::{Finding, Severity, INVALID_INPUT};
+use crate::finding::{Finding, Label, Severity, INVALID_INPUT};
 use crate::model::{LayerKind, Level, OptionSpec, RuleSpec, Stackup};
 use crate::source::{Location, SourceDb};
 
@@ -299,8 +299,59 @@ pub fn run(stackup: &Stackup, analysis: &Analysis, db: &SourceDb) -> Vec<Finding
         }
         out.extend(found);
     }
+    fold_consequences(&mut out);
     apply_suppressions(stackup, db, &mut out);
     out
+}
+
+/// Root causes first: a finding that `explains` others (a missing plane
+/// explains the broadside warnings of the signal layer that should be it)
+/// takes them in as related places, with a sentence, and they are not
+/// reported on their own.
+fn fold_consequences(findings: &mut Vec<Finding>) {
+    let at = |f: &Finding, ptr: &str| {
+        covers(ptr, &f.primary.pointer)
+            || f.labels
+                .iter()
+                .any(|l| l.location.file == f.primary.file && covers(ptr, &l.location.pointer))
+    };
+    let mut folded = vec![false; findings.len()];
+    for i in 0..findings.len() {
+        if findings[i].explains.is_empty() {
+            continue;
+        }
+        let mut taken = Vec::new();
+        for (j, g) in findings.iter().enumerate() {
+            if j == i || folded[j] || g.primary.file != findings[i].primary.file {
+                continue;
+            }
+            if findings[i]
+                .explains
+                .iter()
+                .any(|(rule, ptr)| g.rule == *rule && at(g, ptr))
+            {
+                taken.push(j);
+            }
+        }
+        for j in taken {
+            folded[j] = true;
+            let g = findings[j].clone();
+            let root = &mut findings[i];
+            root.message.push_str(&format!(
+                " (it also explains a {} finding: {})",
+                g.rule, g.message
+            ));
+            root.labels.push(Label {
+                location: g.primary.clone(),
+                message: format!("follows from this ({})", g.rule),
+            });
+        }
+    }
+    let mut k = 0;
+    findings.retain(|_| {
+        k += 1;
+        !folded[k - 1]
+    });
 }
 
 /// The JSON pointers an `at:` name covers in this stackup.

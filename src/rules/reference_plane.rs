@@ -44,6 +44,25 @@ impl Rule for MissingReferencePlane {
             };
             let here = cx.at(&format!("{}/layer", nc.pointer));
             let layer_loc = cx.at_layer(i);
+            // A signal layer with no class of its own where a plane is
+            // missing: most likely the plane, with `role` left as signal.
+            // Its broadside findings follow from this one.
+            let should_be_plane = |j: Option<usize>, f: Finding| -> Finding {
+                let Some(j) = j.filter(|&j| {
+                    s.copper(j).is_some_and(|c| !c.role.is_reference())
+                        && !s.net_classes.iter().any(|c| c.layer_index == j)
+                }) else {
+                    return f;
+                };
+                let name = &s.layers[j].name;
+                let mut f = f
+                    .secondary(cx.at_layer(j), "the plane? (no net class is routed on it)")
+                    .explains("broadside-signal-layers", s.layers[j].pointer.clone());
+                f.message.push_str(&format!(
+                    "; `{name}`, where the plane would be, is a signal layer that carries no net class: if it is a solid plane under the route, give it `role: plane`"
+                ));
+                f
+            };
             match nc.structure {
                 Structure::Microstrip
                 | Structure::DiffMicrostrip
@@ -78,7 +97,7 @@ impl Rule for MissingReferencePlane {
                     };
                     let _ = far;
                     if !is_ref(near) {
-                        out.push(
+                        out.push(should_be_plane(near,
                             Finding::new(META.name, here, format!(
                                 "net class `{}` ({}) on `{}` has no reference plane next to it: the nearest copper is {}",
                                 nc.name, nc.structure.as_str(), layer.name, name_of(near)
@@ -87,7 +106,7 @@ impl Rule for MissingReferencePlane {
                             .secondary(layer_loc, "signal layer")
                             .with_help("give the adjacent copper layer `role: plane` (or `mixed` with a solid pour under the route), or move the class to a layer next to a plane")
                             .key(name_of(near)),
-                        );
+                        ));
                     }
                 }
                 Structure::Stripline | Structure::DiffStripline => {
@@ -100,7 +119,7 @@ impl Rule for MissingReferencePlane {
                         .collect();
                     if !missing.is_empty() {
                         let one_side = missing.len() == 1;
-                        out.push(
+                        let mut f =
                             Finding::new(META.name, here, format!(
                                 "net class `{}` is a {} on `{}` but there is no reference plane {}{}",
                                 nc.name, nc.structure.as_str(), layer.name, missing.join(" or "),
@@ -109,8 +128,14 @@ impl Rule for MissingReferencePlane {
                             .label(if one_side { "plane on one side only" } else { "no planes" })
                             .secondary(layer_loc, "signal layer")
                             .with_help("add a plane on the missing side, or declare `structure: embedded-microstrip` and resize the trace for it")
-                            .key(missing.join(",")),
-                        );
+                            .key(missing.join(","));
+                        if ra.is_none() {
+                            f = should_be_plane(above, f);
+                        }
+                        if rb.is_none() {
+                            f = should_be_plane(below, f);
+                        }
+                        out.push(f);
                     }
                 }
             }
@@ -138,15 +163,22 @@ impl Rule for MissingReferencePlane {
                 for (k, &r) in refs.iter().enumerate() {
                     let role = s.copper(r).map(|c| c.role);
                     if !role.is_some_and(|c| c.is_reference()) {
-                        out.push(
-                            Finding::new(META.name, cx.at(&format!("{}/references/{k}", nc.pointer)), format!(
+                        let f = Finding::new(META.name, cx.at(&format!("{}/references/{k}", nc.pointer)), format!(
                                 "net class `{}` names `{}` as its reference, but that layer is a {} layer, not a plane",
                                 nc.name, s.layers[r].name, role.map_or("", |c| c.as_str())
                             ))
                             .label("not a plane")
                             .with_help("set `role: plane` on that layer if it is a solid plane under the route")
-                            .key(s.layers[r].name.clone()),
-                        );
+                            .key(s.layers[r].name.clone());
+                        // Named as the reference: the layer itself is the
+                        // candidate (its findings follow when it carries no
+                        // class).
+                        let f = if s.net_classes.iter().any(|c| c.layer_index == r) {
+                            f
+                        } else {
+                            f.explains("broadside-signal-layers", s.layers[r].pointer.clone())
+                        };
+                        out.push(f);
                     } else if Some(r) != s.reference_above(i) && Some(r) != s.reference_below(i) {
                         out.push(
                             Finding::new(META.name, cx.at(&format!("{}/references/{k}", nc.pointer)), format!(

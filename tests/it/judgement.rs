@@ -852,3 +852,56 @@ fn a_foil_names_its_roughness_loss_model() {
         );
     }
 }
+
+/// Root causes first: a stripline missing its lower plane over a signal
+/// layer (the bottom one) that carries no class names that layer as the likely plane and
+/// takes in the broadside finding it causes; a layer that carries a class
+/// keeps its own broadside finding.
+#[test]
+fn a_missing_plane_takes_in_the_broadside_findings_it_causes() {
+    let yaml = |role_of_x: &str| {
+        Board::new()
+            .material("m", "dk: 3.6, df: 0.004, frequency: 10 GHz")
+            .copper("P1", "role: plane, thickness: 18 um")
+            .dielectric("c1", "kind: core, material: m, thickness: 0.15 mm")
+            .copper("S", "role: signal, thickness: 18 um")
+            .dielectric("c2", "kind: core, material: m, thickness: 0.1 mm")
+            .copper("X", &format!("role: {role_of_x}, thickness: 18 um"))
+            .class("name: s, structure: stripline, layer: S, width: 0.12 mm, impedance: {target: 50 ohm, tolerance: 20 %}, max-frequency: 5 GHz")
+            .yaml()
+    };
+    let found = all(&yaml("signal"));
+    let rules: Vec<&str> = found.iter().map(|f| f.rule).collect();
+    assert!(!rules.contains(&"broadside-signal-layers"), "{rules:?}");
+    let root = found
+        .iter()
+        .find(|f| f.rule == "missing-reference-plane")
+        .unwrap();
+    assert!(
+        root.message
+            .contains("`X`, where the plane would be, is a signal layer"),
+        "{}",
+        root.message
+    );
+    assert!(
+        root.message.contains("broadside-signal-layers"),
+        "{}",
+        root.message
+    );
+    assert!(root.labels.iter().any(|l| l
+        .message
+        .contains("follows from this (broadside-signal-layers)")));
+    // With a class routed on `X` it is a real signal layer: both reported.
+    let with_class = yaml("signal").replace(
+        "net-classes:\n",
+        "net-classes:\n  - {name: x, structure: microstrip, layer: X, width: 0.1 mm, max-frequency: 1 GHz}\n",
+    );
+    let found = all(&with_class);
+    let rules: Vec<&str> = found.iter().map(|f| f.rule).collect();
+    assert!(rules.contains(&"broadside-signal-layers"), "{rules:?}");
+    // Made a plane, neither fires.
+    let found = all(&yaml("plane"));
+    assert!(!found
+        .iter()
+        .any(|f| f.rule == "missing-reference-plane" || f.rule == "broadside-signal-layers"));
+}
