@@ -76,7 +76,12 @@ type Move = Box<dyn Fn(&mut LineGeometry, f64) + Sync>;
 fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
     let fab = &s.settings.fabrication;
     let mut out: Vec<(String, String, Move)> = Vec::new();
-    let dw = fab.etch_width;
+    // A layer's own tolerance wins over the fabricator's default.
+    let trace_layer = g.slabs[g.trace_slot].layer;
+    let trace_copper = s.copper(trace_layer);
+    let dw = trace_copper
+        .and_then(|c| c.etch_tolerance)
+        .unwrap_or(fab.etch_width);
     out.push((
         "etched width".into(),
         format!("±{:.1} µm", dw * 1e6),
@@ -88,11 +93,14 @@ fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
             }
         }),
     ));
-    let dt = fab.dielectric_thickness;
     for (i, sl) in g.slabs.iter().enumerate() {
         if i == g.trace_slot || sl.material != Some(sl.layer) || sl.thickness <= 0.0 {
             continue;
         }
+        let dt = s
+            .dielectric(sl.layer)
+            .and_then(|d| d.thickness_tolerance)
+            .unwrap_or(fab.dielectric_thickness);
         out.push((
             format!("thickness of `{}`", s.layers[sl.layer].name),
             format!("±{:.0} %", dt * 100.0),
@@ -145,13 +153,12 @@ fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
             }),
         ));
     }
-    let dc = fab.copper_thickness;
+    let dc = trace_copper
+        .and_then(|c| c.thickness_tolerance)
+        .unwrap_or(fab.copper_thickness);
     let slot = g.trace_slot;
     out.push((
-        format!(
-            "copper thickness of `{}`",
-            s.layers[g.slabs[slot].layer].name
-        ),
+        format!("copper thickness of `{}`", s.layers[trace_layer].name),
         format!("±{:.0} %", dc * 100.0),
         Box::new(move |g, k| {
             g.thickness *= 1.0 + k * dc;
@@ -159,7 +166,10 @@ fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
         }),
     ));
     if let Some(mk) = g.mask {
-        let dm = fab.mask_thickness;
+        let dm = s
+            .dielectric(mk.layer)
+            .and_then(|d| d.thickness_tolerance)
+            .unwrap_or(fab.mask_thickness);
         out.push((
             format!("thickness of the mask `{}`", s.layers[mk.layer].name),
             format!("±{:.0} %", dm * 100.0),

@@ -97,6 +97,8 @@ pub(super) fn read_copper(
     };
     let up = read_face(r, &format!("{ptr}/up"), foils);
     let down = read_face(r, &format!("{ptr}/down"), foils);
+    let tolerances = layer_tolerances(r, ptr, "copper thickness tolerance", true);
+    let (thickness_tolerance, etch_tolerance) = tolerances?;
     Some(CopperLayer {
         role,
         thickness: thickness?,
@@ -104,7 +106,30 @@ pub(super) fn read_copper(
         plated: r.bool(&format!("{ptr}/plated")).unwrap_or(false),
         up: up?,
         down: down?,
+        thickness_tolerance,
+        etch_tolerance,
     })
+}
+
+/// A layer's own `thickness-tolerance` (and, for copper, `etch-tolerance`):
+/// `Some((None, None))` when not given, `None` on an input error.
+fn layer_tolerances(
+    r: &mut Reader<'_>,
+    ptr: &str,
+    what: &str,
+    copper: bool,
+) -> Option<(Option<f64>, Option<f64>)> {
+    let p = format!("{ptr}/thickness-tolerance");
+    let thickness = match r.node(&p) {
+        Some(_) => Some(super::settings::tolerance_fraction(r, &p, what)?),
+        None => None,
+    };
+    let p = format!("{ptr}/etch-tolerance");
+    let etch = match r.node(&p) {
+        Some(_) if copper => Some(super::settings::etch_tolerance(r, &p)?),
+        _ => None,
+    };
+    Some((thickness, etch))
 }
 
 /// `Some(None)` = no face given; `None` = error.
@@ -324,9 +349,11 @@ pub(super) fn read_dielectric(
         }
         None
     };
+    let tolerance = layer_tolerances(r, ptr, "dielectric thickness tolerance", false);
     if !ok {
         return None;
     }
+    let (thickness_tolerance, _) = tolerance?;
     Some(DielectricLayer {
         kind,
         material,
@@ -338,6 +365,7 @@ pub(super) fn read_dielectric(
         resin_content: resin,
         modelled_dk,
         mask,
+        thickness_tolerance,
     })
 }
 

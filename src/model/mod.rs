@@ -186,6 +186,11 @@ pub struct CopperLayer {
     pub up: Option<Face>,
     /// Face towards the bottom of the board.
     pub down: Option<Face>,
+    /// This layer's copper thickness tolerance (fraction), over
+    /// `settings.fabrication`.
+    pub thickness_tolerance: Option<f64>,
+    /// This layer's etched-width tolerance (m), over `settings.fabrication`.
+    pub etch_tolerance: Option<f64>,
 }
 
 /// Which side of the foil faces the dielectric.
@@ -271,6 +276,9 @@ pub struct DielectricLayer {
     pub modelled_dk: Option<f64>,
     /// Solder mask only: how it covers the outer copper.
     pub mask: Option<MaskCoat>,
+    /// This ply's thickness tolerance (fraction), over
+    /// `settings.fabrication`.
+    pub thickness_tolerance: Option<f64>,
 }
 
 /// How a solder mask covers an outer layer's copper.

@@ -74,14 +74,7 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
         let f = &mut out.fabrication;
         let p = format!("{fp}/etch-width");
         if r.node(&p).is_some() {
-            if let Some(v) = r.bounded(
-                &p,
-                Dimension::Length,
-                "etched width tolerance",
-                0.0,
-                1e-3,
-                fmt_len,
-            ) {
+            if let Some(v) = etch_tolerance(r, &p) {
                 f.etch_width = v;
                 f.given.insert("etch-width", p);
             }
@@ -96,21 +89,9 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
             if r.node(&p).is_none() {
                 continue;
             }
-            let Some(v) = r.fraction(&p, what) else {
+            let Some(v) = tolerance_fraction(r, &p, what) else {
                 continue;
             };
-            if !(v > 0.0 && v < 0.5) {
-                r.error(
-                    &p,
-                    format!(
-                        "{what} of {:.1} % is not a build tolerance (give one between 0 and 50 %)",
-                        100.0 * v
-                    ),
-                    "implausible tolerance",
-                    None,
-                );
-                continue;
-            }
             let slot = match key {
                 "dielectric-thickness" => &mut out.fabrication.dielectric_thickness,
                 "copper-thickness" => &mut out.fabrication.copper_thickness,
@@ -283,4 +264,35 @@ pub(super) fn read_inline_suppressions(r: &Reader<'_>, s: &Stackup, out: &mut Ve
             });
         }
     }
+}
+
+/// A relative build tolerance at `p` (a thickness or Dk ±): above 0 and
+/// below 50 %, else an input error there.
+pub(super) fn tolerance_fraction(r: &mut Reader<'_>, p: &str, what: &str) -> Option<f64> {
+    let v = r.fraction(p, what)?;
+    if !(v > 0.0 && v < 0.5) {
+        r.error(
+            p,
+            format!(
+                "{what} of {:.1} % is not a build tolerance (give one between 0 and 50 %)",
+                100.0 * v
+            ),
+            "implausible tolerance",
+            None,
+        );
+        return None;
+    }
+    Some(v)
+}
+
+/// An etched-width tolerance at `p`: a length from 0 to 1 mm.
+pub(super) fn etch_tolerance(r: &mut Reader<'_>, p: &str) -> Option<f64> {
+    r.bounded(
+        p,
+        Dimension::Length,
+        "etched width tolerance",
+        0.0,
+        1e-3,
+        fmt_len,
+    )
 }

@@ -238,3 +238,56 @@ fn microstrip_tolerance_hand_example_in_the_style_of_ipc_2141() {
     assert!((t.nominal / 50.26 - 1.0).abs() < 0.08);
     assert!((t.nominal / 53.76 - 1.0).abs() < 0.02);
 }
+
+/// A layer's own tolerances win over `settings.fabrication`: a core held
+/// to ±5 % moves Z about half as much as at the default ±10 % (Z is close
+/// to linear in a small change), a layer's etch tolerance and copper
+/// tolerance replace the defaults in the stack; a 60 % tolerance is an
+/// input error at its value.
+#[test]
+fn per_layer_tolerances_override_the_fabricators() {
+    let text = |core: &str, l1: &str| {
+        Board::new()
+            .material("m", "dk: 3.4, df: 0.003, frequency: 10 GHz")
+            .copper("L1", &format!("role: signal, thickness: 35 um{l1}"))
+            .dielectric("c", &format!("kind: core, material: m, thickness: 0.2 mm{core}"))
+            .copper("L2", "role: plane, thickness: 18 um")
+            .class("name: ms, structure: microstrip, layer: L1, width: 0.4 mm, impedance: {target: 50 ohm}")
+            .yaml()
+    };
+    let default = stack(&text("", ""));
+    let own = stack(&text(
+        ", thickness-tolerance: 5 %",
+        ", etch-tolerance: 1 mil, thickness-tolerance: 20 %",
+    ));
+    let c = |t: &ToleranceStack, what: &str| {
+        t.contributions
+            .iter()
+            .find(|c| c.what.starts_with(what))
+            .unwrap()
+            .clone()
+    };
+    assert_eq!(c(&default, "thickness of `c`").tolerance, "±10 %");
+    assert_eq!(c(&own, "thickness of `c`").tolerance, "±5 %");
+    let ratio = c(&own, "thickness of `c`").dz / c(&default, "thickness of `c`").dz;
+    assert!((ratio - 0.5).abs() < 0.05, "{ratio}");
+    assert_eq!(c(&own, "etched width").tolerance, "±25.4 µm");
+    assert_eq!(c(&own, "copper thickness of `L1`").tolerance, "±20 %");
+    let ratio = c(&own, "etched width").dz / c(&default, "etched width").dz;
+    assert!((ratio - 2.0).abs() < 0.2, "{ratio}");
+    let loaded = load_text(
+        "t.stackup.yaml",
+        &text(", thickness-tolerance: 60 %", ""),
+        &InputLimits::default(),
+    );
+    let p = &loaded.problems[0];
+    assert!(
+        p.message
+            .contains("dielectric thickness tolerance of 60.0 % is not a build tolerance"),
+        "{p:#?}"
+    );
+    assert_eq!(
+        p.primary.pointer,
+        "/layers/1/dielectric/thickness-tolerance"
+    );
+}
