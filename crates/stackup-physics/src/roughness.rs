@@ -603,9 +603,16 @@ pub const BOND_TREATMENT_UNKNOWN_WORST: RoughSurface = RoughSurface {
 /// copper and dielectric is replaced by a homogeneous layer of thickness T_r
 /// and raised permittivity eps_rough on smooth copper.
 ///
-/// Concept: M. Y. Koledintseva et al., "effective roughness dielectric"
-/// (IEEE EMC Symposia 2012-2015, from memory); M. Koledintseva and
-/// T. Vincent, IMAPS journal, DOI 10.4071/imaps.654479.
+/// Concept: the "effective roughness dielectric" of M. Y. Koledintseva et
+/// al., a homogeneous layer of thickness Tr and Dk DKr placed on smooth
+/// copper in place of the rough transition zone (M. Y. Koledintseva and
+/// T. Vincent, "Equivalent Capacitance Approach to Calculate Effective
+/// Roughness Dielectric Parameters for Copper Foils on Printed Circuit
+/// Boards", IMAPS journal, DOI 10.4071/imaps.654479; the same authors,
+/// "Calculation of Frequency-Dependent Effective Roughness Dielectric
+/// Parameters for Copper Foil Using Equivalent Capacitance Models",
+/// Design007 Magazine, 2 January 2019, which names its earlier papers as
+/// the concept's origin).
 ///
 /// This project's parameterisation (no published constants exist):
 ///
@@ -626,7 +633,10 @@ pub const BOND_TREATMENT_UNKNOWN_WORST: RoughSurface = RoughSurface {
 /// Dk 3.0, [`STANDARD_ED_FOIL`] on both faces, 50 GHz: 3.20 at 127 µm, 3.10 at
 /// 254 µm, 3.05 at 508 µm, 3.02 at 1.27 mm. Both facts are common practice
 /// with no source. T_r = 2.35 Rq is about 0.6 Rz, consistent with "T_r about
-/// the profile height".
+/// the profile height". Checked against published values the calibration
+/// did not use (Simonovich's roughness-adjusted Dk of a 0.3 mm stripline),
+/// the rise is only 36-42 % of the published one: see the crate README,
+/// "Calibration of the roughness layer".
 ///
 /// In a microstrip the field is not parallel-plate: the analysis should put
 /// a layer of thickness [`RoughLayerModel::thickness`] and permittivity
