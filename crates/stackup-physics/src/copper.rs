@@ -17,7 +17,8 @@ pub const SIGMA_ANNEALED_COPPER: f64 = 5.8e7;
 
 /// Density of electrodeposited copper foil used for weight/thickness
 /// conversion, kg/m³ (8.89 g/cm³). With it, 1 oz/ft² gives 34.3 µm, the value
-/// listed for 1 oz foil in IPC-4562 (from memory). Wrought/annealed bulk
+/// listed for 1 oz foil in IPC-4562 (from memory; searched as for
+/// [`crate::consts::OUNCE_COPPER_THICKNESS`]). Wrought/annealed bulk
 /// copper is 8.96 g/cm³, which would give 34.1 µm.
 pub const COPPER_FOIL_DENSITY: f64 = 8890.0;
 

@@ -12,10 +12,13 @@
 //!   conversion of Bockelman and Eisenstadt first: Sdd gives the odd mode,
 //!   Scc the even mode.
 //! - **Resonator method** (the IPC-TM-650 2.5.5.5 stripline resonator
-//!   family): the peaks of |S21| of a gap-coupled line resonator give the
-//!   resonant frequencies, loaded and unloaded Q, mode numbers, the
-//!   effective permittivity (Dk for a stripline) and, with a conductor Q
-//!   from a model, the loss tangent.
+//!   family: "Stripline Test for Permittivity and Loss Tangent (Dielectric
+//!   Constant and Dissipation Factor) at X-Band", revision C, March 1998;
+//!   number, title, revision and date checked in a copy of the method and
+//!   in a NIST-supported roadmap page): the peaks of |S21| of a
+//!   gap-coupled line resonator give the resonant frequencies, loaded and
+//!   unloaded Q, mode numbers, the effective permittivity (Dk for a
+//!   stripline) and, with a conductor Q from a model, the loss tangent.
 //!
 //! SI units throughout (Hz, m, Np/m; dB/m where named). Time convention
 //! e^{jωt}: a wave travelling towards +z goes as e^{−γz}, γ = α + jβ.

@@ -74,6 +74,8 @@ pub fn dielectric_loss_stripline(f: f64, eps_r: f64, tan_d: f64) -> Result<f64, 
 /// Np/m.
 ///
 /// Source: Pozar, *Microwave Engineering*, 4th ed., eq. 3.198 (from memory;
+/// searched: the equation number in code and pages, where two secondary
+/// sources give it to different formulas, so the number stays unchecked;
 /// the filling-factor form goes back to Welch & Pratt, IEEE Trans. MTT 14(6),
 /// 1966, and Schneider, Bell Syst. Tech. J. 48, 1969). Quasi-static; needs
 /// 1 <= eps_eff <= eps_r. For eps_r = 1 (air-like dielectric) the filling
@@ -298,7 +300,8 @@ pub fn db_per_m_to_db_per_inch(db_per_m: f64) -> f64 {
 }
 
 /// Rule of thumb for dielectric loss: 2.3 f[GHz] Df sqrt(Dk) dB/inch
-/// (E. Bogatin, *Signal and Power Integrity - Simplified*, from memory).
+/// (E. Bogatin, *Signal and Power Integrity - Simplified*, from memory;
+/// searched: the rule with its constant, not found).
 /// It is [`dielectric_loss_stripline`] with the constant rounded (the exact
 /// constant is 2.312); input f in Hz, result in dB/inch.
 ///

@@ -41,10 +41,14 @@ use crate::validity::{finite, require_eps_r, require_non_negative, require_posit
 /// K_H = 1 + (2/pi) atan[1.4 (Rq/delta)²], Rq the RMS roughness, delta the
 /// skin depth.
 ///
-/// Source: E. Hammerstad and F. Bekkadal, *Microstrip Handbook*, ELAB report
-/// STF44 A74169, Univ. of Trondheim, 1975 (from memory), as used in
+/// Source: E. Hammerstad and F. Bekkadal, "A microstrip handbook", ELAB
+/// Report STF44 A74169, University of Trondheim, Norway, February 1975 (the
+/// reference as listed in M. Steer, *Fundamentals of Microwave and RF
+/// Design*, ch. 4 references; the report itself not seen), as used in
 /// E. Hammerstad and O. Jensen, "Accurate models for microstrip computer-aided
-/// design", IEEE MTT-S Digest 1980, pp. 407-409. Saturates at 2. Fitted to
+/// design", IEEE MTT-S Digest 1980, pp. 407-409. The formula itself was
+/// seen only in secondary documentation, as the RF = 2 case of
+/// [`hammerstad_factor_general`]. Saturates at 2. Fitted to
 /// 2-D periodic grooves: valid for Rq up to about delta; for Rq >> delta (a few
 /// GHz and up for standard foil) it under-predicts loss (common practice, no
 /// source).
@@ -86,7 +90,9 @@ fn require_roughness_factor(rf: f64) -> Result<(), InputError> {
 ///
 /// Source: S. Groiss, I. Bardi, O. Biro, K. Preis and K. R. Richter,
 /// "Parameters of lossy cavity resonators calculated by the finite element
-/// method", IEEE Trans. Magn. 32(3), pp. 894-897, 1996 (formula from memory).
+/// method", IEEE Trans. Magn. 32(3), pp. 894-897, 1996 (formula from memory;
+/// searched: the paper's title and authors with "roughness correction
+/// factor", no checkable text found).
 /// Saturates at 2; same range as [`hammerstad_factor`]. Rq = 0 gives 1.
 ///
 /// Errors: as [`hammerstad_factor`].
@@ -567,8 +573,10 @@ impl RoughSurface {
 }
 
 /// Typical standard electrodeposited foil, treated (tooth) side:
-/// Rz 9 µm, Rq 2.25 µm (common practice, no source; IPC-4562 sets no
-/// profile limit for the standard class).
+/// Rz 9 µm, Rq 2.25 µm (common practice, no source; IPC-4562's predecessor
+/// IPC-MF-150F, "Metal Foil for Printed Wiring Applications", §3.4.5, sets
+/// no profile value for the standard type, as quoted in the si-list
+/// archive, qsl.net/wb6tpu/si-list2/1373.html).
 pub const STANDARD_ED_FOIL: RoughSurface = RoughSurface {
     rq: Some(2.25e-6),
     rz: Some(9.0e-6),
@@ -577,7 +585,9 @@ pub const STANDARD_ED_FOIL: RoughSurface = RoughSurface {
 /// Low-profile electrodeposited foil, treated side: Rz 2 µm, Rq 0.5 µm, the
 /// smooth end of the foils a laminate is commonly built with (the
 /// "very low" and "hyper very low" profile classes, around Rz 1.5 to 3 µm;
-/// common practice, no source). The best case of a foil face whose profile
+/// common practice, no source; inside the very-low-profile limit of
+/// IPC-MF-150F §3.4.5, below 5.1 µm, quoted as for [`STANDARD_ED_FOIL`]).
+/// The best case of a foil face whose profile
 /// the stackup does not state.
 pub const LOW_PROFILE_FOIL: RoughSurface = RoughSurface {
     rq: Some(0.5e-6),

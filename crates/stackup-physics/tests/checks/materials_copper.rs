@@ -35,7 +35,8 @@ fn rs_pozar_example() {
     assert!((rs - 0.026).abs() < 0.0005, "{rs}");
 }
 
-/// 1 oz/ft² copper is 34.3 µm (IPC-4562, from memory) with electrodeposited
+/// 1 oz/ft² copper is 34.3 µm (IPC-4562, from memory; searched as noted at
+/// `consts::OUNCE_COPPER_THICKNESS`) with electrodeposited
 /// copper density 8.89 g/cm³; 0.5 oz = 17.1 µm, 2 oz = 68.6 µm.
 #[test]
 fn ounce_weight_to_thickness() {

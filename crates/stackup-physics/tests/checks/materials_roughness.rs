@@ -309,3 +309,13 @@ fn named_loss_models_give_their_factors() {
         assert_eq!(RoughLossModel::from_key(m.key()), Some(m));
     }
 }
+
+/// The low-profile default lies inside the very-low-profile class: below
+/// 5.1 µm (IPC-MF-150F, "Metal Foil for Printed Wiring Applications",
+/// §3.4.5, as quoted in the si-list archive,
+/// qsl.net/wb6tpu/si-list2/1373.html; low profile below 10.2 µm).
+#[test]
+fn low_profile_foil_is_in_the_published_very_low_profile_class() {
+    let rz = LOW_PROFILE_FOIL.rz().unwrap();
+    assert!(rz < 5.1e-6, "{rz}");
+}
