@@ -773,7 +773,8 @@ pub const STRIPLINE_OPEN_END_MODEL: &str = "Oliner wide-strip stripline open end
 /// balanced strip transmission line", IRE T-MTT 3(2), 1955, pp. 134–143, and
 /// H. M. Altschuler, A. A. Oliner, "Discontinuities in the center conductor
 /// of symmetric strip transmission line", IRE T-MTT 8(3), 1960,
-/// pp. 328–339 (from memory): the static limit b ≪ λ of a zero-thickness
+/// pp. 328–339 (from memory; searched: the second paper's title, not
+/// found): the static limit b ≪ λ of a zero-thickness
 /// strip much wider than b, where the end's fringing field is the same
 /// two-dimensional edge field as at the strip's sides.
 ///
@@ -806,7 +807,9 @@ pub const KJK_OPEN_END_MODEL: &str = "Kirschning-Jansen-Koster 1981 microstrip o
 ///
 /// Source: M. Kirschning, R. H. Jansen, N. H. L. Koster, "Accurate model for
 /// open end effect of microstrip lines", Electronics Letters 17(3), 1981,
-/// pp. 123–125 (from memory), u = W/h:
+/// pp. 123–125 (volume, year and pages as in the reference list of an
+/// open-source microstrip module; the coefficients below from memory, the
+/// paper's text not found), u = W/h:
 /// Δl/h = ξ1·ξ3·ξ5/ξ4,
 /// ξ1 = 0.434907·(εeff^0.81 + 0.26)/(εeff^0.81 − 0.189)·(u^0.8544 + 0.236)/(u^0.8544 + 0.87),
 /// ξ2 = 1 + u^0.371/(2.358·εr + 1),
@@ -816,7 +819,8 @@ pub const KJK_OPEN_END_MODEL: &str = "Kirschning-Jansen-Koster 1981 microstrip o
 /// `eps_eff` is the line's static effective permittivity (e.g. from
 /// [`crate::microstrip::hammerstad_jensen`]).
 ///
-/// Validity (notes): 0.01 ≤ u ≤ 100, 1 ≤ εr ≤ 128 (from memory).
+/// Validity (notes): 0.01 ≤ u ≤ 100, 1 ≤ εr ≤ 128 (from memory; searched:
+/// the paper with its validity range, not found).
 ///
 /// Errors: W or h not > 0, εr or εeff below 1, or εeff above εr.
 pub fn microstrip_open_end_extension(

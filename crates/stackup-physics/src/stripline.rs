@@ -68,7 +68,9 @@ fn cohn_z_air(wb: f64) -> f64 {
 /// Wheeler wrote the prefactor as 30 Ω; η0/4π = 29.98 Ω is used here
 /// (0.07 % lower).
 ///
-/// Stated accuracy about 0.5 % (from memory). Requires t < b (error
+/// Stated accuracy about 0.5 % (from memory; searched: the paper's title
+/// and abstract, not found; this crate's check against Cohn below holds it
+/// to 0.5 % at t = 0). Requires t < b (error
 /// otherwise). A note is attached outside 0.1 ≤ W/b ≤ 2, the range over
 /// which this crate checks it against Cohn's exact result at t = 0 (within
 /// 0.5 %; it reads low, by up to 0.49 % near W/b = 2).

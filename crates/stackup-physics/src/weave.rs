@@ -215,8 +215,11 @@ pub fn layered_strip_dk(
 /// q = (eps_eff − 1)/(dk_section − 1) of the known solution:
 /// eps_eff' = 1 + q·(dk_new − 1).
 ///
-/// Source: Wheeler's filling-factor form of eps_eff (H. A. Wheeler, IEEE
-/// Trans. MTT 13(2), 1965, from memory). Exact when every dielectric of a
+/// Source: Wheeler's filling-factor form of eps_eff (H. A. Wheeler,
+/// "Transmission-Line Properties of Parallel Strips Separated by a
+/// Dielectric Sheet", IEEE Trans. MTT 13(2), 1965, whose abstract states
+/// that the effective filling fraction depends mainly on the shape ratio and
+/// only slightly on the dielectric constant). Exact when every dielectric of a
 /// closed (stripline) section changes by the same factor; for a microstrip
 /// q rises slightly with Dk, which this holds constant (checked against
 /// scikit-rf's Hammerstad-Jensen microstrip in the crate's tests).
