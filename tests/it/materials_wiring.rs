@@ -95,7 +95,7 @@ fn builtin_library_is_schema_valid_and_marked_typical() {
 #[test]
 fn resin_content_gives_a_lichtenecker_estimate() {
     // Hand calculation (Lichtenecker's logarithmic rule, ln eps = sum v_i ln
-    // eps_i, Phys. Z. 27, 1926, from memory): 54 % resin by weight with resin
+    // eps_i, Phys. Z. 27, 1926, from memory; searched, not found): 54 % resin by weight with resin
     // density 1200 kg/m3 and E-glass 2540 kg/m3 is a resin volume fraction
     // v = (0.54/1200)/(0.54/1200 + 0.46/2540) = 0.71302; with resin Dk 3.2 and
     // glass Dk 6.3: Dk = exp(0.71302 ln 3.2 + 0.28698 ln 6.3) = 3.8866.

@@ -30,7 +30,8 @@ pub const OUNCE_PER_SQUARE_FOOT: f64 = 0.028_349_523_125 / 0.092_903_04;
 ///
 /// Source: classical good-conductor solution of Maxwell's equations, e.g.
 /// Pozar, *Microwave Engineering*, 4th ed., eq. 1.56 (from memory for the
-/// equation number). Valid while sigma >> omega eps0 (true for copper far above
+/// equation number; searched: the book's numbering, only catalogue entries
+/// found). Valid while sigma >> omega eps0 (true for copper far above
 /// 1 THz) and the anomalous skin effect is absent (room temperature).
 ///
 /// Errors: `f` or `sigma` not finite and > 0.
@@ -47,7 +48,8 @@ pub fn skin_depth(f: f64, sigma: f64) -> Result<f64, InputError> {
 /// sqrt(pi f mu0 / sigma), ohm per square.
 ///
 /// Source: Pozar, *Microwave Engineering*, 4th ed., eq. 1.131 (equation number
-/// from memory). Valid for conductor thickness above about 3 delta (thinner
+/// from memory; searched: the book's numbering, only catalogue entries found).
+/// Valid for conductor thickness above about 3 delta (thinner
 /// copper carries more resistance than this) and the range of [`skin_depth`].
 pub fn surface_resistance(f: f64, sigma: f64) -> Result<f64, InputError> {
     require_positive("frequency", f)?;

@@ -280,8 +280,10 @@ fn check_freqs(freqs: &[f64]) -> Result<(), InputError> {
 /// M = T_long·T_short⁻¹ ~ diag(e^{−γΔL}, e^{γΔL}), eigenvalue order chosen
 /// by nearness to an estimate of γ); M. D. Janezic, J. A. Jargon, "Complex
 /// permittivity determination from propagation constant measurements",
-/// IEEE MGWL 9(2), 1999, pp. 76–78 (γ from two lines; the doubtful
-/// points where ΔL is a multiple of half a wavelength, from memory).
+/// IEEE MGWL 9(2), 1999, pp. 76–78, DOI 10.1109/75.755052 (authors, title,
+/// journal and issue checked in NIST's publication record; γ from two
+/// lines; the doubtful points where ΔL is a multiple of half a wavelength
+/// from memory, not in the abstract).
 ///
 /// `freqs` in Hz, strictly increasing; `s_short` and `s_long` the measured
 /// two-ports of the short and long line at each frequency, both ports
@@ -678,7 +680,8 @@ impl ResonatorAnalysis {
 ///
 /// Source: with equal coupling β_c at both ports, |S21(f0)| = 2β_c/(1 + 2β_c)
 /// and Q_L = Q_u/(1 + 2β_c) (D. M. Pozar, *Microwave Engineering*, 4th ed.,
-/// sec. 6.7; D. Kajfez, *Q Factor*, 1994; from memory). Exact for a lumped
+/// sec. 6.7; D. Kajfez, *Q Factor*, 1994; from memory; Pozar's numbering
+/// searched, only catalogue entries found; Kajfez not searched). Exact for a lumped
 /// resonator, close for a weakly coupled line resonator.
 ///
 /// Errors: Q_L not > 0, |S21| not in [0, 1).
@@ -697,7 +700,8 @@ pub fn unloaded_q(q_loaded: f64, s21_mag: f64) -> Result<f64, InputError> {
 /// εeff = [n·c0/(2·f_n·(L + ΔL))]²; for a stripline εeff = Dk.
 ///
 /// Source: resonance of an open-ended line, (L + ΔL) = n·λ/2 (IPC-TM-650
-/// 2.5.5.5 stripline resonator test; Pozar 4th ed. sec. 6.3, from memory).
+/// 2.5.5.5 stripline resonator test; Pozar 4th ed. sec. 6.3, from memory;
+/// searched: the book's numbering, only catalogue entries found).
 ///
 /// Errors: n = 0, f_n or L not > 0, ΔL not finite or L + ΔL ≤ 0.
 pub fn resonator_eps_eff(
@@ -719,8 +723,9 @@ pub fn resonator_eps_eff(
 /// tanδ = 1/Q_u − 1/Q_c.
 ///
 /// Source: 1/Q_u = 1/Q_c + 1/Q_d and Q_d = 1/tanδ for a TEM line resonator
-/// filled with one dielectric (Pozar 4th ed. sec. 6.3, from memory;
-/// IPC-TM-650 2.5.5.5 separates the loss this way). Radiation is taken as
+/// filled with one dielectric (Pozar 4th ed. sec. 6.3, from memory,
+/// searched: the book's numbering, only catalogue entries found; IPC-TM-650
+/// 2.5.5.5 separates the loss this way). Radiation is taken as
 /// nil (stripline).
 ///
 /// Errors: Q not > 0, or 1/Q_u < 1/Q_c (the conductor model already claims
@@ -744,7 +749,8 @@ pub fn loss_tangent_from_q(q_unloaded: f64, q_conductor: f64) -> Result<f64, Inp
 /// Δl ≈ C·Z0·c0/√εeff.
 ///
 /// Source: an open-circuited lossless line of length Δl has input
-/// admittance jY0·tan(βΔl) (Pozar 4th ed. sec. 2.3, from memory); setting it
+/// admittance jY0·tan(βΔl) (Pozar 4th ed. sec. 2.3, from memory;
+/// searched: the book's numbering, only catalogue entries found); setting it
 /// equal to jωC gives Δl.
 ///
 /// Errors: any argument not > 0, εeff < 1.

@@ -104,7 +104,8 @@ pub fn k_ratio(k: f64) -> f64 {
 
 /// Hilberg's closed-form approximation of K(k)/K(k′) (W. Hilberg, IEEE
 /// T-MTT 17(5), May 1969, pp. 259 ff.; journal, issue and first page
-/// checked on a copy's first page, the formula from memory), maximum
+/// checked on a copy's first page, the formula from memory, not found
+/// there), maximum
 /// relative error about 2e-6 (this crate's comparison with the AGM,
 /// `hilberg_close_to_agm`).
 /// Provided for comparison; the AGM functions are exact.

@@ -233,7 +233,8 @@ pub struct GlassStyle {
     pub weave: Weave,
     /// Centre-to-centre pitch of the yarn bundles in the coarser direction,
     /// m: 25.4 mm over the lower of the warp and fill thread counts (ends
-    /// per inch; thread counts as IPC-4412 tabulates them, from memory).
+    /// per inch; thread counts as IPC-4412 tabulates them, from memory; see
+    /// [`GLASS_STYLES`] for what was searched).
     pub yarn_pitch: f64,
     /// Fraction of the width the bundles of one direction cover as pressed
     /// in a ply (1 = no resin window left). Estimates, no source: the
@@ -352,8 +353,10 @@ pub fn glass_style(name: &str) -> Option<&'static GlassStyle> {
 /// factor EF = etch depth / undercut per side (typically 2-4; EF = +inf means
 /// vertical walls).
 ///
-/// Source: common practice, no source (etch factor definition per IPC-T-50,
-/// from memory). The trace is a trapezoid with the wide base on the
+/// Source: common practice, no source (etch factor as IPC-T-50 term
+/// 54.0452 defines it, "the ratio of the depth of etch to the amount of
+/// lateral etch", as quoted on IPC's TechNet list, June 2012, where 2 to 4
+/// is given as what fabricators reach). The trace is a trapezoid with the wide base on the
 /// dielectric it was laminated to.
 ///
 /// Errors: `w_bottom` not finite and > 0; `t` negative or not finite;

@@ -170,7 +170,8 @@ pub struct FencedChannel {
 /// a_eff = a − d²/(0.95p): F. Cassivi et al., "Dispersion characteristics of
 /// substrate integrated rectangular waveguide", IEEE MWCL 12(9), 2002 (from
 /// memory). Low-leakage rule p ≤ 2d: D. Deslandes, K. Wu, IEEE T-MTT 54(6),
-/// 2006 (from memory). Example: a = 1 mm, d = 0.3 mm, p = 0.6 mm, εr = 3 gives
+/// 2006 (from memory; both searched with the two formulas, not found).
+/// Example: a = 1 mm, d = 0.3 mm, p = 0.6 mm, εr = 3 gives
 /// 103 GHz. Errors when p ≤ d (vias overlap) or a_eff ≤ 0.
 pub fn via_fenced_channel(a: f64, d: f64, p: f64, eps_r: f64) -> Result<FencedChannel, InputError> {
     require_positive("channel width a", a)?;

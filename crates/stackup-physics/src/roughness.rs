@@ -147,7 +147,8 @@ pub struct HurayModel {
 /// 2r + 2 sqrt(2) r; setting that height equal to Rz gives r. The stack and
 /// tile are from Simonovich (see [`HurayModel::cannonball`]); the height rule
 /// follows from that geometry, but that it is exactly the published rule for
-/// Rz is not confirmed (from memory).
+/// Rz is not confirmed (from memory; searched: the Cannonball model with
+/// "sphere radius from Rz", not found).
 ///
 /// Errors: `rz` not finite and > 0.
 pub fn cannonball_radius_from_rz(rz: f64) -> Result<f64, InputError> {

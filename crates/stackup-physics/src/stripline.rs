@@ -272,7 +272,7 @@ mod tests {
 
     #[test]
     fn wheeler_against_cohn_and_spot_values() {
-        // At t = 0 Wheeler 1978 stays within its stated ~0.5 % (from memory)
+        // At t = 0 Wheeler 1978 stays within its stated ~0.5 % (from memory; see the doc)
         // of Cohn's exact result for 0.1 <= W/b <= 2 (worst 0.42 % near
         // W/b = 2 with the 30-ohm prefactor, 0.49 % with η0/4π; evaluated
         // independently with arbitrary-precision elliptic integrals).
