@@ -439,7 +439,8 @@ fn analyze_one(
 /// line resonator, from its measured coupling: with |S21| at resonance,
 /// the coupling per port is k = |S21|/(2(1 − |S21|)) and the external Q
 /// per port Q_e = Q_L(1 + 2k)/k (Pozar, *Microwave Engineering*, 4th ed.,
-/// sec. 6.7, from memory). A series capacitance C into the port's
+/// sec. 6.7, from memory; searched: the book's numbering, only catalogue
+/// entries found). A series capacitance C into the port's
 /// resistance R0 loads the end of an n-half-wave line of impedance Z0 with
 /// the conductance G = ω²C²R0 (ωCR0 ≪ 1), and Q_e = nπ/(2·Z0·G) (energy
 /// stored in the standing wave over the power into G); its susceptance ωC

@@ -499,8 +499,9 @@ mod tests {
     use super::*;
     #[test]
     fn edit_distance_and_suggestions() {
-        // kitten -> sitting needs three edits: the usual textbook example
-        // of Levenshtein distance (from memory).
+        // kitten -> sitting needs three edits (k->s, e->i, +g): the usual
+        // example of Levenshtein distance, as in Rosetta Code's "Levenshtein
+        // distance" task, taken from Wikipedia's article.
         assert_eq!(edit_distance("kitten", "sitting"), 3);
         assert_eq!(edit_distance("", "abc"), 3);
         assert_eq!(

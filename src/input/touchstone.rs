@@ -1298,10 +1298,12 @@ fn read_reference(
 
 #[cfg(test)]
 mod tests {
-    //! TS2 below: Touchstone File Format Specification, Version 2.0, IBIS
-    //! Open Forum, 2009 (it defines version 1.x files too). Section names
-    //! are those of its table of contents; what a section says is quoted
-    //! from memory.
+    //! TS2 below: Touchstone File Format Specification, Version 2.0,
+    //! ratified by the IBIS Open Forum on 24 April 2009 (it defines version
+    //! 1.x files too). Section names are those of its table of contents
+    //! (title, date and table of contents checked in a copy of the
+    //! specification); what a section says is quoted from memory (the
+    //! sections' text not searched).
 
     use std::collections::HashMap;
     use std::fmt::Write as _;

@@ -443,7 +443,8 @@ pub(super) fn read_resin_system(r: &mut Reader<'_>, ptr: &str, name: &str) -> Op
         };
     let resin_dk = num(r, "resin-dk", None, 1.0, 20.0);
     let resin_df = num(r, "resin-df", Some(0.0), 0.0, 0.999);
-    // E-glass: Dk about 6.3, Df about 0.0015 (from memory; see stackup_physics::fab).
+    // E-glass: Dk about 6.3, Df about 0.0015 (from memory; what was searched
+    // is in stackup_physics::fab::E_GLASS_DK).
     let glass_dk = num(
         r,
         "glass-dk",

@@ -176,7 +176,8 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
 /// pair each mode is a two-port of its own (Se, So), and the four-port is
 /// [[A, B], [B, A]] with A = (Se + So)/2, B = (Se − So)/2 (modal
 /// decomposition of symmetric coupled lines; e.g. Pozar, *Microwave
-/// Engineering*, 4th ed., sec. 7.6, from memory).
+/// Engineering*, 4th ed., sec. 7.6, from memory; searched: the book's
+/// numbering, only catalogue entries found).
 pub fn touchstone_pair(
     file: &str,
     class: &str,

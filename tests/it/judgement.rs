@@ -231,7 +231,7 @@ fn each_ply_is_charged_only_its_own_share() {
     // same foil: the line is solved with each ply alone raised. The two
     // shares together come to about the line's whole shift (first-order
     // perturbation: each ply's share of the field energy, Harrington,
-    // Time-Harmonic Electromagnetic Fields, 1961, sec. 7-3, from memory),
+    // Time-Harmonic Electromagnetic Fields, 1961, sec. 7-3, from memory, not searched),
     // and the thick ply's share is the smaller.
     let text = Board::new()
         .material(

@@ -17,7 +17,8 @@ pub const SIGMA_ANNEALED_COPPER: f64 = 5.8e7;
 
 /// Density of electrodeposited copper foil used for weight/thickness
 /// conversion, kg/m³ (8.89 g/cm³). With it, 1 oz/ft² gives 34.3 µm, the value
-/// listed for 1 oz foil in IPC-4562 (from memory). Wrought/annealed bulk
+/// listed for 1 oz foil in IPC-4562 (from memory; searched as for
+/// [`crate::consts::OUNCE_COPPER_THICKNESS`]). Wrought/annealed bulk
 /// copper is 8.96 g/cm³, which would give 34.1 µm.
 pub const COPPER_FOIL_DENSITY: f64 = 8890.0;
 
@@ -29,7 +30,8 @@ pub const OUNCE_PER_SQUARE_FOOT: f64 = 0.028_349_523_125 / 0.092_903_04;
 ///
 /// Source: classical good-conductor solution of Maxwell's equations, e.g.
 /// Pozar, *Microwave Engineering*, 4th ed., eq. 1.56 (from memory for the
-/// equation number). Valid while sigma >> omega eps0 (true for copper far above
+/// equation number; searched: the book's numbering, only catalogue entries
+/// found). Valid while sigma >> omega eps0 (true for copper far above
 /// 1 THz) and the anomalous skin effect is absent (room temperature).
 ///
 /// Errors: `f` or `sigma` not finite and > 0.
@@ -46,7 +48,8 @@ pub fn skin_depth(f: f64, sigma: f64) -> Result<f64, InputError> {
 /// sqrt(pi f mu0 / sigma), ohm per square.
 ///
 /// Source: Pozar, *Microwave Engineering*, 4th ed., eq. 1.131 (equation number
-/// from memory). Valid for conductor thickness above about 3 delta (thinner
+/// from memory; searched: the book's numbering, only catalogue entries found).
+/// Valid for conductor thickness above about 3 delta (thinner
 /// copper carries more resistance than this) and the range of [`skin_depth`].
 pub fn surface_resistance(f: f64, sigma: f64) -> Result<f64, InputError> {
     require_positive("frequency", f)?;

@@ -12,10 +12,13 @@
 //!   conversion of Bockelman and Eisenstadt first: Sdd gives the odd mode,
 //!   Scc the even mode.
 //! - **Resonator method** (the IPC-TM-650 2.5.5.5 stripline resonator
-//!   family): the peaks of |S21| of a gap-coupled line resonator give the
-//!   resonant frequencies, loaded and unloaded Q, mode numbers, the
-//!   effective permittivity (Dk for a stripline) and, with a conductor Q
-//!   from a model, the loss tangent.
+//!   family: "Stripline Test for Permittivity and Loss Tangent (Dielectric
+//!   Constant and Dissipation Factor) at X-Band", revision C, March 1998;
+//!   number, title, revision and date checked in a copy of the method and
+//!   in a NIST-supported roadmap page): the peaks of |S21| of a
+//!   gap-coupled line resonator give the resonant frequencies, loaded and
+//!   unloaded Q, mode numbers, the effective permittivity (Dk for a
+//!   stripline) and, with a conductor Q from a model, the loss tangent.
 //!
 //! SI units throughout (Hz, m, Np/m; dB/m where named). Time convention
 //! e^{jωt}: a wave travelling towards +z goes as e^{−γz}, γ = α + jβ.
@@ -277,8 +280,10 @@ fn check_freqs(freqs: &[f64]) -> Result<(), InputError> {
 /// M = T_long·T_short⁻¹ ~ diag(e^{−γΔL}, e^{γΔL}), eigenvalue order chosen
 /// by nearness to an estimate of γ); M. D. Janezic, J. A. Jargon, "Complex
 /// permittivity determination from propagation constant measurements",
-/// IEEE MGWL 9(2), 1999, pp. 76–78 (γ from two lines; the doubtful
-/// points where ΔL is a multiple of half a wavelength, from memory).
+/// IEEE MGWL 9(2), 1999, pp. 76–78, DOI 10.1109/75.755052 (authors, title,
+/// journal and issue checked in NIST's publication record; γ from two
+/// lines; the doubtful points where ΔL is a multiple of half a wavelength
+/// from memory, not in the abstract).
 ///
 /// `freqs` in Hz, strictly increasing; `s_short` and `s_long` the measured
 /// two-ports of the short and long line at each frequency, both ports
@@ -675,7 +680,8 @@ impl ResonatorAnalysis {
 ///
 /// Source: with equal coupling β_c at both ports, |S21(f0)| = 2β_c/(1 + 2β_c)
 /// and Q_L = Q_u/(1 + 2β_c) (D. M. Pozar, *Microwave Engineering*, 4th ed.,
-/// sec. 6.7; D. Kajfez, *Q Factor*, 1994; from memory). Exact for a lumped
+/// sec. 6.7; D. Kajfez, *Q Factor*, 1994; from memory; Pozar's numbering
+/// searched, only catalogue entries found; Kajfez not searched). Exact for a lumped
 /// resonator, close for a weakly coupled line resonator.
 ///
 /// Errors: Q_L not > 0, |S21| not in [0, 1).
@@ -694,7 +700,8 @@ pub fn unloaded_q(q_loaded: f64, s21_mag: f64) -> Result<f64, InputError> {
 /// εeff = [n·c0/(2·f_n·(L + ΔL))]²; for a stripline εeff = Dk.
 ///
 /// Source: resonance of an open-ended line, (L + ΔL) = n·λ/2 (IPC-TM-650
-/// 2.5.5.5 stripline resonator test; Pozar 4th ed. sec. 6.3, from memory).
+/// 2.5.5.5 stripline resonator test; Pozar 4th ed. sec. 6.3, from memory;
+/// searched: the book's numbering, only catalogue entries found).
 ///
 /// Errors: n = 0, f_n or L not > 0, ΔL not finite or L + ΔL ≤ 0.
 pub fn resonator_eps_eff(
@@ -716,8 +723,9 @@ pub fn resonator_eps_eff(
 /// tanδ = 1/Q_u − 1/Q_c.
 ///
 /// Source: 1/Q_u = 1/Q_c + 1/Q_d and Q_d = 1/tanδ for a TEM line resonator
-/// filled with one dielectric (Pozar 4th ed. sec. 6.3, from memory;
-/// IPC-TM-650 2.5.5.5 separates the loss this way). Radiation is taken as
+/// filled with one dielectric (Pozar 4th ed. sec. 6.3, from memory,
+/// searched: the book's numbering, only catalogue entries found; IPC-TM-650
+/// 2.5.5.5 separates the loss this way). Radiation is taken as
 /// nil (stripline).
 ///
 /// Errors: Q not > 0, or 1/Q_u < 1/Q_c (the conductor model already claims
@@ -741,7 +749,8 @@ pub fn loss_tangent_from_q(q_unloaded: f64, q_conductor: f64) -> Result<f64, Inp
 /// Δl ≈ C·Z0·c0/√εeff.
 ///
 /// Source: an open-circuited lossless line of length Δl has input
-/// admittance jY0·tan(βΔl) (Pozar 4th ed. sec. 2.3, from memory); setting it
+/// admittance jY0·tan(βΔl) (Pozar 4th ed. sec. 2.3, from memory;
+/// searched: the book's numbering, only catalogue entries found); setting it
 /// equal to jωC gives Δl.
 ///
 /// Errors: any argument not > 0, εeff < 1.
@@ -770,7 +779,8 @@ pub const STRIPLINE_OPEN_END_MODEL: &str = "Oliner wide-strip stripline open end
 /// balanced strip transmission line", IRE T-MTT 3(2), 1955, pp. 134–143, and
 /// H. M. Altschuler, A. A. Oliner, "Discontinuities in the center conductor
 /// of symmetric strip transmission line", IRE T-MTT 8(3), 1960,
-/// pp. 328–339 (from memory): the static limit b ≪ λ of a zero-thickness
+/// pp. 328–339 (from memory; searched: the second paper's title, not
+/// found): the static limit b ≪ λ of a zero-thickness
 /// strip much wider than b, where the end's fringing field is the same
 /// two-dimensional edge field as at the strip's sides.
 ///
@@ -803,7 +813,9 @@ pub const KJK_OPEN_END_MODEL: &str = "Kirschning-Jansen-Koster 1981 microstrip o
 ///
 /// Source: M. Kirschning, R. H. Jansen, N. H. L. Koster, "Accurate model for
 /// open end effect of microstrip lines", Electronics Letters 17(3), 1981,
-/// pp. 123–125 (from memory), u = W/h:
+/// pp. 123–125 (volume, year and pages as in the reference list of an
+/// open-source microstrip module; the coefficients below from memory, the
+/// paper's text not found), u = W/h:
 /// Δl/h = ξ1·ξ3·ξ5/ξ4,
 /// ξ1 = 0.434907·(εeff^0.81 + 0.26)/(εeff^0.81 − 0.189)·(u^0.8544 + 0.236)/(u^0.8544 + 0.87),
 /// ξ2 = 1 + u^0.371/(2.358·εr + 1),
@@ -813,7 +825,8 @@ pub const KJK_OPEN_END_MODEL: &str = "Kirschning-Jansen-Koster 1981 microstrip o
 /// `eps_eff` is the line's static effective permittivity (e.g. from
 /// [`crate::microstrip::hammerstad_jensen`]).
 ///
-/// Validity (notes): 0.01 ≤ u ≤ 100, 1 ≤ εr ≤ 128 (from memory).
+/// Validity (notes): 0.01 ≤ u ≤ 100, 1 ≤ εr ≤ 128 (from memory; searched:
+/// the paper with its validity range, not found).
 ///
 /// Errors: W or h not > 0, εr or εeff below 1, or εeff above εr.
 pub fn microstrip_open_end_extension(

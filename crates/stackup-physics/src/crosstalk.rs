@@ -8,7 +8,8 @@
 //! with τ = √ε_eff/c0 the modes' delays (H. W. Johnson and M. Graham,
 //! *High-Speed Signal Propagation*, 2003, §10; S. H. Hall, G. W. Hall and
 //! J. A. McCall, *High-Speed Digital System Design*, 2000, ch. 3; both
-//! from memory). L and C per unit length follow from the modes:
+//! from memory; searched: Johnson & Graham's crosstalk chapter, not found,
+//! Hall et al. not searched). L and C per unit length follow from the modes:
 //! C_e,o = √ε_e,o/(c0 Z_e,o), L_e,o = Z_e,o √ε_e,o/c0, so
 //! C_m/C = (C_o − C_e)/(C_o + C_e) and L_m/L = (L_e − L_o)/(L_e + L_o).
 //! In a homogeneous medium both ratios equal (Z_e − Z_o)/(Z_e + Z_o), so
@@ -48,7 +49,8 @@ pub fn fext_per_metre(m: &ModalPair, rise_time: f64) -> f64 {
 /// for a differential drive of unit amplitude (superposition of the four
 /// two-line couplings, valid for weak coupling; it neglects the shielding
 /// of the traces in between; C. R. Paul, *Analysis of Multiconductor
-/// Transmission Lines*, 2nd ed., 2008, on weak coupling, from memory).
+/// Transmission Lines*, 2nd ed., 2008, on weak coupling, from memory, not
+/// searched).
 /// Returns the three gaps, for the caller to solve k at.
 pub fn pair_gaps(gap: f64, width: f64, spacing: f64) -> [f64; 3] {
     [gap, gap + width + spacing, gap + 2.0 * (width + spacing)]
@@ -122,7 +124,7 @@ mod tests {
 /// 2×2 Maxwell capacitance and inductance matrices (row-major):
 /// K_b = (1/4)(|C12|/√(C11·C22) + L12/√(L11·L22)), the weak-coupling form
 /// above with each ratio taken against both lines' self terms (Johnson &
-/// Graham 2003, §10, from memory). For two equal lines it equals
+/// Graham 2003, §10, from memory; searched, not found). For two equal lines it equals
 /// [`next_coefficient`] of their even and odd modes.
 pub fn next_coefficient_matrices(c: &[f64], l: &[f64]) -> f64 {
     if c.len() != 4 || l.len() != 4 {

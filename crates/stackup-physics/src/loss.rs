@@ -26,7 +26,8 @@ fn require_loss_tangent(tan_d: f64) -> Result<(), InputError> {
 /// alpha_d = G·Z0/2; for one dielectric it is [`dielectric_loss_stripline`]
 /// and for microstrip the filling-factor form of
 /// [`dielectric_loss_microstrip`] (Pozar, *Microwave Engineering*, 4th ed.,
-/// sec. 3.8, from memory), both of which the tests check.
+/// sec. 3.8, from memory; searched: the book's numbering, only catalogue
+/// entries found), both of which the tests check.
 ///
 /// Errors: `f` not finite and > 0; `eps_eff` < 1; shares and loss tangents
 /// of different length, negative or not finite.
@@ -56,7 +57,8 @@ pub fn dielectric_loss_of_mode(
 /// (stripline): alpha_d = pi f sqrt(eps_r) tan_d / c0, Np/m.
 ///
 /// Source: Pozar, *Microwave Engineering*, 4th ed., eq. 2.88 / sec. 3.7
-/// (equation numbers from memory); exact for TEM lines with a homogeneous
+/// (equation numbers from memory; searched: the book's numbering, only
+/// catalogue entries found); exact for TEM lines with a homogeneous
 /// dielectric at any frequency, low-loss approximation (tan_d << 1).
 ///
 /// Errors: `f` not finite and > 0; `eps_r` < 1 or not finite; `tan_d`
@@ -74,6 +76,8 @@ pub fn dielectric_loss_stripline(f: f64, eps_r: f64, tan_d: f64) -> Result<f64, 
 /// Np/m.
 ///
 /// Source: Pozar, *Microwave Engineering*, 4th ed., eq. 3.198 (from memory;
+/// searched: the equation number in code and pages, where two secondary
+/// sources give it to different formulas, so the number stays unchecked;
 /// the filling-factor form goes back to Welch & Pratt, IEEE Trans. MTT 14(6),
 /// 1966, and Schneider, Bell Syst. Tech. J. 48, 1969). Quasi-static; needs
 /// 1 <= eps_eff <= eps_r. For eps_r = 1 (air-like dielectric) the filling
@@ -191,7 +195,7 @@ pub fn conductor_loss_microstrip_hj(
 /// 10.1109/TMTT.1968.1126691, with its correction in 16(12), p. 1064; as
 /// collected in K. C. Gupta, R. Garg, I. Bahl, P. Bhartia, *Microstrip
 /// Lines and Slotlines*, 2nd ed., Artech House 1996, ch. 2 (the equations
-/// from memory; chapter not checked). `z0` is the line's quasi-static
+/// from memory; chapter not checked, not searched). `z0` is the line's quasi-static
 /// impedance (with its dielectric), `t` > 0 the strip thickness. The ranges
 /// join with a step of several per cent (the approximations of Wheeler's
 /// formulas differ); a cross-check, not the engine's value.
@@ -232,7 +236,8 @@ pub fn conductor_loss_microstrip_pucel(
 }
 
 /// Stripline conductor attenuation, closed form from Wheeler's rule as given
-/// by Pozar, *Microwave Engineering*, 4th ed., eq. 3.199 (from memory), Np/m:
+/// by Pozar, *Microwave Engineering*, 4th ed., eq. 3.199 (from memory;
+/// searched as for [`dielectric_loss_microstrip`]), Np/m:
 ///
 /// * sqrt(eps_r) Z0 < 120 ohm: alpha_c = 2.7e-3 Rs eps_r Z0 A / [30 pi (b - t)],
 ///   A = 1 + 2W/(b - t) + (1/pi) (b + t)/(b - t) ln[(2b - t)/t];
@@ -298,7 +303,8 @@ pub fn db_per_m_to_db_per_inch(db_per_m: f64) -> f64 {
 }
 
 /// Rule of thumb for dielectric loss: 2.3 f[GHz] Df sqrt(Dk) dB/inch
-/// (E. Bogatin, *Signal and Power Integrity - Simplified*, from memory).
+/// (E. Bogatin, *Signal and Power Integrity - Simplified*, from memory;
+/// searched: the rule with its constant, not found).
 /// It is [`dielectric_loss_stripline`] with the constant rounded (the exact
 /// constant is 2.312); input f in Hz, result in dB/inch.
 ///

@@ -186,7 +186,8 @@ pub(crate) fn kj_p1_to_p4(u: f64, fnn: f64, eps_r: f64) -> [f64; 4] {
 /// Source: R. H. Jansen, M. Kirschning, "Arguments and an accurate model for
 /// the power-current formulation of microstrip characteristic impedance",
 /// AEÜ 37, 1983, pp. 108–112 (coefficients R1…R17 from memory of the paper
-/// as transcribed in open references; R1, R2, R6 clamped to ≤ 20; in R8 the
+/// as transcribed in open references; searched: the paper's title and
+/// coefficients, not found; R1, R2, R6 clamped to ≤ 20; in R8 the
 /// factor (fn/18.365)^2.745 is inside the exponential).
 ///
 /// Needs the static (`z0_static`, `eps_eff0`) and dispersive (`eps_eff_f`,

@@ -41,10 +41,14 @@ use crate::validity::{finite, require_eps_r, require_non_negative, require_posit
 /// K_H = 1 + (2/pi) atan[1.4 (Rq/delta)²], Rq the RMS roughness, delta the
 /// skin depth.
 ///
-/// Source: E. Hammerstad and F. Bekkadal, *Microstrip Handbook*, ELAB report
-/// STF44 A74169, Univ. of Trondheim, 1975 (from memory), as used in
+/// Source: E. Hammerstad and F. Bekkadal, "A microstrip handbook", ELAB
+/// Report STF44 A74169, University of Trondheim, Norway, February 1975 (the
+/// reference as listed in M. Steer, *Fundamentals of Microwave and RF
+/// Design*, ch. 4 references; the report itself not seen), as used in
 /// E. Hammerstad and O. Jensen, "Accurate models for microstrip computer-aided
-/// design", IEEE MTT-S Digest 1980, pp. 407-409. Saturates at 2. Fitted to
+/// design", IEEE MTT-S Digest 1980, pp. 407-409. The formula itself was
+/// seen only in secondary documentation, as the RF = 2 case of
+/// [`hammerstad_factor_general`]. Saturates at 2. Fitted to
 /// 2-D periodic grooves: valid for Rq up to about delta; for Rq >> delta (a few
 /// GHz and up for standard foil) it under-predicts loss (common practice, no
 /// source).
@@ -86,7 +90,9 @@ fn require_roughness_factor(rf: f64) -> Result<(), InputError> {
 ///
 /// Source: S. Groiss, I. Bardi, O. Biro, K. Preis and K. R. Richter,
 /// "Parameters of lossy cavity resonators calculated by the finite element
-/// method", IEEE Trans. Magn. 32(3), pp. 894-897, 1996 (formula from memory).
+/// method", IEEE Trans. Magn. 32(3), pp. 894-897, 1996 (formula from memory;
+/// searched: the paper's title and authors with "roughness correction
+/// factor", no checkable text found).
 /// Saturates at 2; same range as [`hammerstad_factor`]. Rq = 0 gives 1.
 ///
 /// Errors: as [`hammerstad_factor`].
@@ -141,7 +147,8 @@ pub struct HurayModel {
 /// 2r + 2 sqrt(2) r; setting that height equal to Rz gives r. The stack and
 /// tile are from Simonovich (see [`HurayModel::cannonball`]); the height rule
 /// follows from that geometry, but that it is exactly the published rule for
-/// Rz is not confirmed (from memory).
+/// Rz is not confirmed (from memory; searched: the Cannonball model with
+/// "sphere radius from Rz", not found).
 ///
 /// Errors: `rz` not finite and > 0.
 pub fn cannonball_radius_from_rz(rz: f64) -> Result<f64, InputError> {
@@ -567,8 +574,10 @@ impl RoughSurface {
 }
 
 /// Typical standard electrodeposited foil, treated (tooth) side:
-/// Rz 9 µm, Rq 2.25 µm (common practice, no source; IPC-4562 sets no
-/// profile limit for the standard class).
+/// Rz 9 µm, Rq 2.25 µm (common practice, no source; IPC-4562's predecessor
+/// IPC-MF-150F, "Metal Foil for Printed Wiring Applications", §3.4.5, sets
+/// no profile value for the standard type, as quoted in the si-list
+/// archive, qsl.net/wb6tpu/si-list2/1373.html).
 pub const STANDARD_ED_FOIL: RoughSurface = RoughSurface {
     rq: Some(2.25e-6),
     rz: Some(9.0e-6),
@@ -577,7 +586,9 @@ pub const STANDARD_ED_FOIL: RoughSurface = RoughSurface {
 /// Low-profile electrodeposited foil, treated side: Rz 2 µm, Rq 0.5 µm, the
 /// smooth end of the foils a laminate is commonly built with (the
 /// "very low" and "hyper very low" profile classes, around Rz 1.5 to 3 µm;
-/// common practice, no source). The best case of a foil face whose profile
+/// common practice, no source; inside the very-low-profile limit of
+/// IPC-MF-150F §3.4.5, below 5.1 µm, quoted as for [`STANDARD_ED_FOIL`]).
+/// The best case of a foil face whose profile
 /// the stackup does not state.
 pub const LOW_PROFILE_FOIL: RoughSurface = RoughSurface {
     rq: Some(0.5e-6),
@@ -603,9 +614,16 @@ pub const BOND_TREATMENT_UNKNOWN_WORST: RoughSurface = RoughSurface {
 /// copper and dielectric is replaced by a homogeneous layer of thickness T_r
 /// and raised permittivity eps_rough on smooth copper.
 ///
-/// Concept: M. Y. Koledintseva et al., "effective roughness dielectric"
-/// (IEEE EMC Symposia 2012-2015, from memory); M. Koledintseva and
-/// T. Vincent, IMAPS journal, DOI 10.4071/imaps.654479.
+/// Concept: the "effective roughness dielectric" of M. Y. Koledintseva et
+/// al., a homogeneous layer of thickness Tr and Dk DKr placed on smooth
+/// copper in place of the rough transition zone (M. Y. Koledintseva and
+/// T. Vincent, "Equivalent Capacitance Approach to Calculate Effective
+/// Roughness Dielectric Parameters for Copper Foils on Printed Circuit
+/// Boards", IMAPS journal, DOI 10.4071/imaps.654479; the same authors,
+/// "Calculation of Frequency-Dependent Effective Roughness Dielectric
+/// Parameters for Copper Foil Using Equivalent Capacitance Models",
+/// Design007 Magazine, 2 January 2019, which names its earlier papers as
+/// the concept's origin).
 ///
 /// This project's parameterisation (no published constants exist):
 ///
@@ -626,7 +644,10 @@ pub const BOND_TREATMENT_UNKNOWN_WORST: RoughSurface = RoughSurface {
 /// Dk 3.0, [`STANDARD_ED_FOIL`] on both faces, 50 GHz: 3.20 at 127 µm, 3.10 at
 /// 254 µm, 3.05 at 508 µm, 3.02 at 1.27 mm. Both facts are common practice
 /// with no source. T_r = 2.35 Rq is about 0.6 Rz, consistent with "T_r about
-/// the profile height".
+/// the profile height". Checked against published values the calibration
+/// did not use (Simonovich's roughness-adjusted Dk of a 0.3 mm stripline),
+/// the rise is only 36-42 % of the published one: see the crate README,
+/// "Calibration of the roughness layer".
 ///
 /// In a microstrip the field is not parallel-plate: the analysis should put
 /// a layer of thickness [`RoughLayerModel::thickness`] and permittivity

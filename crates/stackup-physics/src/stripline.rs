@@ -68,7 +68,9 @@ fn cohn_z_air(wb: f64) -> f64 {
 /// Wheeler wrote the prefactor as 30 Ω; η0/4π = 29.98 Ω is used here
 /// (0.07 % lower).
 ///
-/// Stated accuracy about 0.5 % (from memory). Requires t < b (error
+/// Stated accuracy about 0.5 % (from memory; searched: the paper's title
+/// and abstract, not found; this crate's check against Cohn below holds it
+/// to 0.5 % at t = 0). Requires t < b (error
 /// otherwise). A note is attached outside 0.1 ≤ W/b ≤ 2, the range over
 /// which this crate checks it against Cohn's exact result at t = 0 (within
 /// 0.5 %; it reads low, by up to 0.49 % near W/b = 2).
@@ -270,7 +272,7 @@ mod tests {
 
     #[test]
     fn wheeler_against_cohn_and_spot_values() {
-        // At t = 0 Wheeler 1978 stays within its stated ~0.5 % (from memory)
+        // At t = 0 Wheeler 1978 stays within its stated ~0.5 % (from memory; see the doc)
         // of Cohn's exact result for 0.1 <= W/b <= 2 (worst 0.42 % near
         // W/b = 2 with the 30-ohm prefactor, 0.49 % with η0/4π; evaluated
         // independently with arbitrary-precision elliptic integrals).

@@ -6,7 +6,8 @@
 //! γ = √((R + jωL)(G + jωC)); the ABCD matrix of a line section
 //! [cosh γℓ, Zc sinh γℓ; sinh γℓ / Zc, cosh γℓ] and its conversion to S
 //! parameters with equal reference impedances (D. M. Pozar, *Microwave
-//! Engineering*, 4th ed., Tables 4.1 and 4.2, from memory). Time
+//! Engineering*, 4th ed., Tables 4.1 and 4.2, from memory; searched: the
+//! book's numbering, only catalogue entries found). Time
 //! convention e^{jωt}.
 
 use num_complex::Complex64;

@@ -13,7 +13,8 @@ use crate::validity::{finite, require_eps_r, require_positive, InputError};
 /// An open-circuited lossless line has the input impedance
 /// Z_in = −j·Z0·cot(βL), zero where βL = π/2 (D. M. Pozar, *Microwave
 /// Engineering*, 4th ed., Wiley 2012, §2.3, the terminated lossless line;
-/// section number from memory). Hung as a shunt on a through line, the stub
+/// section number from memory; searched: the book's numbering, only catalogue
+/// entries found). Hung as a shunt on a through line, the stub
 /// shorts it there and |S21| has its first null (checked against scikit-rf's
 /// shunt open stub, `tests/checks/vias_reference.rs`). The next nulls are at
 /// 3f, 5f, ….

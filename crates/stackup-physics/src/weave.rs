@@ -107,7 +107,8 @@ pub struct WovenPlyDk {
 /// that makes the bulk Dk by the Lichtenecker rule with glass of Dk
 /// `glass_dk` ([`lichtenecker_other_dk`]); the local glass fractions
 /// ([`local_glass_fraction`]); the Lichtenecker Dk of each
-/// ([`lichtenecker_dk`], K. Lichtenecker, Phys. Z. 27, 1926, from memory).
+/// ([`lichtenecker_dk`], K. Lichtenecker, Phys. Z. 27, 1926, from memory;
+/// searched, see [`lichtenecker_dk`]).
 /// Recovering the resin Dk from the ply's own Dk keeps the average of the
 /// local Dk at the ply's measured value.
 ///
@@ -167,7 +168,7 @@ pub struct LayeredStrip {
 ///
 /// Source: capacitance of a layered parallel-plate capacitor (series and
 /// parallel combination; e.g. Hayt & Buck, *Engineering Electromagnetics*,
-/// the two-dielectric capacitor, from memory). Validity: wide strips
+/// the two-dielectric capacitor, from memory, not searched). Validity: wide strips
 /// (W ≫ h); used here only for the relative change of Dk between plies,
 /// with the solved eps_eff carrying the absolute value
 /// ([`filled_eps_eff`]).
@@ -215,8 +216,11 @@ pub fn layered_strip_dk(
 /// q = (eps_eff − 1)/(dk_section − 1) of the known solution:
 /// eps_eff' = 1 + q·(dk_new − 1).
 ///
-/// Source: Wheeler's filling-factor form of eps_eff (H. A. Wheeler, IEEE
-/// Trans. MTT 13(2), 1965, from memory). Exact when every dielectric of a
+/// Source: Wheeler's filling-factor form of eps_eff (H. A. Wheeler,
+/// "Transmission-Line Properties of Parallel Strips Separated by a
+/// Dielectric Sheet", IEEE Trans. MTT 13(2), 1965, whose abstract states
+/// that the effective filling fraction depends mainly on the shape ratio and
+/// only slightly on the dielectric constant). Exact when every dielectric of a
 /// closed (stripline) section changes by the same factor; for a microstrip
 /// q rises slightly with Dk, which this holds constant (checked against
 /// scikit-rf's Hammerstad-Jensen microstrip in the crate's tests).

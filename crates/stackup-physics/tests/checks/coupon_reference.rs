@@ -702,7 +702,10 @@ fn stripline_open_end_matches_cohn_edge_fringing() {
 /// Kirschning-Jansen-Koster 1981 against Hammerstad's 1975 open end
 /// Δl/h = 0.412(εeff + 0.3)(u + 0.264)/((εeff − 0.258)(u + 0.8)) (E. O.
 /// Hammerstad, "Equations for microstrip circuit design", Proc. 5th EuMC,
-/// 1975, from memory), both with Hammerstad-Jensen's static εeff: two
+/// Sept. 1975, pp. 268-272, as listed in M. Steer's *Fundamentals of
+/// Microwave and RF Design*, ch. 4 references; the formula from memory,
+/// not searched),
+/// both with Hammerstad-Jensen's static εeff: two
 /// independent fits agree within 5 % for 0.5 ≤ W/h ≤ 2 (they part for wide
 /// strips, where Hammerstad's saturates; no tabulated value of either was
 /// at hand).

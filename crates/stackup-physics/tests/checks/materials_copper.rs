@@ -10,7 +10,7 @@ fn rel(a: f64, b: f64) -> f64 {
 /// and 0.6609 µm at 10 GHz; Rs(10 GHz) = 0.026090 ohm. Values evaluated
 /// independently in mpmath by tests/materials_reference_values.py; the
 /// rounded handbook values are 2.09 µm and 0.66 µm (Pozar, *Microwave
-/// Engineering*, skin-depth table for copper, from memory).
+/// Engineering*, skin-depth table for copper, from memory; Pozar's numbering searched, not found).
 #[test]
 fn skin_depth_and_rs_of_annealed_copper() {
     let s = SIGMA_ANNEALED_COPPER;
@@ -28,14 +28,15 @@ fn skin_depth_and_rs_of_annealed_copper() {
 
 /// Pozar's stripline example uses sigma = 5.813e7 S/m; at 10 GHz
 /// Rs = 0.026 ohm (Pozar, *Microwave Engineering*, stripline attenuation
-/// example, from memory).
+/// example, from memory; Pozar's numbering searched, not found).
 #[test]
 fn rs_pozar_example() {
     let rs = surface_resistance(10e9, 5.813e7).unwrap();
     assert!((rs - 0.026).abs() < 0.0005, "{rs}");
 }
 
-/// 1 oz/ft² copper is 34.3 µm (IPC-4562, from memory) with electrodeposited
+/// 1 oz/ft² copper is 34.3 µm (IPC-4562, from memory; searched as noted at
+/// `consts::OUNCE_COPPER_THICKNESS`) with electrodeposited
 /// copper density 8.89 g/cm³; 0.5 oz = 17.1 µm, 2 oz = 68.6 µm.
 #[test]
 fn ounce_weight_to_thickness() {

@@ -49,7 +49,7 @@ fn pressed_prepreg() {
     assert!(thin.is_err());
 }
 
-/// Lichtenecker (Phys. Z. 27, 1926, from memory): a single component is
+/// Lichtenecker (Phys. Z. 27, 1926, from memory; searched, not found): a single component is
 /// itself; equal Dk is unchanged; a 50/50 mix of 2 and 8 is their geometric
 /// mean 4.
 #[test]

@@ -12,7 +12,8 @@ fn rel(a: f64, b: f64) -> f64 {
 }
 
 /// Pozar, *Microwave Engineering*, stripline attenuation example (edition
-/// and example number from memory): b = 0.32 cm, eps_r 2.2, W = 0.266 cm,
+/// and example number from memory; Pozar's numbering searched, not found): b =
+/// 0.32 cm, eps_r 2.2, W = 0.266 cm,
 /// t = 0.01 mm, sigma 5.813e7, tan_d 0.001, 10 GHz, Z0 50 ohm:
 /// alpha_d = 0.155 Np/m, alpha_c = 0.122 Np/m. mpmath evaluation of the same
 /// formulas (tests/materials_reference_values.py): 0.155432, 0.121945.
@@ -30,13 +31,14 @@ fn pozar_stripline_example() {
         (ac - 0.122).abs() < 0.0005 && rel(ac, 0.121945) < 1e-5,
         "{ac}"
     );
-    // Total 0.277 Np/m = 2.41 dB/m (Pozar's example total, from memory).
+    // Total 0.277 Np/m = 2.41 dB/m (Pozar's example total, from memory;
+    // Pozar's numbering searched, not found).
     assert!((np_per_m_to_db_per_m(ad + ac) - 2.41).abs() < 0.01);
 }
 
 /// Stripline alpha_d, eps_r 4, tan_d 0.02, 10 GHz = 36.41 dB/m (formula of
 /// Pozar eq. for TEM dielectric loss, mpmath value 36.40856 dB/m); the rule of
-/// thumb 2.3 f[GHz] Df sqrt(Dk) dB/in (Bogatin, from memory) gives 0.92 dB/in
+/// thumb 2.3 f[GHz] Df sqrt(Dk) dB/in (Bogatin, from memory; searched, not found) gives 0.92 dB/in
 /// against the exact 0.9248 dB/in.
 #[test]
 fn dielectric_loss_and_rule_of_thumb() {
@@ -50,7 +52,8 @@ fn dielectric_loss_and_rule_of_thumb() {
     assert!(rel(db_per_m_to_db_per_inch(36.40856), 0.924777) < 1e-5);
 }
 
-/// Microstrip filling-factor form (Pozar eq. 3.198, from memory): full
+/// Microstrip filling-factor form (Pozar eq. 3.198, from memory; Pozar's
+/// numbering searched, not found): full
 /// filling (eps_eff = eps_r) gives the stripline value; eps_eff = 1 gives
 /// zero; in between it is proportional to the filling factor q.
 #[test]
@@ -72,7 +75,8 @@ fn microstrip_filling_factor_limits() {
 }
 
 /// Wheeler's rule (Proc. IRE 1942) against textbook conductor losses (Pozar,
-/// *Microwave Engineering*, table of TEM line parameters, from memory):
+/// *Microwave Engineering*, table of TEM line parameters, from memory; Pozar's
+/// numbering searched, not found):
 /// parallel plates R = 2 Rs/W, coax R = Rs/(2 pi) (1/a + 1/b), with
 /// alpha_c = R/(2 Z0).
 #[test]
@@ -98,7 +102,7 @@ fn wheeler_rule_matches_textbook_lines() {
 /// Hammerstad-Jensen (IEEE MTT-S Digest 1980) conductor loss: current
 /// distribution factor K_i = exp(-1.2 (Z0/eta0)^0.7); for a very wide strip
 /// (Z0 -> 0) it tends to the parallel-plate value Rs/(Z0 W) (Pozar table of
-/// TEM lines, from memory).
+/// TEM lines, from memory; Pozar's numbering searched, not found).
 #[test]
 fn hj_conductor_loss() {
     let (rs, z0, w) = (0.03, 50.0, 200e-6);

@@ -29,7 +29,7 @@ fn hammerstad_check_values() {
 }
 
 /// Groiss factor: 1 + exp(-(delta/2Rq)^1.6) (Groiss et al., IEEE Trans. Magn.
-/// 32(3) 1996, from memory): at Rq = delta/2 it is 1 + 1/e.
+/// 32(3) 1996, from memory; searched, not found): at Rq = delta/2 it is 1 + 1/e.
 #[test]
 fn groiss_values() {
     let d = 1e-6;
@@ -275,7 +275,7 @@ fn subnormal_frequency_is_refused() {
 }
 
 /// A foil's named loss model gives its published factor: Groiss at
-/// δ = 4·Rq is 1 + e^(−2^1.6) (Groiss et al. 1996, formula from memory),
+/// δ = 4·Rq is 1 + e^(−2^1.6) (Groiss et al. 1996, formula from memory; searched, not found),
 /// Hammerstad-Bekkadal at δ = Rq is 1 + (2/π)·atan(1.4) (Hammerstad &
 /// Bekkadal 1975), Cannonball-Huray is the model's own factor from Rz
 /// (Simonovich 2015); a smooth surface gives 1; the YAML keys round-trip.
@@ -308,4 +308,14 @@ fn named_loss_models_give_their_factors() {
         assert_eq!(m.factor(&RoughSurface::SMOOTH, 1e-6).unwrap(), 1.0);
         assert_eq!(RoughLossModel::from_key(m.key()), Some(m));
     }
+}
+
+/// The low-profile default lies inside the very-low-profile class: below
+/// 5.1 µm (IPC-MF-150F, "Metal Foil for Printed Wiring Applications",
+/// §3.4.5, as quoted in the si-list archive,
+/// qsl.net/wb6tpu/si-list2/1373.html; low profile below 10.2 µm).
+#[test]
+fn low_profile_foil_is_in_the_published_very_low_profile_class() {
+    let rz = LOW_PROFILE_FOIL.rz().unwrap();
+    assert!(rz < 5.1e-6, "{rz}");
 }

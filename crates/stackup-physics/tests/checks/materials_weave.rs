@@ -91,7 +91,7 @@ fn filled_eps_eff_tracks_hammerstad_jensen_microstrip() {
 }
 
 /// The two-dielectric parallel-plate capacitor (series plies: C = eps0·A/
-/// Σ(t_i/eps_i); Hayt & Buck, Engineering Electromagnetics, from memory):
+/// Σ(t_i/eps_i); Hayt & Buck, Engineering Electromagnetics, from memory, not searched):
 /// equal plies of Dk 2 and 8 make Dk 2/(1/2 + 1/8) = 3.2. A homogeneous
 /// section keeps its Dk; a strip 0.1 mm over and 0.2 mm under its planes in
 /// one Dk holds 2/3 of its field on the thin side (capacitances 1/h).
@@ -110,7 +110,7 @@ fn layered_strip_is_the_textbook_capacitor() {
 }
 
 /// The Lichtenecker inverse recovers the component it was mixed from (the
-/// rule of K. Lichtenecker, Phys. Z. 27, 1926, from memory).
+/// rule of K. Lichtenecker, Phys. Z. 27, 1926, from memory; searched, not found).
 #[test]
 fn lichtenecker_inverse_round_trips() {
     for &(v, glass, resin) in &[(0.2, 6.3, 3.0), (0.35, 6.1, 2.9), (0.05, 4.6, 3.3)] {
@@ -185,7 +185,7 @@ fn skew_ps_per_inch(style: &str, dk: f64) -> f64 {
 /// a glass bundle differ by several tenths in Dk on open FR-4 class
 /// weaves (glass about 6, resin about 3), giving worst-case intra-pair
 /// skew of several ps per inch, up to about 10 ps/in (measurements on open
-/// weaves reported in the trade press, from memory); spread glass cuts it
+/// weaves reported in the trade press, from memory, not searched); spread glass cuts it
 /// by several times. This model (no fringing, strip parallel to the weave)
 /// gives 106 7.9, 1080 9.7, 2116 10.2 ps/in at Dk 4.0 and about 1 ps/in on
 /// 1035/1067/1078/1086.

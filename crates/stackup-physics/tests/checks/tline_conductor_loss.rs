@@ -36,7 +36,8 @@ fn stripline(w: f64, b: f64, t: f64, er: f64) -> CrossSection {
 }
 
 /// D. M. Pozar, *Microwave Engineering*, 4th ed., Example 3.5 (example
-/// number from memory): copper stripline b = 3.2 mm, εr 2.2, W = 2.66 mm,
+/// number from memory; Pozar's numbering searched, not found): copper
+/// stripline b = 3.2 mm, εr 2.2, W = 2.66 mm,
 /// t = 0.01 mm, 10 GHz: αc = 0.122 Np/m from his closed form (itself
 /// derived by Wheeler's rule, and an approximation of it: applied to
 /// Wheeler's 1978 impedance the rule gives 0.1198 Np/m, see below). The
@@ -125,7 +126,7 @@ fn hammerstad_jensen_loss_is_high() {
 /// A coupled pair's odd mode attenuates more than its even mode (its
 /// currents crowd to the facing edges and its impedance is lower; coupled
 /// microstrip and stripline loss curves in Gupta, Garg, Bahl & Bhartia,
-/// *Microstrip Lines and Slotlines*, 2nd ed., ch. 8, from memory), and the
+/// *Microstrip Lines and Slotlines*, 2nd ed., ch. 8, from memory, not searched), and the
 /// groups of faces add up to the total.
 #[test]
 fn pair_modes_and_face_groups() {
@@ -263,7 +264,7 @@ fn scikit_rf_closed_form_disagreement() {
 }
 
 /// Pucel, Massé & Hartwig 1968 (Wheeler's rule on Wheeler's microstrip
-/// formulas; the equations from memory, see
+/// formulas; the equations from memory, not searched, see
 /// `conductor_loss_microstrip_pucel`) against the solved value, with the
 /// solved Z0 in both so that only the rule's derivative is compared: thin
 /// copper on a 0.5 mm substrate (5 µm, where the closed form's thin-strip

@@ -127,7 +127,8 @@ fn homogeneous_stripline_is_exact_tem() {
 /// Microstrip on one dielectric: the field-solved alpha_d against the
 /// filling-factor closed form alpha_d = (pi f/c0) eps_r (eps_eff − 1) /
 /// [sqrt(eps_eff)(eps_r − 1)] tan_d (Pozar, Microwave Engineering, 4th ed.,
-/// eq. 3.198, from memory; the form scikit-rf's MLine uses). That form
+/// eq. 3.198, from memory; Pozar's numbering searched, not found; the form
+/// scikit-rf's MLine uses). That form
 /// assumes eps_eff linear in eps_r; the exact derivative differs by up to
 /// a few per cent, which this check bounds and prints.
 #[test]

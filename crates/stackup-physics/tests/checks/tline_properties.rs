@@ -90,7 +90,7 @@ proptest! {
     #![proptest_config(ProptestConfig { cases: 256, failure_persistence: None, .. ProptestConfig::default() })]
 
     /// Off-centre stripline (parallel combination of two centred lines,
-    /// Wadell 1991 from memory, each by Wheeler 1978): Z(h1, h2) = Z(h2, h1)
+    /// Wadell 1991 from memory; searched, not found, each by Wheeler 1978): Z(h1, h2) = Z(h2, h1)
     /// (the section's top-bottom mirror image is the same line), and with
     /// h1 = h2 = h it is the centred stripline of spacing b = 2h + t.
     #[test]
