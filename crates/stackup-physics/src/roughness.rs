@@ -644,10 +644,8 @@ pub const BOND_TREATMENT_UNKNOWN_WORST: RoughSurface = RoughSurface {
 /// Dk 3.0, [`STANDARD_ED_FOIL`] on both faces, 50 GHz: 3.20 at 127 µm, 3.10 at
 /// 254 µm, 3.05 at 508 µm, 3.02 at 1.27 mm. Both facts are common practice
 /// with no source. T_r = 2.35 Rq is about 0.6 Rz, consistent with "T_r about
-/// the profile height". Checked against published values the calibration
-/// did not use (Simonovich's roughness-adjusted Dk of a 0.3 mm stripline),
-/// the rise is only 36-42 % of the published one: see the crate README,
-/// "Calibration of the roughness layer".
+/// the profile height". The calibration: crate README, "Calibration of the
+/// roughness layer".
 ///
 /// In a microstrip the field is not parallel-plate: the analysis should put
 /// a layer of thickness [`RoughLayerModel::thickness`] and permittivity
