@@ -165,6 +165,9 @@ pub struct ClassAnalysis {
     pub width_for_target: Option<f64>,
     /// For a pair: the spacing that brings it back at its drawn width, m.
     pub spacing_for_target: Option<f64>,
+    /// A pair with a stated coupling: the width and edge-to-edge spacing
+    /// (m) that meet both its target and that coupling coefficient.
+    pub pair_for_target: Option<(f64, f64)>,
     pub loss: Option<LossNumbers>,
     /// For a class with a `loss-budget`: the frequency it is judged at (the
     /// Nyquist frequency of a data rate, else the analysis frequency) and
@@ -377,9 +380,9 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             None => Err(ClassError::NoImpedance),
         }
     };
-    // Every solved class with a target: its worst-case section's
-    // impedance and the target.
-    let targets: Vec<(usize, &LineGeometry, f64, f64, f64)> = s
+    // Every solved class with a target: its worst-case section's numbers
+    // and the target.
+    let solved_targets: Vec<_> = s
         .net_classes
         .iter()
         .zip(&pending)
@@ -388,8 +391,12 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             let p = p.as_ref().ok().filter(|p| p.blocked.is_none())?;
             let t = nc.impedance?;
             let w = numbers(&p.family, p.worst).ok()?;
-            Some((i, &p.geometry, nc.analysis_frequency(), t.target, w.z))
+            Some((i, &p.geometry, nc.analysis_frequency(), t, w))
         })
+        .collect();
+    let targets: Vec<(usize, &LineGeometry, f64, f64, f64)> = solved_targets
+        .iter()
+        .map(|&(i, g, f, t, w)| (i, g, f, t.target, w.z))
         .collect();
     // Width back to target (secant on the worst-case section) for every
     // class off its target, the classes spread over the solver threads.
@@ -407,6 +414,23 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         .pool()
         .map(&pairs, |&&&(i, g, f, target, z)| {
             (i, solver.spacing_for_target(g, f, target, z))
+        })
+        .into_iter()
+        .collect();
+    // A pair designed for a coupling coefficient: the width and spacing
+    // that meet both its target and that coupling.
+    let coupled: Vec<(usize, &LineGeometry, f64, f64, f64, f64, f64)> = solved_targets
+        .iter()
+        .filter_map(|&(i, g, f, t, w)| {
+            let m = w.pair?;
+            let k_now = (m.z_even - m.z_odd) / (m.z_even + m.z_odd);
+            Some((i, g, f, t.target, t.coupling?, w.z, k_now))
+        })
+        .collect();
+    let pair_dims: HashMap<usize, Option<(f64, f64)>> = solver
+        .pool()
+        .map(&coupled, |&(i, g, f, target, k, z, k_now)| {
+            (i, solver.pair_for_target(g, f, target, k, z, k_now))
         })
         .into_iter()
         .collect();
@@ -607,6 +631,7 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
                 wheeler: derivs.map(<[InductanceDerivative]>::to_vec),
             }),
             tolerance: stacks.get(&i).cloned().flatten(),
+            pair_for_target: pair_dims.get(&i).copied().flatten(),
             spacing_for_target: match spacings.get(&i) {
                 Some(sp) => *sp,
                 // On target already: the drawn spacing.
@@ -701,6 +726,7 @@ impl ClassAnalysis {
             basis: None,
             tolerance: None,
             spacing_for_target: None,
+            pair_for_target: None,
         }
     }
 

@@ -260,6 +260,93 @@ impl<'a> Solver<'a> {
         x
     }
 
+    /// The width and edge-to-edge spacing of a pair that give both its
+    /// target Z_diff and a coupling coefficient k = (Z_even − Z_odd) /
+    /// (Z_even + Z_odd) (the coupled-line coupling coefficient, D. M.
+    /// Pozar, *Microwave Engineering*, 4th ed., 2012, §7.6) on the
+    /// worst-case section, from the drawn ones with accurate `z_now` and
+    /// `k_now`. Newton's method on coarse solves of the section's mesh
+    /// topology (Jacobian by one-sided differences of 1 %), each number
+    /// carried to the accurate solve by the anchor's ratio (Z) or offset
+    /// (k), steps kept within 0.5 to 2 times; then an accurate solve at the
+    /// result, re-anchored once if it is off by more than 0.3 % or 0.003.
+    /// `None` when a step leaves the topology or it does not converge.
+    #[allow(clippy::too_many_arguments)]
+    pub(super) fn pair_for_target(
+        &self,
+        g: &LineGeometry,
+        f: f64,
+        target: f64,
+        k_target: f64,
+        z_now: f64,
+        k_now: f64,
+    ) -> Option<(f64, f64)> {
+        let w0 = g.width_bottom.max(g.width_top);
+        let s0 = g.spacing.filter(|s| *s > 0.0)?;
+        let geometry = |w: f64, sp: f64| {
+            let mut g2 = g.clone();
+            let scale = w / w0;
+            g2.width_bottom = g.width_bottom * scale;
+            g2.width_top = g.width_top * scale;
+            g2.spacing = Some(sp);
+            g2
+        };
+        let section = |w: f64, sp: f64| {
+            let g2 = geometry(w, sp);
+            section::cross_section(&g2, Some(&rough_layers(&g2, f, true)))
+        };
+        let zk = |r: &stackup_physics::fieldsolver::SolvedLine| {
+            let p = LineNumbers::from_solved(r)?.pair?;
+            Some((p.z_diff(), (p.z_even - p.z_odd) / (p.z_even + p.z_odd)))
+        };
+        let (mut w, mut sp) = (w0, s0);
+        let (mut z_acc, mut k_acc) = (z_now, k_now);
+        for _round in 0..2 {
+            let mesh = fieldsolver::coarse_mesh(&section(w, sp), &self.solver).ok()?;
+            let coarse = |w: f64, sp: f64| {
+                fieldsolver::solve_coarse(&section(w, sp), &mesh)
+                    .ok()
+                    .as_ref()
+                    .and_then(zk)
+            };
+            let (zc, kc) = coarse(w, sp)?;
+            let (rz, dk) = (z_acc / zc, k_acc - kc);
+            let mut converged = false;
+            for _ in 0..10 {
+                let (z, k) = coarse(w, sp)?;
+                let (fz, fk) = (rz * z - target, k + dk - k_target);
+                if (fz / target).abs() < 2e-4 && fk.abs() < 2e-4 {
+                    converged = true;
+                    break;
+                }
+                let (hw, hs) = (0.01 * w, 0.01 * sp);
+                let (zw, kw) = coarse(w + hw, sp)?;
+                let (zs, ks) = coarse(w, sp + hs)?;
+                let j = [
+                    [rz * (zw - z) / hw, rz * (zs - z) / hs],
+                    [(kw - k) / hw, (ks - k) / hs],
+                ];
+                let det = j[0][0] * j[1][1] - j[0][1] * j[1][0];
+                if det.abs() < 1e-30 || !det.is_finite() {
+                    return None;
+                }
+                let dw = (-fz * j[1][1] + fk * j[0][1]) / det;
+                let ds = (-fk * j[0][0] + fz * j[1][0]) / det;
+                w = (w + dw).clamp(0.5 * w, 2.0 * w);
+                sp = (sp + ds).clamp(0.5 * sp, 2.0 * sp);
+            }
+            if !converged {
+                return None;
+            }
+            let r = fieldsolver::solve(&section(w, sp), &self.solver).ok()?;
+            (z_acc, k_acc) = zk(&r)?;
+            if (z_acc / target - 1.0).abs() < 3e-3 && (k_acc - k_target).abs() < 3e-3 {
+                return Some((w, sp));
+            }
+        }
+        None
+    }
+
     /// The impedance at the build tolerances' corners of the class with
     /// geometry `g` at `f` and accurate worst-case impedance `z`
     /// (`tolerance`), through the disk cache as one entry; a cached entry

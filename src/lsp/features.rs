@@ -185,6 +185,13 @@ fn class_hover(s: &Stackup, a: &Analysis, ci: usize, nc: &crate::model::NetClass
     if let Some(sp) = ca.spacing_for_target {
         out.push_str(&format!("\n- spacing for target: {}", fmt_length(sp)));
     }
+    if let (Some((w, sp)), Some(k)) = (ca.pair_for_target, nc.impedance.and_then(|t| t.coupling)) {
+        out.push_str(&format!(
+            "\n- width {} and spacing {} for the target at coupling {k:.3}",
+            fmt_length(w),
+            fmt_length(sp)
+        ));
+    }
     if let Some(t) = &ca.tolerance {
         let (lo, hi) = t.extreme();
         out.push_str(&format!(

@@ -407,6 +407,9 @@ pub enum Modulation {
 pub struct ImpedanceTarget {
     pub target: f64,
     pub tolerance: f64,
+    /// Pairs: the coupling coefficient (Z_even − Z_odd)/(Z_even + Z_odd)
+    /// the pair is designed for.
+    pub coupling: Option<f64>,
 }
 
 /// An insertion-loss budget: at most `loss` dB over `length` of route.

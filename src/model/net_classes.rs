@@ -179,7 +179,35 @@ pub(super) fn read_net_class(
             );
             return None;
         }
-        Some(ImpedanceTarget { target, tolerance })
+        let cp = format!("{ptr}/impedance/coupling");
+        let coupling = match r.node(&cp) {
+            None => None,
+            Some(_) => {
+                let k = r.fraction(&cp, "coupling coefficient")?;
+                let why = if !structure.is_differential() {
+                    Some("a coupling coefficient is a pair's; this class is a single line")
+                } else if !(k > 0.0 && k < 0.9) {
+                    Some("a pair's coupling coefficient lies between 0 and 0.9 (0.05 to 0.3 for most board pairs)")
+                } else {
+                    None
+                };
+                if let Some(why) = why {
+                    r.error(
+                        &cp,
+                        format!("coupling {k:.3}: {why}"),
+                        "not a pair's coupling",
+                        None,
+                    );
+                    return None;
+                }
+                Some(k)
+            }
+        };
+        Some(ImpedanceTarget {
+            target,
+            tolerance,
+            coupling,
+        })
     } else {
         None
     };

@@ -24,6 +24,10 @@ struct Row<'a> {
     width_for_target_um: Option<f64>,
     /// A pair: the spacing that meets the target at the drawn width.
     spacing_for_target_um: Option<f64>,
+    /// A pair with a stated coupling: the width and spacing that meet the
+    /// target at that coupling coefficient.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pair_for_target_um: Option<[f64; 2]>,
     loss_db_per_mm: Option<f64>,
     loss_db_per_inch: Option<f64>,
     dielectric_loss_db_per_mm: Option<f64>,
@@ -139,6 +143,9 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             roughness_unknown: ca.roughness_unknown,
             width_for_target_um: ca.width_for_target.map(|w| round(w * 1e6, 1)),
             spacing_for_target_um: ca.spacing_for_target.map(|w| round(w * 1e6, 1)),
+            pair_for_target_um: ca
+                .pair_for_target
+                .map(|(w, sp)| [round(w * 1e6, 1), round(sp * 1e6, 1)]),
             loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.total_rough() / 1e3, 5)),
             loss_db_per_inch: ca.loss.as_ref().map(|l| round(l.total_rough() * 0.0254, 4)),
             dielectric_loss_db_per_mm: ca.loss.as_ref().map(|l| round(l.dielectric / 1e3, 5)),
@@ -376,6 +383,27 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
                     l.total_rough() * 0.0254
                 ));
             }
+        }
+    }
+    for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
+        let (Some(t), Some(k)) = (nc.impedance, nc.impedance.and_then(|t| t.coupling)) else {
+            continue;
+        };
+        match ca.pair_for_target {
+            Some((w, sp)) => out.push_str(&format!(
+                "  {}: width {:.1} um and spacing {:.1} um meet {:.1} ohm at coupling {:.3} (now {:.1} um and {:.1} um)\n",
+                nc.name,
+                w * 1e6,
+                sp * 1e6,
+                t.target,
+                k,
+                nc.width * 1e6,
+                nc.spacing.unwrap_or(0.0) * 1e6
+            )),
+            None => out.push_str(&format!(
+                "  {}: no width and spacing found that meet {:.1} ohm at coupling {:.3} on this stackup\n",
+                nc.name, t.target, k
+            )),
         }
     }
     for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
