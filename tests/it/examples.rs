@@ -83,3 +83,55 @@ fn output_is_deterministic() {
     let b = run(&["check", "examples/", "--format", "json"]).1;
     assert_eq!(a, b);
 }
+
+/// The walk-through of `docs/first-stackup.md`: the draft gives the three
+/// findings the page describes, with the numbers it quotes; the finished
+/// file checks clean.
+#[test]
+fn first_stackup_walk_through_behaves_as_written() {
+    let root = crate::common::root();
+    let o = crate::common::output_in(
+        root,
+        &[
+            "check",
+            "docs/first-stackup/gateway-4l-draft.stackup.yaml",
+            "--format",
+            "json",
+        ],
+    );
+    let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
+    let f = v["findings"].as_array().unwrap();
+    let mut rules: Vec<(&str, &str)> = f
+        .iter()
+        .map(|x| (x["rule"].as_str().unwrap(), x["severity"].as_str().unwrap()))
+        .collect();
+    rules.sort();
+    assert_eq!(
+        rules,
+        [
+            ("frequency-beyond-validity", "warning"),
+            ("impedance-tolerance-stack", "error"),
+            ("impedance-tolerance-stack", "warning")
+        ],
+        "{v:#}"
+    );
+    let text = serde_json::to_string(&v).unwrap();
+    for quoted in [
+        "86.3 to 106.4 Ω",
+        "44.1 to 53.7 Ω",
+        "+6.1 Ω",
+        "239.6 µm",
+        "validated 100.0 MHz to 5 GHz",
+    ] {
+        assert!(text.contains(quoted), "{quoted}: {text}");
+    }
+    let (code, out, _) = crate::common::run_in(
+        root,
+        &["check", "docs/first-stackup/gateway-4l-final.stackup.yaml"],
+    );
+    assert_eq!(code, Some(0), "{out}");
+    assert!(
+        out.contains("0 errors, 0 warnings, 0 notes in 1 file"),
+        "{out}"
+    );
+}
