@@ -19,7 +19,7 @@ use stackup_lint::engine::{self, CheckOptions};
 use stackup_lint::finding::Severity;
 use stackup_lint::input::yaml::YamlLimits;
 use stackup_lint::load::InputLimits;
-use stackup_lint::output::{self, github, gitlab, human, json, sarif, Summary};
+use stackup_lint::output::{self, concise, github, gitlab, human, json, sarif, Summary};
 use stackup_lint::pool::Pool;
 use stackup_lint::rules;
 use stackup_lint::walk::WalkOptions;
@@ -59,6 +59,9 @@ enum FailOn {
 enum Format {
     /// Diagnostics with source excerpts (default).
     Human,
+    /// One line per finding: `path:line:col: severity rule-name message`;
+    /// `check` only.
+    Concise,
     /// The stable JSON report (see README).
     Json,
     /// GitHub Actions annotations (workflow commands); `check` only.
@@ -445,6 +448,12 @@ fn main() -> ExitCode {
                 ))
                 .into_owned(),
                 Format::Github => github::render(&outcome.findings, &outcome.db),
+                Format::Concise => {
+                    let mut text = concise::render(&outcome.findings, &outcome.db);
+                    text.push_str(&summary.line_with(&outcome.skipped));
+                    text.push('\n');
+                    text
+                }
                 Format::Gitlab => {
                     output::escape::json_text(&gitlab::render(&outcome.findings, &outcome.db))
                         .into_owned()
@@ -476,7 +485,7 @@ fn main() -> ExitCode {
             if let Err(code) = print(&text) {
                 return code;
             }
-            if !matches!(format, Format::Human) {
+            if !matches!(format, Format::Human | Format::Concise) {
                 if let Some(p) = outcome.skipped.phrase() {
                     eprintln!("note: {p}");
                 }
@@ -535,8 +544,8 @@ fn load_analysed(
     } else {
         paths
     };
-    if matches!(format, Format::Github | Format::Gitlab) {
-        eprintln!("error: --format github and gitlab apply to `check` only");
+    if matches!(format, Format::Github | Format::Gitlab | Format::Concise) {
+        eprintln!("error: --format concise, github and gitlab apply to `check` only");
         return Err(ExitCode::from(2));
     }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
