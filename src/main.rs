@@ -39,13 +39,31 @@ modelling and test coupons, and follow the applicable IPC standards."
 struct Cli {
     #[command(subcommand)]
     command: Command,
+}
+
+/// Where the commands that read stackups may read, and their solve cache
+/// (`check`, `baseline write`, `impedance`, `coupons`, `report`).
+#[derive(Args)]
+struct InputArgs {
     /// Do not read or write the on-disk cache of field-solver results
-    #[arg(long, global = true)]
+    #[arg(long)]
     no_cache: bool,
     /// Project root: every file read (stackups, libraries) must lie inside
     /// it, links followed [default: each file's enclosing git work tree]
-    #[arg(long, global = true, value_name = "DIR")]
+    #[arg(long, value_name = "DIR")]
     root: Option<PathBuf>,
+}
+
+impl InputArgs {
+    /// The project root and what every solve starts from: the disk cache
+    /// (if any) with the default mesh budget and threads.
+    fn split(self) -> (Option<PathBuf>, AnalysisOptions) {
+        let run = AnalysisOptions {
+            cache: stackup_lint::analysis::cache::from_env(self.no_cache),
+            ..AnalysisOptions::default()
+        };
+        (self.root, run)
+    }
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -55,19 +73,29 @@ enum FailOn {
     Note,
 }
 
+/// `check`'s output formats.
 #[derive(Clone, Copy, ValueEnum)]
-enum Format {
+enum CheckFormat {
     /// Diagnostics with source excerpts (default).
     Human,
-    /// One line per finding: `path:line:col: severity rule-name message`;
-    /// `check` only.
+    /// One line per finding: `path:line:col: severity rule-name message`.
     Concise,
     /// The stable JSON report (see README).
     Json,
-    /// GitHub Actions annotations (workflow commands); `check` only.
+    /// GitHub Actions annotations (workflow commands).
     Github,
-    /// GitLab code quality report (JSON); `check` only.
+    /// GitLab code quality report (JSON).
     Gitlab,
+}
+
+/// The output formats of the commands that print numbers (`impedance`,
+/// `coupons`).
+#[derive(Clone, Copy, ValueEnum)]
+enum TableFormat {
+    /// Tables for reading (default).
+    Human,
+    /// The same numbers as JSON.
+    Json,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -90,7 +118,7 @@ enum Command {
         fail_on: FailOn,
         /// Output format on standard output
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: CheckFormat,
         /// Also write a SARIF 2.1.0 log for code review tools to this path
         #[arg(long, value_name = "PATH")]
         sarif: Option<PathBuf>,
@@ -121,6 +149,8 @@ enum Command {
         /// shown as baselined and do not fail the run
         #[arg(long, value_name = "FILE")]
         baseline: Option<PathBuf>,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Record today's findings so that `check --baseline` fails only on new ones
     Baseline {
@@ -129,7 +159,8 @@ enum Command {
     },
     /// Print a rule's page: what it checks, the physics, how to fix it
     Explain {
-        /// Rule name, as printed in brackets by `check`
+        /// Rule name, as `check` prints it above each finding (and after the
+        /// severity in `--format concise`)
         rule: String,
     },
     /// List every rule with its default severity
@@ -141,7 +172,7 @@ enum Command {
         paths: Vec<PathBuf>,
         /// Output format
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: TableFormat,
         /// Also give the total loss over this routed length, e.g. "150 mm"
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
@@ -158,6 +189,8 @@ enum Command {
         touchstone: Option<PathBuf>,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Hold each measured test coupon (`coupons:`) against the stackup's
     /// model of its structure: effective Dk and loss across frequency, the
@@ -167,9 +200,11 @@ enum Command {
         paths: Vec<PathBuf>,
         /// Output format
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: TableFormat,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Write the fabrication-note report of one stackup: a self-contained
     /// HTML page, a Markdown file and the SVG drawings it links to
@@ -188,6 +223,8 @@ enum Command {
         length: Option<String>,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
 }
 
@@ -248,6 +285,8 @@ enum BaselineAction {
         output: PathBuf,
         #[command(flatten)]
         walk: WalkArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
 }
 
@@ -271,13 +310,6 @@ fn clamp_threads(n: usize) -> usize {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    // What every command solves with: the disk cache (if any), and the
-    // mesh budget and threads given to `check`, `impedance` and `report`.
-    let run = AnalysisOptions {
-        cache: stackup_lint::analysis::cache::from_env(cli.no_cache),
-        ..AnalysisOptions::default()
-    };
-    let root = cli.root;
     match cli.command {
         Command::Baseline {
             action:
@@ -285,8 +317,12 @@ fn main() -> ExitCode {
                     paths,
                     output,
                     walk,
+                    input,
                 },
-        } => baseline_write(paths, &output, walk.options(), root, run),
+        } => {
+            let (root, run) = input.split();
+            baseline_write(paths, &output, walk.options(), root, run)
+        }
         Command::Impedance {
             paths,
             format,
@@ -295,7 +331,9 @@ fn main() -> ExitCode {
             csv,
             touchstone,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
@@ -322,14 +360,20 @@ fn main() -> ExitCode {
             paths,
             format,
             solve,
-        } => coupons(paths, format, root, solve.options(run)),
+            input,
+        } => {
+            let (root, run) = input.split();
+            coupons(paths, format, root, solve.options(run))
+        }
         Command::Report {
             file,
             output,
             to_scale,
             length,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
@@ -382,7 +426,9 @@ fn main() -> ExitCode {
             rule_docs_url,
             baseline,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
@@ -441,24 +487,24 @@ fn main() -> ExitCode {
             }
             let summary = Summary::of(&outcome.findings, outcome.files);
             let text = match format {
-                Format::Json => output::escape::json_text(&json::render(
+                CheckFormat::Json => output::escape::json_text(&json::render(
                     &outcome.findings,
                     &outcome.db,
                     outcome.files,
                 ))
                 .into_owned(),
-                Format::Github => github::render(&outcome.findings, &outcome.db),
-                Format::Concise => {
+                CheckFormat::Github => github::render(&outcome.findings, &outcome.db),
+                CheckFormat::Concise => {
                     let mut text = concise::render(&outcome.findings, &outcome.db);
                     text.push_str(&summary.line_with(&outcome.skipped));
                     text.push('\n');
                     text
                 }
-                Format::Gitlab => {
+                CheckFormat::Gitlab => {
                     output::escape::json_text(&gitlab::render(&outcome.findings, &outcome.db))
                         .into_owned()
                 }
-                Format::Human => {
+                CheckFormat::Human => {
                     let use_color = match color {
                         Color::Always => true,
                         Color::Never => false,
@@ -485,7 +531,7 @@ fn main() -> ExitCode {
             if let Err(code) = print(&text) {
                 return code;
             }
-            if !matches!(format, Format::Human | Format::Concise) {
+            if !matches!(format, CheckFormat::Human | CheckFormat::Concise) {
                 if let Some(p) = outcome.skipped.phrase() {
                     eprintln!("note: {p}");
                 }
@@ -529,7 +575,6 @@ struct SweepArgs {
 /// run with code 2.
 fn load_analysed(
     paths: Vec<PathBuf>,
-    format: Format,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> Result<
@@ -544,10 +589,6 @@ fn load_analysed(
     } else {
         paths
     };
-    if matches!(format, Format::Github | Format::Gitlab | Format::Concise) {
-        eprintln!("error: --format concise, github and gitlab apply to `check` only");
-        return Err(ExitCode::from(2));
-    }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let opts = CheckOptions {
         root,
@@ -597,13 +638,13 @@ fn load_analysed(
 
 fn impedance(
     paths: Vec<PathBuf>,
-    format: Format,
+    format: TableFormat,
     length: Option<f64>,
     sweep: Option<SweepArgs>,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
-    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+    let (loaded, analyses) = match load_analysed(paths, root, run) {
         Ok(x) => x,
         Err(code) => return code,
     };
@@ -622,7 +663,7 @@ fn impedance(
     }
     // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
-        Format::Json => {
+        TableFormat::Json => {
             output::escape::json_text(&output::impedance::json(&items, length)).into_owned()
         }
         _ => {
@@ -639,11 +680,11 @@ fn impedance(
 /// `coupons`: every measured coupon against the stackup's model.
 fn coupons(
     paths: Vec<PathBuf>,
-    format: Format,
+    format: TableFormat,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
-    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+    let (loaded, analyses) = match load_analysed(paths, root, run) {
         Ok(x) => x,
         Err(code) => return code,
     };
@@ -655,7 +696,7 @@ fn coupons(
         .collect();
     // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
-        Format::Json => output::escape::json_text(&output::coupons::json(&items)).into_owned(),
+        TableFormat::Json => output::escape::json_text(&output::coupons::json(&items)).into_owned(),
         _ => output::escape::controls_keep_lines(&output::coupons::table(&items)).into_owned(),
     };
     print_or(&text, ExitCode::SUCCESS)
@@ -767,7 +808,7 @@ fn impedance_sweep(
         &stackup_lint::analysis::Analysis,
     )],
     sw: &SweepArgs,
-    format: Format,
+    format: TableFormat,
     length: Option<f64>,
     db: &stackup_lint::source::SourceDb,
 ) -> ExitCode {
@@ -839,7 +880,7 @@ fn impedance_sweep(
         );
     }
     let text = match format {
-        Format::Json => output::escape::json_text(&output::sweep::json(&files)).into_owned(),
+        TableFormat::Json => output::escape::json_text(&output::sweep::json(&files)).into_owned(),
         _ => output::escape::controls_keep_lines(&output::sweep::table(&files)).into_owned(),
     };
     print_or(&text, ExitCode::SUCCESS)

@@ -11,6 +11,7 @@ mod baseline;
 mod cache;
 mod cache_trust;
 mod ci_formats;
+mod command_line;
 mod core_rules;
 mod coupons;
 mod determinism;
