@@ -403,10 +403,12 @@ fn main() -> ExitCode {
             Some(m) => print_or(m.doc, ExitCode::SUCCESS),
             None => {
                 let names: Vec<_> = rules::all_meta().iter().map(|m| m.name).collect();
+                let help = stackup_lint::suggest::help_for(&rule, names.clone(), || {
+                    format!("rules: {}", names.join(", "))
+                });
                 eprintln!(
-                    "error: there is no rule named `{}`; rules: {}",
+                    "error: there is no rule named `{}`; {help}",
                     output::escape::controls(&rule),
-                    names.join(", ")
                 );
                 ExitCode::from(2)
             }

@@ -117,33 +117,6 @@ pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
 /// Most schema findings reported for one file.
 const MAX_FINDINGS: usize = 50;
 
-/// The edit distance (Levenshtein) between two short words.
-fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut row: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut prev = row[0];
-        row[0] = i + 1;
-        for (j, &cb) in b.iter().enumerate() {
-            let cur = row[j + 1];
-            row[j + 1] = (prev + usize::from(ca != cb)).min(row[j] + 1).min(cur + 1);
-            prev = cur;
-        }
-    }
-    row[b.len()]
-}
-
-/// The allowed key closest to a misspelt one, if it is close enough to be
-/// a typo (at most two edits, and fewer than half the letters).
-fn suggest<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
-    allowed
-        .iter()
-        .map(|a| (edit_distance(key, a), *a))
-        .filter(|(d, a)| *d <= 2 && *d * 2 < a.len().max(key.len()))
-        .min_by_key(|(d, _)| *d)
-        .map(|(_, a)| a)
-}
-
 fn finding(
     doc: &Doc<'_>,
     pointer: &str,
@@ -230,8 +203,8 @@ fn explain(doc: &Doc<'_>, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
                 let names: Vec<&str> = allowed
                     .as_deref()
                     .map_or(Vec::new(), |a| a.split(", ").collect());
-                let help = match suggest(key, &names) {
-                    Some(fix) => Some(format!("did you mean `{fix}`?")),
+                let help = match crate::suggest::key(key, &names) {
+                    Some(fix) => Some(crate::suggest::did_you_mean(fix)),
                     None => allowed.as_ref().map(|a| format!("allowed keys here: {a}")),
                 };
                 out.push(finding(
@@ -496,24 +469,6 @@ fn allowed_keys(schema_path: &str) -> Option<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    #[test]
-    fn edit_distance_and_suggestions() {
-        // kitten -> sitting needs three edits: the usual textbook example
-        // of Levenshtein distance (from memory).
-        assert_eq!(edit_distance("kitten", "sitting"), 3);
-        assert_eq!(edit_distance("", "abc"), 3);
-        assert_eq!(
-            suggest("thicknes", &["kind", "thickness", "material"]),
-            Some("thickness")
-        );
-        assert_eq!(
-            suggest("platted", &["role", "plated", "fill"]),
-            Some("plated")
-        );
-        // Too far from anything: no guess.
-        assert_eq!(suggest("colour", &["role", "plated", "fill"]), None);
-    }
-
     #[test]
     fn bundled_schemas_compile() {
         let _ = validator(FileKind::Stackup);

@@ -154,7 +154,11 @@ fn read_coupon(r: &mut Reader<'_>, s: &Stackup, ptr: &str, name: String) -> Opti
             &class_ptr,
             format!("there is no net class named `{class_name}`"),
             "unknown net class",
-            Some("a coupon names the net class whose structure it measures".into()),
+            Some(crate::suggest::help_for(
+                &class_name,
+                s.net_classes.iter().map(|c| c.name.as_str()),
+                || "a coupon names the net class whose structure it measures".into(),
+            )),
         );
     }
     let files_ptr = format!("{ptr}/files");

@@ -139,11 +139,13 @@ pub(super) fn read_face(
                         &format!("{ptr}/foil"),
                         format!("foil `{name}` is not defined"),
                         "unknown foil",
-                        Some(if known.is_empty() {
-                            "define it under `foils:` with its rz/rq".into()
-                        } else {
-                            format!("defined foils: {}", known.join(", "))
-                        }),
+                        Some(crate::suggest::help_for(name, known.clone(), || {
+                            if known.is_empty() {
+                                "define it under `foils:` with its rz/rq".into()
+                            } else {
+                                format!("defined foils: {}", known.join(", "))
+                            }
+                        })),
                     );
                     return None;
                 }
@@ -199,11 +201,13 @@ pub(super) fn read_dielectric(
             &material_pointer,
             format!("material `{material}` is not defined in this file or its libraries"),
             "unknown material",
-            Some(if known.is_empty() {
-                "define it under `materials:` or add a library under `libraries:`".into()
-            } else {
-                format!("known materials: {}", known.join(", "))
-            }),
+            Some(crate::suggest::help_for(&material, known.clone(), || {
+                if known.is_empty() {
+                    "define it under `materials:` or add a library under `libraries:`".into()
+                } else {
+                    format!("known materials: {}", known.join(", "))
+                }
+            })),
         );
         ok = false;
     }
@@ -365,7 +369,9 @@ pub(super) fn layer_ref(r: &mut Reader<'_>, s: &Stackup, ptr: &str, want: &str) 
                 ptr,
                 format!("there is no layer named `{name}`"),
                 "unknown layer",
-                Some(format!("copper layers: {}", copper.join(", "))),
+                Some(crate::suggest::help_for(&name, copper.clone(), || {
+                    format!("copper layers: {}", copper.join(", "))
+                })),
             );
             None
         }

@@ -380,7 +380,11 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
                                 &format!("{sp}/net-class"),
                                 format!("there is no net class named `{cn}`"),
                                 "unknown net class",
-                                None,
+                                crate::suggest::closest(
+                                    &cn,
+                                    s.net_classes.iter().map(|c| c.name.as_str()),
+                                )
+                                .map(crate::suggest::did_you_mean),
                             );
                             ok = false;
                             None

@@ -106,7 +106,19 @@ impl<'a> Reader<'a> {
         match result {
             Ok(v) => Some(v),
             Err(e) => {
-                let help = Some(format!("write {what} as {}", dim.describe()));
+                let fix = match (&e, &node.value) {
+                    (units::UnitError::UnknownUnit { unit, .. }, Value::String(text)) => {
+                        units::suggest_unit(unit, dim).and_then(|u| {
+                            let at = text.rfind(unit.as_str())?;
+                            Some(format!("{}{u}{}", &text[..at], &text[at + unit.len()..]))
+                        })
+                    }
+                    _ => None,
+                };
+                let help = Some(match fix {
+                    Some(fix) => crate::suggest::did_you_mean(&fix),
+                    None => format!("write {what} as {}", dim.describe()),
+                });
                 self.error(
                     ptr,
                     format!("{what}: {e}"),

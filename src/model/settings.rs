@@ -138,7 +138,11 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                         format!("there is no rule named `{}`", e.key),
                     )
                     .label("unknown rule")
-                    .with_help(format!("rules: {}", names())),
+                    .with_help(crate::suggest::help_for(
+                        &e.key,
+                        rules.iter().map(|x| x.name),
+                        || format!("rules: {}", names()),
+                    )),
                 );
                 continue;
             };
@@ -177,11 +181,20 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                                     )
                                     .label("unknown option")
                                     .with_help(
-                                        if keys.is_empty() {
-                                            "this rule takes only `severity`".to_string()
-                                        } else {
-                                            format!("options: severity, {}", keys.join(", "))
-                                        },
+                                        crate::suggest::help_for(
+                                            &o.key,
+                                            keys.iter().copied().chain(["severity"]),
+                                            || {
+                                                if keys.is_empty() {
+                                                    "this rule takes only `severity`".to_string()
+                                                } else {
+                                                    format!(
+                                                        "options: severity, {}",
+                                                        keys.join(", ")
+                                                    )
+                                                }
+                                            },
+                                        ),
                                     ),
                                 );
                             }
@@ -212,7 +225,17 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                     &format!("{p}/at"),
                     format!("suppression names `{name}`, which is not a layer, material, foil, net class or matched group of this file"),
                     "nothing by that name",
-                    None,
+                    crate::suggest::closest(
+                        name,
+                        s.layers
+                            .iter()
+                            .map(|l| l.name.as_str())
+                            .chain(s.materials.keys().map(String::as_str))
+                            .chain(s.net_classes.iter().map(|c| c.name.as_str()))
+                            .chain(s.matched_groups.iter().map(|g| g.name.as_str()))
+                            .chain(s.foils.keys().map(String::as_str)),
+                    )
+                    .map(crate::suggest::did_you_mean),
                 );
                 continue;
             }
@@ -235,7 +258,12 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                     at,
                     format!("suppression names `{}`, which is not a rule", sp.rule),
                 )
-                .label("unknown rule"),
+                .label("unknown rule")
+                .with_help(crate::suggest::help_for(
+                    &sp.rule,
+                    rules.iter().map(|x| x.name),
+                    || format!("rules: {}", names()),
+                )),
             );
         }
     }
