@@ -397,6 +397,46 @@ fn baseline_loads_cleanly() {
     assert!(matches!(out.status.code(), Some(0 | 1)));
 }
 
+/// A layer may carry `notes:` (free text such as the ply construction):
+/// the baseline with notes loads as cleanly as without, and notes that are
+/// not text are a schema error at the value.
+#[test]
+fn layer_notes_are_free_text() {
+    let baseline = std::fs::read_to_string(root().join("tests/common/baseline.stackup.yaml"))
+        .expect("the baseline exists");
+    let with_notes = |notes: &str| {
+        baseline.replacen(
+            "  - name: core\n",
+            &format!("  - name: core\n    notes: {notes}\n"),
+            1,
+        )
+    };
+    let dir = tempfile::tempdir().expect("temporary directory");
+    let input = |name: &str, text: &str| -> Vec<Value> {
+        std::fs::write(dir.path().join(name), text).unwrap();
+        let out = run(
+            dir.path(),
+            &["check", "--root", ".", name, "--format", "json"],
+        );
+        no_panic(&out).unwrap();
+        let report: Value = serde_json::from_slice(&out.stdout).expect("JSON report");
+        report["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| f["rule"] == "invalid-input")
+            .cloned()
+            .collect()
+    };
+    let text = with_notes("2 plies of 1080-style glass, resin rich (demo note)");
+    assert!(text.contains("notes:"));
+    assert_eq!(input("notes.stackup.yaml", &text), Vec::<Value>::new());
+    let errors = input("list.stackup.yaml", &with_notes("[two plies]"));
+    assert_eq!(errors.len(), 1, "{errors:#?}");
+    assert_eq!(errors[0]["message"], "`notes` should be text, found a list");
+    assert_eq!(errors[0]["line"], 20);
+}
+
 #[test]
 fn sarif_is_complete_on_bad_input_and_leaves_no_temporary_files() {
     let out_dir = tempfile::tempdir().expect("temporary directory");
