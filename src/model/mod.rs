@@ -436,7 +436,11 @@ pub struct NetClass {
     /// Nyquist frequency of the data rate, Hz.
     pub nyquist: Option<f64>,
     pub data_rate: Option<f64>,
+    /// The modulation of the data rate: given, or NRZ when a data rate
+    /// comes without one.
     pub modulation: Option<Modulation>,
+    /// Whether `modulation` was given.
+    pub modulation_given: bool,
     pub assumed_dk: Option<f64>,
     pub via_fence_pitch: Option<f64>,
     /// Centre-to-centre distance to the neighbouring pair of the same

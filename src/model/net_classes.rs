@@ -233,15 +233,10 @@ pub(super) fn read_net_class(
         );
         return None;
     }
-    if data_rate.is_some() && modulation.is_none() {
-        r.error(
-            &format!("{ptr}/data-rate"),
-            "a data rate needs `modulation: nrz` or `modulation: pam4` to give its Nyquist frequency",
-            "modulation missing",
-            None,
-        );
-        return None;
-    }
+    // A data rate without its modulation is read as NRZ, the common
+    // case; the `modulation-assumed` rule says so.
+    let modulation_given = modulation.is_some();
+    let modulation = modulation.or(data_rate.map(|_| Modulation::Nrz));
     let layer_index = layer_index?;
     if !refs_ok {
         return None;
@@ -318,6 +313,7 @@ pub(super) fn read_net_class(
         nyquist,
         data_rate,
         modulation,
+        modulation_given,
         assumed_dk,
         via_fence_pitch: pitch,
         pair_pitch,

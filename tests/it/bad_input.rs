@@ -145,7 +145,6 @@ const CASES: &[Case] = &[
     // Net classes.
     case("diff-no-spacing.stackup.yaml", "differential net class `se50` needs `spacing`", 29, 5, None),
     case("coplanar-no-gap.stackup.yaml", "coplanar net class `se50` needs `gap`", 29, 5, None),
-    case("datarate-no-modulation.stackup.yaml", "a data rate needs `modulation: nrz` or `modulation: pam4`", 34, 16, Some("25 Gbps")),
     case("etch-factor-etched-away.stackup.yaml", "etch factor 0.1 on 35.0 µm copper leaves no top width", 34, 18, Some("0.1")),
     case("top-width-wider.stackup.yaml", "top width 350.0 µm is wider than the base width 300.0 µm", 34, 16, Some("0.35 mm")),
     // Settings.
