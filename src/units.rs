@@ -284,6 +284,36 @@ pub fn fmt_length(m: f64) -> String {
     }
 }
 
+/// Copper weights as fabricators name them, oz per ft², with how they are
+/// written (common practice, no source).
+const COMMON_WEIGHTS: &[(f64, &str)] = &[
+    (0.25, "1/4"),
+    (1.0 / 3.0, "1/3"),
+    (0.5, "0.5"),
+    (0.75, "0.75"),
+    (1.0, "1"),
+    (1.5, "1.5"),
+    (2.0, "2"),
+    (2.5, "2.5"),
+    (3.0, "3"),
+    (4.0, "4"),
+    (5.0, "5"),
+    (6.0, "6"),
+];
+
+/// Format a copper thickness as its weight: the common weight it is
+/// within 3 % of ("1 oz", "0.5 oz"), else to two decimals ("0.52 oz").
+pub fn fmt_copper_weight(m: f64) -> String {
+    let oz = m / ounce_thickness();
+    match COMMON_WEIGHTS
+        .iter()
+        .find(|(w, _)| (oz - w).abs() <= 0.03 * w)
+    {
+        Some((_, name)) => format!("{name} oz"),
+        None => format!("{oz:.2} oz"),
+    }
+}
+
 /// Format a frequency for messages.
 pub fn fmt_frequency(hz: f64) -> String {
     if hz >= 1e9 {
@@ -298,6 +328,21 @@ pub fn fmt_frequency(hz: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn copper_weights_print_as_common_fractions_within_3_percent() {
+        let um = |x: f64| x * 1e-6;
+        // 1 oz/ft² is 34.3 µm (consts::OUNCE_COPPER_THICKNESS); 35 µm is
+        // the usual rounding, 2 % above.
+        assert_eq!(fmt_copper_weight(ounce_thickness()), "1 oz");
+        assert_eq!(fmt_copper_weight(um(35.0)), "1 oz");
+        assert_eq!(fmt_copper_weight(um(17.5)), "0.5 oz");
+        assert_eq!(fmt_copper_weight(um(70.0)), "2 oz");
+        assert_eq!(fmt_copper_weight(um(11.6)), "1/3 oz");
+        // 18 µm is 5 % above half an ounce: printed as it is.
+        assert_eq!(fmt_copper_weight(um(18.0)), "0.52 oz");
+        assert_eq!(fmt_copper_weight(um(40.0)), "1.17 oz");
+    }
 
     #[test]
     fn misspelt_units_get_the_unit_of_their_dimension() {

@@ -68,7 +68,7 @@ pub(super) fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
 /// weight, material or foils, and the running height from the bottom.
 pub(super) fn layer_table(s: &Stackup) -> Table {
     use crate::model::LayerKind;
-    use crate::units::ounce_thickness;
+    use crate::units::fmt_copper_weight;
     let mut t = Table::new(&[
         "#",
         "layer",
@@ -84,7 +84,7 @@ pub(super) fn layer_table(s: &Stackup) -> Table {
         let th = s.thickness(k);
         let (kind, what) = match &layer.kind {
             LayerKind::Copper(c) => {
-                let mut what = format!("{:.2} oz", c.thickness / ounce_thickness());
+                let mut what = fmt_copper_weight(c.thickness);
                 if let Some(fill) = c.fill {
                     let _ = write!(what, ", {:.0} % copper", fill * 100.0);
                 }
