@@ -478,10 +478,8 @@ pub fn load(
     for ((at, _, _, _), result) in builds.iter().zip(built) {
         problems.extend(earlier.by_ref().take(at - taken));
         taken = *at;
-        match result {
-            Ok(s) => loaded.stackups.push(s),
-            Err(errors) => problems.extend(errors),
-        }
+        loaded.stackups.extend(result.stackup);
+        problems.extend(result.errors);
     }
     problems.extend(earlier);
     loaded.problems = problems;
@@ -490,10 +488,10 @@ pub fn load(
 }
 
 /// Read and parse every coupon's Touchstone files, relative to its
-/// stackup and confined to the project root like libraries. A stackup
-/// with an unreadable or malformed coupon file is not analysed (its
+/// stackup and confined to the project root like libraries. A coupon with
+/// an unreadable or malformed file is left out of the analysis (its
 /// problems say why, at the coupon's entry, with the file's line; no byte
-/// of the file is echoed).
+/// of the file is echoed); the rest of its stackup is analysed.
 fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confinement) {
     let base = conf.cwd().to_path_buf();
     let mut keep = Vec::new();
@@ -501,13 +499,14 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
         let path = loaded.db.get(s.file).path.clone();
         let root = conf.root_of(&path);
         let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
-        let mut ok = true;
         let pairs: Vec<bool> = s
             .coupons
             .iter()
             .map(|c| s.net_classes[c.net_class].structure.is_differential())
             .collect();
-        for (c, pair) in s.coupons.iter_mut().zip(pairs) {
+        let mut usable = Vec::new();
+        for (mut c, pair) in std::mem::take(&mut s.coupons).into_iter().zip(pairs) {
+            let mut ok = true;
             for f in &mut c.files {
                 let rel = Path::new(&f.path);
                 let full = dir.join(rel);
@@ -574,10 +573,12 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
                     .with_help("a single line's coupon is a two-port (.s2p), a pair's a four-port (.s4p, ports 1-2 one line, 3-4 the other); the files of one coupon share one sweep and one reference impedance"),
                 );
             }
+            if ok {
+                usable.push(c);
+            }
         }
-        if ok {
-            keep.push(s);
-        }
+        s.coupons = usable;
+        keep.push(s);
     }
     loaded.stackups = keep;
 }
@@ -593,10 +594,9 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec
         spans: Spans::default(),
     };
     if let Some((id, tree)) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
-        match model::build_stackup(&loaded.db, id, &tree, &[], rules) {
-            Ok(s) => loaded.stackups.push(s),
-            Err(errors) => loaded.problems.extend(errors),
-        }
+        let built = model::build_stackup(&loaded.db, id, &tree, &[], rules);
+        loaded.stackups.extend(built.stackup);
+        loaded.problems.extend(built.errors);
     }
     loaded
 }

@@ -24,6 +24,25 @@ use crate::source::SourceDb;
 /// `stackup_physics::loss::DEFAULT_HARMONIC_FACTOR`, common practice).
 pub const HARMONIC_FACTOR: f64 = stackup_physics::loss::DEFAULT_HARMONIC_FACTOR;
 
+/// A file's model and its input errors.
+#[derive(Debug)]
+pub struct Built {
+    /// The model, when the board itself (layers, materials, foils,
+    /// settings) has no error: net classes, matched groups and coupons
+    /// with errors are left out of it, so the others are analysed.
+    pub stackup: Option<Stackup>,
+    pub errors: Vec<Finding>,
+}
+
+/// Whether an error at `pointer` is confined to one net class, matched
+/// group or coupon (which the model then leaves out) rather than the
+/// board every class is computed on.
+fn confined_to_one_line(pointer: &str) -> bool {
+    ["/net-classes/", "/matched-groups/", "/coupons/"]
+        .iter()
+        .any(|p| pointer.starts_with(p))
+}
+
 /// Build the stackup model from a schema-valid file. `libraries` are the
 /// already-loaded library files this file references, in order.
 /// `rules` are the rules `settings` may name, with their options.
@@ -33,9 +52,12 @@ pub fn build_stackup(
     tree: &Node,
     libraries: &[LibraryData],
     rules: &[RuleSpec],
-) -> Result<Stackup, Vec<Finding>> {
+) -> Built {
     let Some(mut r) = Reader::new(db, file, tree) else {
-        return Err(Vec::new());
+        return Built {
+            stackup: None,
+            errors: Vec::new(),
+        };
     };
     let own = read_materials_and_foils(&mut r);
     let mut materials = BTreeMap::new();
@@ -73,9 +95,12 @@ pub fn build_stackup(
     stackup.matched_groups = read_groups(&mut r, &stackup);
     stackup.coupons = super::coupons::read_coupons(&mut r, &stackup);
     stackup.settings = read_settings(&mut r, &stackup, rules);
-    if r.errors.is_empty() {
-        Ok(stackup)
-    } else {
-        Err(r.errors)
+    let board_ok = r
+        .errors
+        .iter()
+        .all(|e| confined_to_one_line(&e.primary.pointer));
+    Built {
+        stackup: board_ok.then_some(stackup),
+        errors: r.errors,
     }
 }

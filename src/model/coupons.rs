@@ -129,6 +129,7 @@ pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
     for i in 0..n {
         let ptr = format!("/coupons/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
             let first = r.line_of(&first);
             r.error(
@@ -139,7 +140,9 @@ pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
             );
         }
         if let Some(c) = read_coupon(r, s, &ptr, name) {
-            out.push(c);
+            if r.errors.len() == errors_before {
+                out.push(c);
+            }
         }
     }
     out

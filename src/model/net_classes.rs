@@ -19,6 +19,8 @@ pub(super) fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass>
     for i in 0..n {
         let ptr = format!("/net-classes/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        // A class with any error is left out (the model keeps the others).
+        let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
             let first = r.line_of(&first);
             r.error(
@@ -29,8 +31,8 @@ pub(super) fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass>
             );
         }
         match read_net_class(r, s, &ptr, name.clone()) {
-            Some(nc) => out.push(nc),
-            None => {
+            Some(nc) if r.errors.len() == errors_before => out.push(nc),
+            _ => {
                 r.unusable.insert(name);
             }
         }
@@ -332,6 +334,7 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
     for g in 0..n {
         let gp = format!("/matched-groups/{g}");
         let name = r.string(&format!("{gp}/name")).unwrap_or_default();
+        let errors_before = r.errors.len();
         let budget = r.bounded(
             &format!("{gp}/skew-budget"),
             Dimension::Time,
@@ -404,7 +407,7 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
                 segments,
             });
         }
-        if ok {
+        if ok && r.errors.len() == errors_before {
             out.push(MatchedGroup {
                 name,
                 pointer: gp,

@@ -214,13 +214,17 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
         let p = format!("/settings/suppress/{i}");
         let at = r.string(&format!("{p}/at"));
         if let Some(name) = &at {
-            let known = s.layers.iter().any(|l| &l.name == name)
+            let present = s.layers.iter().any(|l| &l.name == name)
                 || s.materials.contains_key(name)
                 || s.net_classes.iter().any(|c| &c.name == name)
                 || s.matched_groups.iter().any(|g| &g.name == name)
-                || s.foils.contains_key(name)
-                || r.unusable.contains(name);
-            if !known {
+                || s.foils.contains_key(name);
+            // An element left out for its own input error takes its
+            // suppressions with it (they would only be reported unused).
+            if !present && r.unusable.contains(name) {
+                continue;
+            }
+            if !present {
                 r.error(
                     &format!("{p}/at"),
                     format!("suppression names `{name}`, which is not a layer, material, foil, net class or matched group of this file"),

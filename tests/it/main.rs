@@ -22,6 +22,7 @@ mod hostile_input;
 mod judgement;
 mod mask;
 mod materials_wiring;
+mod one_pass;
 mod pre_commit;
 mod provenance;
 mod report;

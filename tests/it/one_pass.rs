@@ -1,0 +1,110 @@
+//! Input errors confined to one net class, matched group or coupon leave
+//! that element out, and the rest of the board is analysed as before: a
+//! bad class does not hide the findings of the other classes.
+
+use std::collections::BTreeSet;
+
+use serde_json::Value;
+
+use crate::common;
+
+/// `check --format json` of the line card with `edit` applied to its
+/// board text: exit code and findings as (rule, pointer, message).
+fn check_line_card(edit: &dyn Fn(&str) -> String) -> (Option<i32>, Vec<(String, String, String)>) {
+    let dir = tempfile::tempdir().unwrap();
+    let board =
+        std::fs::read_to_string(common::root().join("examples/line-card-10l/board.stackup.yaml"))
+            .unwrap();
+    std::fs::write(dir.path().join("board.stackup.yaml"), edit(&board)).unwrap();
+    common::copy_line_card_coupons(dir.path());
+    let (code, out, err) = common::run_in(
+        dir.path(),
+        &[
+            "check",
+            "--root",
+            ".",
+            "board.stackup.yaml",
+            "--format",
+            "json",
+        ],
+    );
+    let v: Value = serde_json::from_str(&out).unwrap_or_else(|_| panic!("{err}"));
+    let findings = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| {
+            let s = |k: &str| f[k].as_str().unwrap_or_default().to_string();
+            (s("rule"), s("pointer"), s("message"))
+        })
+        .collect();
+    (code, findings)
+}
+
+/// The findings that do not mention any of `names`, without messages.
+fn unrelated(findings: &[(String, String, String)], names: &[&str]) -> BTreeSet<(String, String)> {
+    findings
+        .iter()
+        .filter(|(rule, _, m)| {
+            rule != "invalid-input" && !names.iter().any(|n| m.contains(&format!("`{n}`")))
+        })
+        .map(|(r, p, _)| (r.clone(), p.clone()))
+        .collect()
+}
+
+#[test]
+fn a_bad_class_leaves_the_other_classes_analysed() {
+    let (code, clean) = check_line_card(&|t| t.to_string());
+    assert_eq!(code, Some(1));
+    // `refclk` with a misspelt unit: the class is left out, and with it the
+    // matched group that routes it.
+    let (code, broken) =
+        check_line_card(&|t| t.replacen("    width: 0.18 mm\n", "    width: 0.18 mn\n", 1));
+    assert_eq!(code, Some(2), "an input error still fails the run");
+    let errors: Vec<_> = broken.iter().filter(|f| f.0 == "invalid-input").collect();
+    assert_eq!(errors.len(), 1, "{errors:#?}");
+    assert_eq!(errors[0].1, "/net-classes/4/width");
+    assert!(errors[0].2.contains("unknown unit `mn`"), "{errors:#?}");
+    // Nothing is said about the class or its group beyond the error...
+    let about = |name: &str| {
+        broken
+            .iter()
+            .filter(|f| f.0 != "invalid-input" && f.2.contains(&format!("`{name}`")))
+            .count()
+    };
+    assert_eq!(about("refclk"), 0, "{broken:#?}");
+    assert_eq!(about("refclk-fanout"), 0, "{broken:#?}");
+    // ...and every other finding is the one the clean board gets.
+    let names = ["refclk", "refclk-fanout"];
+    assert_eq!(unrelated(&broken, &names), unrelated(&clean, &names));
+    assert!(
+        unrelated(&broken, &names)
+            .iter()
+            .any(|(r, p)| r == "impedance-off-target" && p.starts_with("/net-classes/0")),
+        "the first class is still solved"
+    );
+}
+
+#[test]
+fn a_bad_coupon_file_leaves_the_board_analysed() {
+    let (_, clean) = check_line_card(&|t| t.to_string());
+    let (code, broken) = check_line_card(&|t| {
+        t.replacen("coupons/cal-line-100mm.s2p", "coupons/no-such-file.s2p", 1)
+    });
+    assert_eq!(code, Some(2));
+    let errors: Vec<_> = broken.iter().filter(|f| f.0 == "invalid-input").collect();
+    assert_eq!(errors.len(), 1, "{errors:#?}");
+    assert!(errors[0].2.contains("no-such-file.s2p"), "{errors:#?}");
+    // The coupon is out: its disagreement is not reported, the rest is.
+    assert!(!broken
+        .iter()
+        .any(|f| f.0 == "coupon-disagrees-with-stackup"));
+    let names = ["cal-line"];
+    let without_coupon = |f: &[(String, String, String)]| {
+        unrelated(f, &names)
+            .into_iter()
+            .filter(|(r, _)| r != "coupon-disagrees-with-stackup")
+            .collect::<BTreeSet<_>>()
+    };
+    assert_eq!(without_coupon(&broken), without_coupon(&clean));
+}
