@@ -3,7 +3,7 @@
 //! Any problem becomes an `invalid-input` finding at its span; nothing here
 //! panics on bad input.
 
-use std::collections::BTreeMap;
+use std::collections::{BTreeMap, BTreeSet};
 use std::path::{Path, PathBuf};
 
 use crate::files::{self, Confinement, ReadError, Refusal};
@@ -74,8 +74,9 @@ struct Prepared {
     /// The YAML tree, when the file parsed.
     tree: Option<Node>,
     problems: Vec<Finding>,
-    /// The file parsed and passed the schema.
-    ok: bool,
+    /// The file parsed and the model can be built from it: the elements
+    /// its schema errors leave out (none for a file that passed).
+    modelled: Option<BTreeSet<String>>,
 }
 
 /// Why a path named by the user or a stackup is not read, as a sentence,
@@ -181,7 +182,7 @@ fn prepare(
                 problems: vec![Finding::new(INVALID_INPUT, at, msg)
                     .label("unreadable")
                     .with_help(help)],
-                ok: false,
+                modelled: None,
             }
         }
     }
@@ -278,7 +279,7 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
             file,
             tree: None,
             problems: vec![problem],
-            ok: false,
+            modelled: None,
         };
     }
     let tree = match parsed {
@@ -298,7 +299,7 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
                 file,
                 tree: None,
                 problems: vec![problem],
-                ok: false,
+                modelled: None,
             };
         }
     };
@@ -314,15 +315,21 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
     Prepared {
         file,
         tree: Some(tree),
-        ok: problems.is_empty(),
+        // A library is used whole or not at all; a stackup is modelled
+        // without the elements that broke the schema.
+        modelled: match kind {
+            FileKind::Stackup => schema::left_out(&problems),
+            FileKind::Library => problems.is_empty().then(BTreeSet::new),
+        },
         problems,
     }
 }
 
 /// Add a prepared file to the database and its problems to the run;
-/// returns its id and its YAML tree when it parsed and passed the schema
-/// (the model is built from the tree; the database keeps only spans).
-fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node)> {
+/// returns its id, its YAML tree and the elements to leave out when a
+/// model can be built from it (the model is built from the tree; the
+/// database keeps only spans).
+fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node, BTreeSet<String>)> {
     let id = loaded.db.add(prepared.file);
     for mut f in prepared.problems {
         f.primary.file = id;
@@ -331,7 +338,8 @@ fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node)> {
         }
         loaded.problems.push(f);
     }
-    prepared.ok.then_some(id).zip(prepared.tree)
+    let (tree, skip) = prepared.tree.zip(prepared.modelled)?;
+    Some((id, tree, skip))
 }
 
 /// The built-in library of generic material classes (typical values, not
@@ -340,6 +348,10 @@ pub const BUILTIN_GENERIC: &str = include_str!("../materials/generic.materials.y
 
 /// Name by which stackups reference the built-in library.
 pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
+
+/// A stackup to model: where its problems so far end, its file, tree and
+/// libraries, and the elements to leave out.
+type Build = (usize, FileId, Node, Vec<LibraryData>, BTreeSet<String>);
 
 /// Load stackup files (and the libraries they reference).
 ///
@@ -363,9 +375,9 @@ pub fn load(
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
     // Per stackup, in order: where its problems so far end, and the model
     // to build (its file and libraries).
-    let mut builds: Vec<(usize, FileId, Node, Vec<LibraryData>)> = Vec::new();
+    let mut builds: Vec<Build> = Vec::new();
     for (path, prepared) in paths.iter().zip(prepared) {
-        let Some((id, tree)) = admit(&mut loaded, prepared) else {
+        let Some((id, tree, skip)) = admit(&mut loaded, prepared) else {
             continue;
         };
         let root = conf.root_of(path);
@@ -449,7 +461,7 @@ pub fn load(
                         prepare(&lib_path, base, limits, FileKind::Library, conf),
                     )
                 };
-                let data = lid.and_then(|(lid, tree)| {
+                let data = lid.and_then(|(lid, tree, _)| {
                     let (data, errors) = model::load_library(&loaded.db, lid, &tree);
                     let ok = errors.is_empty();
                     loaded.problems.extend(errors);
@@ -465,17 +477,17 @@ pub fn load(
         if !libs_ok {
             continue;
         }
-        builds.push((loaded.problems.len(), id, tree, libs));
+        builds.push((loaded.problems.len(), id, tree, libs, skip));
     }
     let db = &loaded.db;
-    let built = pool.map(&builds, |(_, id, tree, libs)| {
-        model::build_stackup(db, *id, tree, libs, rules)
+    let built = pool.map(&builds, |(_, id, tree, libs, skip)| {
+        model::build_stackup(db, *id, tree, libs, skip, rules)
     });
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
     let mut earlier = std::mem::take(&mut loaded.problems).into_iter();
     let mut taken = 0;
-    for ((at, _, _, _), result) in builds.iter().zip(built) {
+    for ((at, ..), result) in builds.iter().zip(built) {
         problems.extend(earlier.by_ref().take(at - taken));
         taken = *at;
         loaded.stackups.extend(result.stackup);
@@ -593,8 +605,10 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec
         text: text.to_string(),
         spans: Spans::default(),
     };
-    if let Some((id, tree)) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
-        let built = model::build_stackup(&loaded.db, id, &tree, &[], rules);
+    if let Some((id, tree, skip)) =
+        admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup))
+    {
+        let built = model::build_stackup(&loaded.db, id, &tree, &[], &skip, rules);
         loaded.stackups.extend(built.stackup);
         loaded.problems.extend(built.errors);
     }

@@ -114,6 +114,45 @@ pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
     out
 }
 
+/// The elements a stackup's model leaves out for its schema findings:
+/// each finding's layer, net class, matched group, coupon, material or foil
+/// entry (or `/settings`, or an unknown top-level key); `None` when one is
+/// about the file as a whole or one of its lists (no model is built).
+/// What the model reads of the other elements is then schema-valid.
+pub fn left_out(findings: &[Finding]) -> Option<std::collections::BTreeSet<String>> {
+    const LISTS: [&str; 4] = ["layers", "net-classes", "matched-groups", "coupons"];
+    const MAPS: [&str; 2] = ["materials", "foils"];
+    const WHOLE: [&str; 3] = ["stackup-lint", "board", "libraries"];
+    let mut out = std::collections::BTreeSet::new();
+    for f in findings {
+        let mut tokens = f.primary.pointer.split('/').skip(1);
+        let element = match (tokens.next(), tokens.next()) {
+            (Some(list), Some(i))
+                if LISTS.contains(&list)
+                    && !i.is_empty()
+                    && i.bytes().all(|b| b.is_ascii_digit()) =>
+            {
+                format!("/{list}/{i}")
+            }
+            (Some(map), Some(key)) if MAPS.contains(&map) => format!("/{map}/{key}"),
+            (Some("settings"), _) => "/settings".to_string(),
+            (Some(key), None)
+                if !key.is_empty()
+                    && !LISTS.contains(&key)
+                    && !MAPS.contains(&key)
+                    && !WHOLE.contains(&key)
+                    && key != "settings" =>
+            {
+                // An unknown top-level key: nothing reads it.
+                format!("/{key}")
+            }
+            _ => return None,
+        };
+        out.insert(element);
+    }
+    Some(out)
+}
+
 /// Most schema findings reported for one file.
 const MAX_FINDINGS: usize = 50;
 

@@ -43,14 +43,17 @@ fn confined_to_one_line(pointer: &str) -> bool {
         .any(|p| pointer.starts_with(p))
 }
 
-/// Build the stackup model from a schema-valid file. `libraries` are the
-/// already-loaded library files this file references, in order.
-/// `rules` are the rules `settings` may name, with their options.
+/// Build the stackup model from a file whose schema errors lie in the
+/// elements `skip` names (pointers of layers, classes, groups, coupons,
+/// materials, foils, or `/settings`), which are left out unread.
+/// `libraries` are the already-loaded library files this file references,
+/// in order. `rules` are the rules `settings` may name, with their options.
 pub fn build_stackup(
     db: &SourceDb,
     file: FileId,
     tree: &Node,
     libraries: &[LibraryData],
+    skip: &std::collections::BTreeSet<String>,
     rules: &[RuleSpec],
 ) -> Built {
     let Some(mut r) = Reader::new(db, file, tree) else {
@@ -59,6 +62,7 @@ pub fn build_stackup(
             errors: Vec::new(),
         };
     };
+    r.skip = skip.clone();
     let own = read_materials_and_foils(&mut r);
     let mut materials = BTreeMap::new();
     let mut foils = BTreeMap::new();
@@ -94,11 +98,15 @@ pub fn build_stackup(
     stackup.net_classes = read_net_classes(&mut r, &stackup);
     stackup.matched_groups = read_groups(&mut r, &stackup);
     stackup.coupons = super::coupons::read_coupons(&mut r, &stackup);
-    stackup.settings = read_settings(&mut r, &stackup, rules);
+    if !r.skip.contains("/settings") {
+        stackup.settings = read_settings(&mut r, &stackup, rules);
+    }
     let board_ok = r
         .errors
         .iter()
-        .all(|e| confined_to_one_line(&e.primary.pointer));
+        .map(|e| e.primary.pointer.as_str())
+        .chain(skip.iter().map(String::as_str))
+        .all(|p| confined_to_one_line(&format!("{p}/")));
     Built {
         stackup: board_ok.then_some(stackup),
         errors: r.errors,

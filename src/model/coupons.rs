@@ -129,6 +129,10 @@ pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
     for i in 0..n {
         let ptr = format!("/coupons/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        if r.skip.contains(&ptr) {
+            r.unusable.insert(name);
+            continue;
+        }
         let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
             let first = r.line_of(&first);

@@ -37,6 +37,10 @@ pub(super) fn read_layers(
             ok = false;
         }
         seen.insert(name.clone(), ptr.clone());
+        if r.skip.contains(&ptr) {
+            ok = false;
+            continue;
+        }
         let kind = if r.node(&format!("{ptr}/copper")).is_some() {
             read_copper(r, &format!("{ptr}/copper"), foils).map(LayerKind::Copper)
         } else {
@@ -360,17 +364,23 @@ pub(super) fn layer_ref(r: &mut Reader<'_>, s: &Stackup, ptr: &str, want: &str) 
         }
         None if r.unusable.contains(&name) => None,
         None => {
-            let copper: Vec<_> = s
-                .copper_indices()
-                .into_iter()
-                .map(|i| s.layers[i].name.as_str())
+            // The copper layers the file defines, also when some failed to
+            // load (then the model has none).
+            let copper: Vec<String> = r
+                .node("/layers")
+                .and_then(Node::as_seq)
+                .unwrap_or_default()
+                .iter()
+                .filter(|l| l.get("copper").is_some())
+                .filter_map(|l| l.get("name").and_then(|n| n.as_str().map(str::to_string)))
                 .collect();
+            let names: Vec<&str> = copper.iter().map(String::as_str).collect();
             r.error(
                 ptr,
                 format!("there is no layer named `{name}`"),
                 "unknown layer",
-                Some(crate::suggest::help_for(&name, copper.clone(), || {
-                    format!("copper layers: {}", copper.join(", "))
+                Some(crate::suggest::help_for(&name, names.clone(), || {
+                    format!("copper layers: {}", names.join(", "))
                 })),
             );
             None

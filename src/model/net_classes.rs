@@ -19,6 +19,10 @@ pub(super) fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass>
     for i in 0..n {
         let ptr = format!("/net-classes/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        if r.skip.contains(&ptr) {
+            r.unusable.insert(name);
+            continue;
+        }
         // A class with any error is left out (the model keeps the others).
         let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
@@ -334,6 +338,10 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
     for g in 0..n {
         let gp = format!("/matched-groups/{g}");
         let name = r.string(&format!("{gp}/name")).unwrap_or_default();
+        if r.skip.contains(&gp) {
+            r.unusable.insert(name);
+            continue;
+        }
         let errors_before = r.errors.len();
         let budget = r.bounded(
             &format!("{gp}/skew-budget"),

@@ -20,6 +20,10 @@ pub(super) struct Reader<'a> {
     /// but failed to load. A reference to one of them is not reported
     /// again: the definition already has its finding.
     pub(super) unusable: BTreeSet<String>,
+    /// Elements (layers, classes, groups, coupons, materials, foils, by
+    /// pointer) left out for their schema errors: not read, their names
+    /// unusable.
+    pub(super) skip: BTreeSet<String>,
 }
 
 impl<'a> Reader<'a> {
@@ -30,6 +34,7 @@ impl<'a> Reader<'a> {
             root,
             errors: Vec::new(),
             unusable: BTreeSet::new(),
+            skip: BTreeSet::new(),
         })
     }
 

@@ -8,6 +8,22 @@ use serde_json::Value;
 
 use crate::common;
 
+/// `check --format json` of `dir/board.stackup.yaml`, `dir` the project
+/// root: exit code and report.
+fn check_json(dir: &std::path::Path) -> (Option<i32>, Value) {
+    let args = [
+        "check",
+        "--root",
+        ".",
+        "board.stackup.yaml",
+        "--format",
+        "json",
+    ];
+    let (code, out, err) = common::run_in(dir, &args);
+    let v: Value = serde_json::from_str(&out).unwrap_or_else(|_| panic!("{err}"));
+    (code, v)
+}
+
 /// `check --format json` of the line card with `edit` applied to its
 /// board text: exit code and findings as (rule, pointer, message).
 fn check_line_card(edit: &dyn Fn(&str) -> String) -> (Option<i32>, Vec<(String, String, String)>) {
@@ -17,18 +33,7 @@ fn check_line_card(edit: &dyn Fn(&str) -> String) -> (Option<i32>, Vec<(String, 
             .unwrap();
     std::fs::write(dir.path().join("board.stackup.yaml"), edit(&board)).unwrap();
     common::copy_line_card_coupons(dir.path());
-    let (code, out, err) = common::run_in(
-        dir.path(),
-        &[
-            "check",
-            "--root",
-            ".",
-            "board.stackup.yaml",
-            "--format",
-            "json",
-        ],
-    );
-    let v: Value = serde_json::from_str(&out).unwrap_or_else(|_| panic!("{err}"));
+    let (code, v) = check_json(dir.path());
     let findings = v["findings"]
         .as_array()
         .unwrap()
@@ -107,4 +112,87 @@ fn a_bad_coupon_file_leaves_the_board_analysed() {
             .collect::<BTreeSet<_>>()
     };
     assert_eq!(without_coupon(&broken), without_coupon(&clean));
+}
+
+/// A board with six independent mistakes of six kinds (a schema key, a
+/// unit, a foil, a material and a layer reference, a rule name): all six
+/// are reported in one run, each with the name it most likely means.
+const SIX_MISTAKES: &str = "\
+stackup-lint: 1
+board: six independent mistakes (test)
+materials:
+  fr4: {dk: 4.2, df: 0.018, frequency: 1 GHz}
+foils:
+  std-ed: {rz: 5 um}
+layers:
+  - name: L1
+    copper: {role: signal, thickness: 35 uM, down: {side: treated, foil: std-ed}}
+  - name: core
+    dielectric: {kind: core, material: fr-4, thickness: 0.2 mm}
+  - name: L2
+    copper: {role: plane, thickness: 35 um, up: {side: treated, foil: std-edd}}
+net-classes:
+  - name: se50
+    structure: microstrip
+    layer: l1
+    width: 0.3 mm
+    impedance: {target: 50 ohm}
+  - name: pair100
+    structure: diff-microstrip
+    layer: L1
+    width: 0.15 mm
+    diff-spacing: 0.2 mm
+    impedance: {target: 100 ohm}
+settings:
+  rules:
+    impedance-of-target: warning
+";
+
+#[test]
+fn six_mistakes_are_reported_in_one_run_with_suggestions() {
+    let dir = tempfile::tempdir().unwrap();
+    std::fs::write(dir.path().join("board.stackup.yaml"), SIX_MISTAKES).unwrap();
+    let (code, v) = check_json(dir.path());
+    assert_eq!(code, Some(2));
+    let got: Vec<(u64, String)> = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| {
+            assert_eq!(f["rule"], "invalid-input", "{f}");
+            (
+                f["line"].as_u64().unwrap(),
+                f["help"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect();
+    // Written out by hand: each mistake's line and the name it means.
+    let want = [
+        (9, "did you mean `35 um`?"),
+        (11, "did you mean `fr4`?"),
+        (13, "did you mean `std-ed`?"),
+        (17, "did you mean `L1`?"),
+        (24, "did you mean `spacing`?"),
+        (28, "did you mean `impedance-off-target`?"),
+    ];
+    let mut got_sorted = got.clone();
+    got_sorted.sort();
+    assert_eq!(
+        got_sorted,
+        want.map(|(l, h)| (l, h.to_string())).to_vec(),
+        "{got:#?}"
+    );
+    let (code, human, _) = common::run_in(
+        dir.path(),
+        &[
+            "check",
+            "--root",
+            ".",
+            "board.stackup.yaml",
+            "--color",
+            "never",
+        ],
+    );
+    assert_eq!(code, Some(2));
+    insta::assert_snapshot!("six_mistakes_human", human);
 }
