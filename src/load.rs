@@ -351,7 +351,7 @@ pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
 
 /// A stackup to model: where its problems so far end, its file, tree and
 /// libraries, and the elements to leave out.
-type Build = (usize, FileId, Node, Vec<LibraryData>, BTreeSet<String>);
+type Build = (usize, FileId, Node, Vec<LibraryData>, model::Gaps);
 
 /// Load stackup files (and the libraries they reference).
 ///
@@ -474,14 +474,16 @@ pub fn load(
                 None => libs_ok = false,
             }
         }
-        if !libs_ok {
-            continue;
-        }
-        builds.push((loaded.problems.len(), id, tree, libs, skip));
+        // Without a library the file is still read, for its own errors.
+        let gaps = model::Gaps {
+            elements: skip,
+            library_failed: !libs_ok,
+        };
+        builds.push((loaded.problems.len(), id, tree, libs, gaps));
     }
     let db = &loaded.db;
-    let built = pool.map(&builds, |(_, id, tree, libs, skip)| {
-        model::build_stackup(db, *id, tree, libs, skip, rules)
+    let built = pool.map(&builds, |(_, id, tree, libs, gaps)| {
+        model::build_stackup(db, *id, tree, libs, gaps, rules)
     });
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
@@ -608,7 +610,11 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec
     if let Some((id, tree, skip)) =
         admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup))
     {
-        let built = model::build_stackup(&loaded.db, id, &tree, &[], &skip, rules);
+        let gaps = model::Gaps {
+            elements: skip,
+            library_failed: false,
+        };
+        let built = model::build_stackup(&loaded.db, id, &tree, &[], &gaps, rules);
         loaded.stackups.extend(built.stackup);
         loaded.problems.extend(built.errors);
     }

@@ -34,6 +34,17 @@ pub struct Built {
     pub errors: Vec<Finding>,
 }
 
+/// What a file's model is built without.
+#[derive(Debug, Default, Clone)]
+pub struct Gaps {
+    /// Elements left out unread for their schema errors: pointers of
+    /// layers, classes, groups, coupons, materials, foils, or `/settings`.
+    pub elements: std::collections::BTreeSet<String>,
+    /// A library the file names failed to load: a material or foil the
+    /// model cannot find may be one of its, and is not reported again.
+    pub library_failed: bool,
+}
+
 /// Whether an error at `pointer` is confined to one net class, matched
 /// group or coupon (which the model then leaves out) rather than the
 /// board every class is computed on.
@@ -43,17 +54,16 @@ fn confined_to_one_line(pointer: &str) -> bool {
         .any(|p| pointer.starts_with(p))
 }
 
-/// Build the stackup model from a file whose schema errors lie in the
-/// elements `skip` names (pointers of layers, classes, groups, coupons,
-/// materials, foils, or `/settings`), which are left out unread.
-/// `libraries` are the already-loaded library files this file references,
-/// in order. `rules` are the rules `settings` may name, with their options.
+/// Build the stackup model from a file, without what `gaps` names (the
+/// elements its schema errors lie in, a library that failed).
+/// `libraries` are the library files this file references that loaded, in
+/// order. `rules` are the rules `settings` may name, with their options.
 pub fn build_stackup(
     db: &SourceDb,
     file: FileId,
     tree: &Node,
     libraries: &[LibraryData],
-    skip: &std::collections::BTreeSet<String>,
+    gaps: &Gaps,
     rules: &[RuleSpec],
 ) -> Built {
     let Some(mut r) = Reader::new(db, file, tree) else {
@@ -62,7 +72,8 @@ pub fn build_stackup(
             errors: Vec::new(),
         };
     };
-    r.skip = skip.clone();
+    r.skip = gaps.elements.clone();
+    r.library_failed = gaps.library_failed;
     let own = read_materials_and_foils(&mut r);
     let mut materials = BTreeMap::new();
     let mut foils = BTreeMap::new();
@@ -101,12 +112,12 @@ pub fn build_stackup(
     if !r.skip.contains("/settings") {
         stackup.settings = read_settings(&mut r, &stackup, rules);
     }
-    let board_ok = r
-        .errors
-        .iter()
-        .map(|e| e.primary.pointer.as_str())
-        .chain(skip.iter().map(String::as_str))
-        .all(|p| confined_to_one_line(&format!("{p}/")));
+    let board_ok = !gaps.library_failed
+        && r.errors
+            .iter()
+            .map(|e| e.primary.pointer.as_str())
+            .chain(gaps.elements.iter().map(String::as_str))
+            .all(|p| confined_to_one_line(&format!("{p}/")));
     Built {
         stackup: board_ok.then_some(stackup),
         errors: r.errors,

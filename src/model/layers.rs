@@ -136,7 +136,7 @@ pub(super) fn read_face(
             }
             (Some(name), None) => match foils.get(name) {
                 Some(f) => Some(f.roughness),
-                None if r.unusable.contains(name) => return None,
+                None if r.lost(name) => return None,
                 None => {
                     let known: Vec<_> = foils.keys().map(String::as_str).collect();
                     r.error(
@@ -197,7 +197,7 @@ pub(super) fn read_dielectric(
         }
     }
     let mut ok = true;
-    if !materials.contains_key(&material) && r.unusable.contains(&material) {
+    if !materials.contains_key(&material) && r.lost(&material) {
         ok = false;
     } else if !materials.contains_key(&material) {
         let known: Vec<_> = materials.keys().map(String::as_str).collect();

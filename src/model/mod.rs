@@ -12,7 +12,7 @@ mod net_classes;
 mod reader;
 mod settings;
 
-pub use build::{build_stackup, Built, HARMONIC_FACTOR};
+pub use build::{build_stackup, Built, Gaps, HARMONIC_FACTOR};
 pub use coupons::{Coupon, CouponFile, CouponKind};
 pub use derive::default_fill;
 pub use materials::{

@@ -24,6 +24,8 @@ pub(super) struct Reader<'a> {
     /// pointer) left out for their schema errors: not read, their names
     /// unusable.
     pub(super) skip: BTreeSet<String>,
+    /// A library the file names failed to load.
+    pub(super) library_failed: bool,
 }
 
 impl<'a> Reader<'a> {
@@ -35,7 +37,15 @@ impl<'a> Reader<'a> {
             errors: Vec::new(),
             unusable: BTreeSet::new(),
             skip: BTreeSet::new(),
+            library_failed: false,
         })
+    }
+
+    /// Whether a material or foil `name` the model lacks was defined but
+    /// did not load (here, or possibly in a library that failed): a
+    /// reference to it is not reported, its definition already is.
+    pub(super) fn lost(&self, name: &str) -> bool {
+        self.unusable.contains(name) || self.library_failed
     }
 
     pub(super) fn node(&self, ptr: &str) -> Option<&'a Node> {

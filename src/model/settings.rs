@@ -221,7 +221,7 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                 || s.foils.contains_key(name);
             // An element left out for its own input error takes its
             // suppressions with it (they would only be reported unused).
-            if !present && r.unusable.contains(name) {
+            if !present && r.lost(name) {
                 continue;
             }
             if !present {

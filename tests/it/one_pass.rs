@@ -196,3 +196,39 @@ fn six_mistakes_are_reported_in_one_run_with_suggestions() {
     assert_eq!(code, Some(2));
     insta::assert_snapshot!("six_mistakes_human", human);
 }
+
+/// A library that cannot be read does not hide the file's own errors: the
+/// missing library and a misspelt unit in a net class come in one run, and
+/// a material the file's layers name, which might be the library's, is not
+/// reported as undefined.
+#[test]
+fn a_missing_library_does_not_hide_the_files_own_errors() {
+    let dir = tempfile::tempdir().unwrap();
+    let board = SIX_MISTAKES
+        .replace(
+            "materials:\n",
+            "libraries: [no-such.materials.yaml]\nmaterials:\n",
+        )
+        .replace("35 uM", "35 um")
+        .replace("foil: std-edd", "foil: std-ed")
+        .replace("layer: l1", "layer: L1")
+        .replace("    diff-spacing: 0.2 mm\n", "    spacing: 0.2 mn\n")
+        .replace(
+            "    impedance-of-target: warning\n",
+            "    impedance-off-target: warning\n",
+        );
+    // `fr-4` is still written: not defined here, perhaps in the library.
+    assert!(board.contains("material: fr-4"));
+    std::fs::write(dir.path().join("board.stackup.yaml"), board).unwrap();
+    let (code, v) = check_json(dir.path());
+    assert_eq!(code, Some(2));
+    let messages: Vec<&str> = v["findings"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| f["message"].as_str().unwrap())
+        .collect();
+    assert_eq!(messages.len(), 2, "{messages:#?}");
+    assert!(messages[0].contains("material library `no-such.materials.yaml` does not exist"));
+    assert!(messages[1].contains("unknown unit `mn`"), "{messages:#?}");
+}
