@@ -324,7 +324,15 @@ fn explain(doc: &Doc<'_>, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
                     opts.join(", ")
                 ),
                 "not an allowed value",
-                Some(format!("use one of: {}", opts.join(", "))),
+                Some(
+                    match instance
+                        .as_str()
+                        .and_then(|v| crate::suggest::closest(v, opts.iter().map(String::as_str)))
+                    {
+                        Some(fix) => crate::suggest::did_you_mean(fix),
+                        None => format!("use one of: {}", opts.join(", ")),
+                    },
+                ),
             ));
         }
         ValidationErrorKind::Constant { expected_value } => out.push(finding(

@@ -134,7 +134,7 @@ const CASES: &[Case] = &[
     case("missing-role.stackup.yaml", "`copper` is missing the required key `role`", 25, 5, Some("copper")),
     with_help(case("unknown-key-typo.stackup.yaml", "unknown key `thicknes` in `dielectric`", 23, 7, Some("thicknes")), "did you mean `thickness`?"),
     with_help(case("unknown-key-optional.stackup.yaml", "unknown key `platted` in `copper`", 19, 7, Some("platted")), "did you mean `plated`?"),
-    case("structure-enum.stackup.yaml", "the text \"strip-line\", which is not one of", 30, 16, Some("strip-line")),
+    with_help(case("structure-enum.stackup.yaml", "the text \"strip-line\", which is not one of", 30, 16, Some("strip-line")), "did you mean `stripline`?"),
     case("version-2.stackup.yaml", "`stackup-lint` must be 1, found the number 2", 3, 15, Some("2")),
     // No version key: not read as a stackup at all, and not quoted beyond
     // a short excerpt of its first line (it could be any file).
