@@ -304,7 +304,7 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
         }
     };
     // Findings in file 0 until the file is admitted.
-    let problems = schema::validate(
+    let (problems, complete) = schema::validate(
         &schema::Doc {
             text: &file.text,
             tree: &tree,
@@ -318,7 +318,8 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
         // A library is used whole or not at all; a stackup is modelled
         // without the elements that broke the schema.
         modelled: match kind {
-            FileKind::Stackup => schema::left_out(&problems),
+            FileKind::Stackup if complete => schema::left_out(&problems),
+            FileKind::Stackup => None,
             FileKind::Library => problems.is_empty().then(BTreeSet::new),
         },
         problems,

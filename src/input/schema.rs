@@ -80,15 +80,26 @@ impl Doc<'_> {
     }
 }
 
-/// Validate a parsed file; returns findings at spans (in file 0).
-pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
+/// Validate a parsed file; returns findings at spans (in file 0), and
+/// whether they are all the file's schema errors (a file with more than
+/// [`MAX_FINDINGS`] gets only the first).
+pub fn validate(doc: &Doc<'_>, kind: FileKind) -> (Vec<Finding>, bool) {
     let instance = doc.tree.to_json();
     let mut out: Vec<Finding> = Vec::new();
     // A hostile file can hold 100 000 unknown keys; a person reads the
     // first few, so stop early instead of spending minutes on messages.
-    for err in validator(kind).iter_errors(&instance).take(MAX_FINDINGS) {
+    let mut errors = 0;
+    for err in validator(kind)
+        .iter_errors(&instance)
+        .take(MAX_FINDINGS + 1)
+    {
+        errors += 1;
+        if errors > MAX_FINDINGS {
+            break;
+        }
         explain(doc, &err, &mut out);
     }
+    let complete = errors <= MAX_FINDINGS && out.len() <= MAX_FINDINGS;
     out.truncate(MAX_FINDINGS);
     // A misspelt key also leaves a required key missing; the unknown-key
     // finding (with its "did you mean") says it all, so drop the other.
@@ -111,14 +122,15 @@ pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
     // One message per place is enough; keep the first.
     let mut seen = std::collections::BTreeSet::new();
     out.retain(|f| seen.insert((f.primary.pointer.clone(), f.message.clone())));
-    out
+    (out, complete)
 }
 
 /// The elements a stackup's model leaves out for its schema findings:
 /// each finding's layer, net class, matched group, coupon, material or foil
 /// entry (or `/settings`, or an unknown top-level key); `None` when one is
 /// about the file as a whole or one of its lists (no model is built).
-/// What the model reads of the other elements is then schema-valid.
+/// What the model reads of the other elements is then schema-valid, when
+/// `findings` are all the file's schema errors (see [`validate`]).
 pub fn left_out(findings: &[Finding]) -> Option<std::collections::BTreeSet<String>> {
     const LISTS: [&str; 4] = ["layers", "net-classes", "matched-groups", "coupons"];
     const MAPS: [&str; 2] = ["materials", "foils"];
