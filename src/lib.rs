@@ -19,6 +19,7 @@ pub mod output;
 pub mod pool;
 pub mod rules;
 pub mod source;
+pub mod suggest;
 pub mod units;
 pub mod walk;
 

@@ -3,7 +3,7 @@
 //! Any problem becomes an `invalid-input` finding at its span; nothing here
 //! panics on bad input.
 
-use std::collections::{BTreeMap, HashMap};
+use std::collections::{BTreeMap, BTreeSet, HashMap};
 use std::path::{Path, PathBuf};
 
 use crate::files::{self, Confinement, ReadError, Refusal};
@@ -74,8 +74,9 @@ struct Prepared {
     /// The YAML tree, when the file parsed.
     tree: Option<Node>,
     problems: Vec<Finding>,
-    /// The file parsed and passed the schema.
-    ok: bool,
+    /// The file parsed and the model can be built from it: the elements
+    /// its schema errors leave out (none for a file that passed).
+    modelled: Option<BTreeSet<String>>,
 }
 
 /// Why a path named by the user or a stackup is not read, as a sentence,
@@ -196,7 +197,7 @@ fn prepare(
                 problems: vec![Finding::new(INVALID_INPUT, at, msg)
                     .label("unreadable")
                     .with_help(help)],
-                ok: false,
+                modelled: None,
             }
         }
     }
@@ -293,7 +294,7 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
             file,
             tree: None,
             problems: vec![problem],
-            ok: false,
+            modelled: None,
         };
     }
     let tree = match parsed {
@@ -313,12 +314,12 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
                 file,
                 tree: None,
                 problems: vec![problem],
-                ok: false,
+                modelled: None,
             };
         }
     };
     // Findings in file 0 until the file is admitted.
-    let problems = schema::validate(
+    let (problems, complete) = schema::validate(
         &schema::Doc {
             text: &file.text,
             tree: &tree,
@@ -329,15 +330,22 @@ fn prepare_text(mut file: SourceFile, limits: &InputLimits, kind: FileKind) -> P
     Prepared {
         file,
         tree: Some(tree),
-        ok: problems.is_empty(),
+        // A library is used whole or not at all; a stackup is modelled
+        // without the elements that broke the schema.
+        modelled: match kind {
+            FileKind::Stackup if complete => schema::left_out(&problems),
+            FileKind::Stackup => None,
+            FileKind::Library => problems.is_empty().then(BTreeSet::new),
+        },
         problems,
     }
 }
 
 /// Add a prepared file to the database and its problems to the run;
-/// returns its id and its YAML tree when it parsed and passed the schema
-/// (the model is built from the tree; the database keeps only spans).
-fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node)> {
+/// returns its id, its YAML tree and the elements to leave out when a
+/// model can be built from it (the model is built from the tree; the
+/// database keeps only spans).
+fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node, BTreeSet<String>)> {
     let id = loaded.db.add(prepared.file);
     for mut f in prepared.problems {
         f.primary.file = id;
@@ -346,7 +354,8 @@ fn admit(loaded: &mut Loaded, prepared: Prepared) -> Option<(FileId, Node)> {
         }
         loaded.problems.push(f);
     }
-    prepared.ok.then_some(id).zip(prepared.tree)
+    let (tree, skip) = prepared.tree.zip(prepared.modelled)?;
+    Some((id, tree, skip))
 }
 
 /// The built-in library of generic material classes (typical values, not
@@ -355,6 +364,10 @@ pub const BUILTIN_GENERIC: &str = include_str!("../materials/generic.materials.y
 
 /// Name by which stackups reference the built-in library.
 pub const BUILTIN_GENERIC_NAME: &str = "builtin:generic";
+
+/// A stackup to model: where its problems so far end, its file, tree and
+/// libraries, and the elements to leave out.
+type Build = (usize, FileId, Node, Vec<LibraryData>, model::Gaps);
 
 /// Load stackup files (and the libraries they reference).
 ///
@@ -399,9 +412,9 @@ pub fn load_with(
     let mut libraries: BTreeMap<PathBuf, Option<LibraryData>> = BTreeMap::new();
     // Per stackup, in order: where its problems so far end, and the model
     // to build (its file and libraries).
-    let mut builds: Vec<(usize, FileId, Node, Vec<LibraryData>)> = Vec::new();
+    let mut builds: Vec<Build> = Vec::new();
     for (path, prepared) in paths.iter().zip(prepared) {
-        let Some((id, tree)) = admit(&mut loaded, prepared) else {
+        let Some((id, tree, skip)) = admit(&mut loaded, prepared) else {
             continue;
         };
         let root = conf.root_of(path);
@@ -485,7 +498,7 @@ pub fn load_with(
                         prepare(&lib_path, base, limits, FileKind::Library, conf, None),
                     )
                 };
-                let data = lid.and_then(|(lid, tree)| {
+                let data = lid.and_then(|(lid, tree, _)| {
                     let (data, errors) = model::load_library(&loaded.db, lid, &tree);
                     let ok = errors.is_empty();
                     loaded.problems.extend(errors);
@@ -498,26 +511,26 @@ pub fn load_with(
                 None => libs_ok = false,
             }
         }
-        if !libs_ok {
-            continue;
-        }
-        builds.push((loaded.problems.len(), id, tree, libs));
+        // Without a library the file is still read, for its own errors.
+        let gaps = model::Gaps {
+            elements: skip,
+            library_failed: !libs_ok,
+        };
+        builds.push((loaded.problems.len(), id, tree, libs, gaps));
     }
     let db = &loaded.db;
-    let built = pool.map(&builds, |(_, id, tree, libs)| {
-        model::build_stackup(db, *id, tree, libs, rules)
+    let built = pool.map(&builds, |(_, id, tree, libs, gaps)| {
+        model::build_stackup(db, *id, tree, libs, gaps, rules)
     });
     // Put each model's problems where a sequential load would have.
     let mut problems = Vec::with_capacity(loaded.problems.len());
     let mut earlier = std::mem::take(&mut loaded.problems).into_iter();
     let mut taken = 0;
-    for ((at, _, _, _), result) in builds.iter().zip(built) {
+    for ((at, ..), result) in builds.iter().zip(built) {
         problems.extend(earlier.by_ref().take(at - taken));
         taken = *at;
-        match result {
-            Ok(s) => loaded.stackups.push(s),
-            Err(errors) => problems.extend(errors),
-        }
+        loaded.stackups.extend(result.stackup);
+        problems.extend(result.errors);
     }
     problems.extend(earlier);
     loaded.problems = problems;
@@ -526,10 +539,10 @@ pub fn load_with(
 }
 
 /// Read and parse every coupon's Touchstone files, relative to its
-/// stackup and confined to the project root like libraries. A stackup
-/// with an unreadable or malformed coupon file is not analysed (its
+/// stackup and confined to the project root like libraries. A coupon with
+/// an unreadable or malformed file is left out of the analysis (its
 /// problems say why, at the coupon's entry, with the file's line; no byte
-/// of the file is echoed).
+/// of the file is echoed); the rest of its stackup is analysed.
 fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confinement) {
     let base = conf.cwd().to_path_buf();
     let mut keep = Vec::new();
@@ -537,13 +550,14 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
         let path = loaded.db.get(s.file).path.clone();
         let root = conf.root_of(&path);
         let dir = path.parent().unwrap_or(Path::new(".")).to_path_buf();
-        let mut ok = true;
         let pairs: Vec<bool> = s
             .coupons
             .iter()
             .map(|c| s.net_classes[c.net_class].structure.is_differential())
             .collect();
-        for (c, pair) in s.coupons.iter_mut().zip(pairs) {
+        let mut usable = Vec::new();
+        for (mut c, pair) in std::mem::take(&mut s.coupons).into_iter().zip(pairs) {
+            let mut ok = true;
             for f in &mut c.files {
                 let rel = Path::new(&f.path);
                 let full = dir.join(rel);
@@ -610,10 +624,12 @@ fn read_coupon_files(loaded: &mut Loaded, limits: &InputLimits, conf: &Confineme
                     .with_help("a single line's coupon is a two-port (.s2p), a pair's a four-port (.s4p, ports 1-2 one line, 3-4 the other); the files of one coupon share one sweep and one reference impedance"),
                 );
             }
+            if ok {
+                usable.push(c);
+            }
         }
-        if ok {
-            keep.push(s);
-        }
+        s.coupons = usable;
+        keep.push(s);
     }
     loaded.stackups = keep;
 }
@@ -628,11 +644,16 @@ pub fn load_text(name: &str, text: &str, limits: &InputLimits, rules: &[RuleSpec
         text: text.to_string(),
         spans: Spans::default(),
     };
-    if let Some((id, tree)) = admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup)) {
-        match model::build_stackup(&loaded.db, id, &tree, &[], rules) {
-            Ok(s) => loaded.stackups.push(s),
-            Err(errors) => loaded.problems.extend(errors),
-        }
+    if let Some((id, tree, skip)) =
+        admit(&mut loaded, prepare_text(file, limits, FileKind::Stackup))
+    {
+        let gaps = model::Gaps {
+            elements: skip,
+            library_failed: false,
+        };
+        let built = model::build_stackup(&loaded.db, id, &tree, &[], &gaps, rules);
+        loaded.stackups.extend(built.stackup);
+        loaded.problems.extend(built.errors);
     }
     loaded
 }

@@ -19,7 +19,7 @@ use stackup_lint::engine::{self, CheckOptions};
 use stackup_lint::finding::Severity;
 use stackup_lint::input::yaml::YamlLimits;
 use stackup_lint::load::InputLimits;
-use stackup_lint::output::{self, github, gitlab, human, json, sarif, Summary};
+use stackup_lint::output::{self, concise, github, gitlab, human, json, sarif, Summary};
 use stackup_lint::pool::Pool;
 use stackup_lint::rules;
 use stackup_lint::walk::WalkOptions;
@@ -39,13 +39,31 @@ modelling and test coupons, and follow the applicable IPC standards."
 struct Cli {
     #[command(subcommand)]
     command: Command,
+}
+
+/// Where the commands that read stackups may read, and their solve cache
+/// (`check`, `baseline write`, `impedance`, `coupons`, `report`).
+#[derive(Args)]
+struct InputArgs {
     /// Do not read or write the on-disk cache of field-solver results
-    #[arg(long, global = true)]
+    #[arg(long)]
     no_cache: bool,
     /// Project root: every file read (stackups, libraries) must lie inside
     /// it, links followed [default: each file's enclosing git work tree]
-    #[arg(long, global = true, value_name = "DIR")]
+    #[arg(long, value_name = "DIR")]
     root: Option<PathBuf>,
+}
+
+impl InputArgs {
+    /// The project root and what every solve starts from: the disk cache
+    /// (if any) with the default mesh budget and threads.
+    fn split(self) -> (Option<PathBuf>, AnalysisOptions) {
+        let run = AnalysisOptions {
+            cache: stackup_lint::analysis::cache::from_env(self.no_cache),
+            ..AnalysisOptions::default()
+        };
+        (self.root, run)
+    }
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -55,16 +73,29 @@ enum FailOn {
     Note,
 }
 
+/// `check`'s output formats.
 #[derive(Clone, Copy, ValueEnum)]
-enum Format {
+enum CheckFormat {
     /// Diagnostics with source excerpts (default).
     Human,
+    /// One line per finding: `path:line:col: severity rule-name message`.
+    Concise,
     /// The stable JSON report (see README).
     Json,
-    /// GitHub Actions annotations (workflow commands); `check` only.
+    /// GitHub Actions annotations (workflow commands).
     Github,
-    /// GitLab code quality report (JSON); `check` only.
+    /// GitLab code quality report (JSON).
     Gitlab,
+}
+
+/// The output formats of the commands that print numbers (`impedance`,
+/// `coupons`).
+#[derive(Clone, Copy, ValueEnum)]
+enum TableFormat {
+    /// Tables for reading (default).
+    Human,
+    /// The same numbers as JSON.
+    Json,
 }
 
 #[derive(Clone, Copy, ValueEnum)]
@@ -87,7 +118,7 @@ enum Command {
         fail_on: FailOn,
         /// Output format on standard output
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: CheckFormat,
         /// Also write a SARIF 2.1.0 log for code review tools to this path
         #[arg(long, value_name = "PATH")]
         sarif: Option<PathBuf>,
@@ -118,6 +149,8 @@ enum Command {
         /// shown as baselined and do not fail the run
         #[arg(long, value_name = "FILE")]
         baseline: Option<PathBuf>,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Record today's findings so that `check --baseline` fails only on new ones
     Baseline {
@@ -126,7 +159,8 @@ enum Command {
     },
     /// Print a rule's page: what it checks, the physics, how to fix it
     Explain {
-        /// Rule name, as printed in brackets by `check`
+        /// Rule name, as `check` prints it above each finding (and after the
+        /// severity in `--format concise`)
         rule: String,
     },
     /// List every rule with its default severity
@@ -138,7 +172,7 @@ enum Command {
         paths: Vec<PathBuf>,
         /// Output format
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: TableFormat,
         /// Also give the total loss over this routed length, e.g. "150 mm"
         #[arg(long, value_name = "LENGTH")]
         length: Option<String>,
@@ -155,6 +189,8 @@ enum Command {
         touchstone: Option<PathBuf>,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Apply the fixes that need no judgement (a solved width, a modelled
     /// Dk to record, matched-group lengths) to the YAML at their values,
@@ -172,6 +208,8 @@ enum Command {
         rules: Vec<String>,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Serve the Language Server Protocol on standard input and output:
     /// findings while typing, hover, completion, go to definition and
@@ -182,6 +220,8 @@ enum Command {
         rule_docs_url: String,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Hold each measured test coupon (`coupons:`) against the stackup's
     /// model of its structure: effective Dk and loss across frequency, the
@@ -191,9 +231,11 @@ enum Command {
         paths: Vec<PathBuf>,
         /// Output format
         #[arg(long, value_enum, default_value = "human")]
-        format: Format,
+        format: TableFormat,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
     /// Write the fabrication-note report of one stackup: a self-contained
     /// HTML page, a Markdown file and the SVG drawings it links to
@@ -212,6 +254,8 @@ enum Command {
         length: Option<String>,
         #[command(flatten)]
         solve: SolveArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
 }
 
@@ -272,6 +316,8 @@ enum BaselineAction {
         output: PathBuf,
         #[command(flatten)]
         walk: WalkArgs,
+        #[command(flatten)]
+        input: InputArgs,
     },
 }
 
@@ -295,13 +341,6 @@ fn clamp_threads(n: usize) -> usize {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
-    // What every command solves with: the disk cache (if any), and the
-    // mesh budget and threads given to `check`, `impedance` and `report`.
-    let run = AnalysisOptions {
-        cache: stackup_lint::analysis::cache::from_env(cli.no_cache),
-        ..AnalysisOptions::default()
-    };
-    let root = cli.root;
     match cli.command {
         Command::Baseline {
             action:
@@ -309,8 +348,12 @@ fn main() -> ExitCode {
                     paths,
                     output,
                     walk,
+                    input,
                 },
-        } => baseline_write(paths, &output, walk.options(), root, run),
+        } => {
+            let (root, run) = input.split();
+            baseline_write(paths, &output, walk.options(), root, run)
+        }
         Command::Impedance {
             paths,
             format,
@@ -319,7 +362,9 @@ fn main() -> ExitCode {
             csv,
             touchstone,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
@@ -346,14 +391,20 @@ fn main() -> ExitCode {
             paths,
             format,
             solve,
-        } => coupons(paths, format, root, solve.options(run)),
+            input,
+        } => {
+            let (root, run) = input.split();
+            coupons(paths, format, root, solve.options(run))
+        }
         Command::Report {
             file,
             output,
             to_scale,
             length,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let length = match parse_length(length.as_deref()) {
                 Ok(l) => l,
@@ -373,18 +424,24 @@ fn main() -> ExitCode {
             dry_run,
             rules: only,
             solve,
-        } => fix_command(
-            paths,
-            walk.options(),
-            root,
-            solve.options(run),
-            dry_run,
-            &only,
-        ),
+            input,
+        } => {
+            let (root, run) = input.split();
+            fix_command(
+                paths,
+                walk.options(),
+                root,
+                solve.options(run),
+                dry_run,
+                &only,
+            )
+        }
         Command::Lsp {
             rule_docs_url,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let opts = stackup_lint::lsp::ServerOptions {
                 analysis: solve.options(run),
                 root,
@@ -415,10 +472,12 @@ fn main() -> ExitCode {
             Some(m) => print_or(m.doc, ExitCode::SUCCESS),
             None => {
                 let names: Vec<_> = rules::all_meta().iter().map(|m| m.name).collect();
+                let help = stackup_lint::suggest::help_for(&rule, names.clone(), || {
+                    format!("rules: {}", names.join(", "))
+                });
                 eprintln!(
-                    "error: there is no rule named `{}`; rules: {}",
+                    "error: there is no rule named `{}`; {help}",
                     output::escape::controls(&rule),
-                    names.join(", ")
                 );
                 ExitCode::from(2)
             }
@@ -438,7 +497,9 @@ fn main() -> ExitCode {
             rule_docs_url,
             baseline,
             solve,
+            input,
         } => {
+            let (root, run) = input.split();
             let run = solve.options(run);
             let baseline = match baseline.as_deref().map(Baseline::read) {
                 None => None,
@@ -497,18 +558,24 @@ fn main() -> ExitCode {
             }
             let summary = Summary::of(&outcome.findings, outcome.files);
             let text = match format {
-                Format::Json => output::escape::json_text(&json::render(
+                CheckFormat::Json => output::escape::json_text(&json::render(
                     &outcome.findings,
                     &outcome.db,
                     outcome.files,
                 ))
                 .into_owned(),
-                Format::Github => github::render(&outcome.findings, &outcome.db),
-                Format::Gitlab => {
+                CheckFormat::Github => github::render(&outcome.findings, &outcome.db),
+                CheckFormat::Concise => {
+                    let mut text = concise::render(&outcome.findings, &outcome.db);
+                    text.push_str(&summary.line_with(&outcome.skipped));
+                    text.push('\n');
+                    text
+                }
+                CheckFormat::Gitlab => {
                     output::escape::json_text(&gitlab::render(&outcome.findings, &outcome.db))
                         .into_owned()
                 }
-                Format::Human => {
+                CheckFormat::Human => {
                     let use_color = match color {
                         Color::Always => true,
                         Color::Never => false,
@@ -535,7 +602,7 @@ fn main() -> ExitCode {
             if let Err(code) = print(&text) {
                 return code;
             }
-            if !matches!(format, Format::Human) {
+            if !matches!(format, CheckFormat::Human | CheckFormat::Concise) {
                 if let Some(p) = outcome.skipped.phrase() {
                     eprintln!("note: {p}");
                 }
@@ -659,7 +726,6 @@ struct SweepArgs {
 /// run with code 2.
 fn load_analysed(
     paths: Vec<PathBuf>,
-    format: Format,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> Result<
@@ -674,10 +740,6 @@ fn load_analysed(
     } else {
         paths
     };
-    if matches!(format, Format::Github | Format::Gitlab) {
-        eprintln!("error: --format github and gitlab apply to `check` only");
-        return Err(ExitCode::from(2));
-    }
     let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
     let opts = CheckOptions {
         root,
@@ -727,13 +789,13 @@ fn load_analysed(
 
 fn impedance(
     paths: Vec<PathBuf>,
-    format: Format,
+    format: TableFormat,
     length: Option<f64>,
     sweep: Option<SweepArgs>,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
-    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+    let (loaded, analyses) = match load_analysed(paths, root, run) {
         Ok(x) => x,
         Err(code) => return code,
     };
@@ -752,7 +814,7 @@ fn impedance(
     }
     // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
-        Format::Json => {
+        TableFormat::Json => {
             output::escape::json_text(&output::impedance::json(&items, length)).into_owned()
         }
         _ => {
@@ -769,11 +831,11 @@ fn impedance(
 /// `coupons`: every measured coupon against the stackup's model.
 fn coupons(
     paths: Vec<PathBuf>,
-    format: Format,
+    format: TableFormat,
     root: Option<PathBuf>,
     run: AnalysisOptions,
 ) -> ExitCode {
-    let (loaded, analyses) = match load_analysed(paths, format, root, run) {
+    let (loaded, analyses) = match load_analysed(paths, root, run) {
         Ok(x) => x,
         Err(code) => return code,
     };
@@ -785,7 +847,7 @@ fn coupons(
         .collect();
     // Names come from the stackups: nothing raw reaches the terminal.
     let text = match format {
-        Format::Json => output::escape::json_text(&output::coupons::json(&items)).into_owned(),
+        TableFormat::Json => output::escape::json_text(&output::coupons::json(&items)).into_owned(),
         _ => output::escape::controls_keep_lines(&output::coupons::table(&items)).into_owned(),
     };
     print_or(&text, ExitCode::SUCCESS)
@@ -917,7 +979,7 @@ fn impedance_sweep(
         &stackup_lint::analysis::Analysis,
     )],
     sw: &SweepArgs,
-    format: Format,
+    format: TableFormat,
     length: Option<f64>,
     db: &stackup_lint::source::SourceDb,
 ) -> ExitCode {
@@ -989,7 +1051,7 @@ fn impedance_sweep(
         );
     }
     let text = match format {
-        Format::Json => output::escape::json_text(&output::sweep::json(&files)).into_owned(),
+        TableFormat::Json => output::escape::json_text(&output::sweep::json(&files)).into_owned(),
         _ => output::escape::controls_keep_lines(&output::sweep::table(&files)).into_owned(),
     };
     print_or(&text, ExitCode::SUCCESS)

@@ -90,43 +90,91 @@ impl fmt::Display for UnitError {
     }
 }
 
+/// Every unit read: its spellings, its scale factor to SI and its
+/// dimension family.
+const UNITS: &[(&[&str], f64, Family)] = {
+    use Family::*;
+    &[
+        (&["m"], 1.0, Len),
+        (&["cm"], 1e-2, Len),
+        (&["mm"], 1e-3, Len),
+        (&["um", "µm", "μm", "micron", "microns"], 1e-6, Len),
+        (&["nm"], 1e-9, Len),
+        (&["mil", "mils", "thou"], 25.4e-6, Len),
+        (&["in", "inch", "inches"], 25.4e-3, Len),
+        (&["oz", "oz/ft2", "oz/ft²"], OUNCE, Weight),
+        (&["Hz", "hz"], 1.0, Freq),
+        (&["kHz", "khz"], 1e3, Freq),
+        (&["MHz", "mhz"], 1e6, Freq),
+        (&["GHz", "ghz"], 1e9, Freq),
+        (&["THz", "thz"], 1e12, Freq),
+        (&["bps", "b/s"], 1.0, Rate),
+        (&["kbps", "kb/s"], 1e3, Rate),
+        (&["Mbps", "Mb/s"], 1e6, Rate),
+        (&["Gbps", "Gb/s"], 1e9, Rate),
+        (&["Tbps", "Tb/s"], 1e12, Rate),
+        (&["s"], 1.0, Time),
+        (&["ms"], 1e-3, Time),
+        (&["us", "µs", "μs"], 1e-6, Time),
+        (&["ns"], 1e-9, Time),
+        (&["ps"], 1e-12, Time),
+        (&["fs"], 1e-15, Time),
+        (&["ohm", "ohms", "Ohm", "Ω"], 1.0, Ohm),
+        (&["mohm", "mΩ"], 1e-3, Ohm),
+        (&["kohm", "kΩ"], 1e3, Ohm),
+        (&["%"], 1e-2, Frac),
+        (&["dB", "db"], 1.0, Db),
+    ]
+};
+
+/// One ounce of copper per square foot as a thickness, m (a constant
+/// here; [`ounce_thickness`] is the same number).
+const OUNCE: f64 = stackup_physics::consts::OUNCE_COPPER_THICKNESS;
+
+/// Unit words people write for one of ours, too far apart for the edit
+/// distance: the written word and the spelling it means.
+const UNIT_ALIASES: &[(&str, &str)] = &[
+    ("micrometer", "um"),
+    ("micrometers", "um"),
+    ("micrometre", "um"),
+    ("micrometres", "um"),
+    ("millimeter", "mm"),
+    ("millimeters", "mm"),
+    ("millimetre", "mm"),
+    ("millimetres", "mm"),
+    ("ounce", "oz"),
+    ("ounces", "oz"),
+    ("Gbit/s", "Gbps"),
+    ("Mbit/s", "Mbps"),
+    ("ohm/sq", "ohm"),
+];
+
 /// Scale factor to SI for a unit, and its dimension family.
 fn unit_scale(unit: &str) -> Option<(f64, Family)> {
-    use Family::*;
     let u = unit.trim();
-    let s = match u {
-        "m" => (1.0, Len),
-        "cm" => (1e-2, Len),
-        "mm" => (1e-3, Len),
-        "um" | "µm" | "μm" | "micron" | "microns" => (1e-6, Len),
-        "nm" => (1e-9, Len),
-        "mil" | "mils" | "thou" => (25.4e-6, Len),
-        "in" | "inch" | "inches" => (25.4e-3, Len),
-        "oz" | "oz/ft2" | "oz/ft²" => (ounce_thickness(), Weight),
-        "Hz" | "hz" => (1.0, Freq),
-        "kHz" | "khz" => (1e3, Freq),
-        "MHz" | "mhz" => (1e6, Freq),
-        "GHz" | "ghz" => (1e9, Freq),
-        "THz" | "thz" => (1e12, Freq),
-        "bps" | "b/s" => (1.0, Rate),
-        "kbps" | "kb/s" => (1e3, Rate),
-        "Mbps" | "Mb/s" => (1e6, Rate),
-        "Gbps" | "Gb/s" => (1e9, Rate),
-        "Tbps" | "Tb/s" => (1e12, Rate),
-        "s" => (1.0, Time),
-        "ms" => (1e-3, Time),
-        "us" | "µs" | "μs" => (1e-6, Time),
-        "ns" => (1e-9, Time),
-        "ps" => (1e-12, Time),
-        "fs" => (1e-15, Time),
-        "ohm" | "ohms" | "Ohm" | "Ω" => (1.0, Ohm),
-        "mohm" | "mΩ" => (1e-3, Ohm),
-        "kohm" | "kΩ" => (1e3, Ohm),
-        "%" => (1e-2, Frac),
-        "dB" | "db" => (1.0, Db),
-        _ => return None,
-    };
-    Some(s)
+    UNITS
+        .iter()
+        .find(|(names, _, _)| names.contains(&u))
+        .map(|&(_, scale, fam)| (scale, fam))
+}
+
+/// The unit of `dim` that a misspelt unit most likely means (see
+/// [`crate::suggest`]), as it should be written.
+pub fn suggest_unit(unit: &str, dim: Dimension) -> Option<&'static str> {
+    let accepted = |name: &str| unit_scale(name).is_some_and(|(_, fam)| accepts(dim, fam));
+    if let Some((_, meant)) = UNIT_ALIASES.iter().find(|(alias, _)| *alias == unit) {
+        return accepted(meant).then_some(*meant);
+    }
+    let candidates = UNITS
+        .iter()
+        .enumerate()
+        .filter(|(_, &(_, _, fam))| accepts(dim, fam))
+        .flat_map(|(meaning, (names, _, _))| {
+            names
+                .iter()
+                .map(move |&spelling| crate::suggest::Candidate { spelling, meaning })
+        });
+    crate::suggest::closest_meaning(unit, candidates)
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -248,6 +296,36 @@ pub fn fmt_length(m: f64) -> String {
     }
 }
 
+/// Copper weights as fabricators name them, oz per ft², with how they are
+/// written (common practice, no source).
+const COMMON_WEIGHTS: &[(f64, &str)] = &[
+    (0.25, "1/4"),
+    (1.0 / 3.0, "1/3"),
+    (0.5, "0.5"),
+    (0.75, "0.75"),
+    (1.0, "1"),
+    (1.5, "1.5"),
+    (2.0, "2"),
+    (2.5, "2.5"),
+    (3.0, "3"),
+    (4.0, "4"),
+    (5.0, "5"),
+    (6.0, "6"),
+];
+
+/// Format a copper thickness as its weight: the common weight it is
+/// within 3 % of ("1 oz", "0.5 oz"), else to two decimals ("0.52 oz").
+pub fn fmt_copper_weight(m: f64) -> String {
+    let oz = m / ounce_thickness();
+    match COMMON_WEIGHTS
+        .iter()
+        .find(|(w, _)| (oz - w).abs() <= 0.03 * w)
+    {
+        Some((_, name)) => format!("{name} oz"),
+        None => format!("{oz:.2} oz"),
+    }
+}
+
 /// Format a frequency for messages.
 pub fn fmt_frequency(hz: f64) -> String {
     if hz >= 1e9 {
@@ -262,6 +340,44 @@ pub fn fmt_frequency(hz: f64) -> String {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn copper_weights_print_as_common_fractions_within_3_percent() {
+        let um = |x: f64| x * 1e-6;
+        // 1 oz/ft² is 34.3 µm (consts::OUNCE_COPPER_THICKNESS); 35 µm is
+        // the usual rounding, 2 % above.
+        assert_eq!(fmt_copper_weight(ounce_thickness()), "1 oz");
+        assert_eq!(fmt_copper_weight(um(35.0)), "1 oz");
+        assert_eq!(fmt_copper_weight(um(17.5)), "0.5 oz");
+        assert_eq!(fmt_copper_weight(um(70.0)), "2 oz");
+        assert_eq!(fmt_copper_weight(um(11.6)), "1/3 oz");
+        // 18 µm is 5 % above half an ounce: printed as it is.
+        assert_eq!(fmt_copper_weight(um(18.0)), "0.52 oz");
+        assert_eq!(fmt_copper_weight(um(40.0)), "1.17 oz");
+    }
+
+    #[test]
+    fn misspelt_units_get_the_unit_of_their_dimension() {
+        assert_eq!(suggest_unit("mill", Dimension::Length), Some("mil"));
+        assert_eq!(suggest_unit("millimetres", Dimension::Length), Some("mm"));
+        assert_eq!(suggest_unit("Ghz", Dimension::Frequency), Some("GHz"));
+        assert_eq!(suggest_unit("Gbit/s", Dimension::DataRate), Some("Gbps"));
+        // An ounce is a copper weight, not a length.
+        assert_eq!(
+            suggest_unit("ounce", Dimension::CopperThickness),
+            Some("oz")
+        );
+        assert_eq!(suggest_unit("ounce", Dimension::Length), None);
+        // `umm` is one edit from `um` and from `mm`: no guess.
+        assert_eq!(suggest_unit("umm", Dimension::Length), None);
+        assert_eq!(suggest_unit("furlong", Dimension::Length), None);
+        // Every spelling in the table is read.
+        for &(names, scale, _) in UNITS {
+            for name in names {
+                assert_eq!(unit_scale(name).map(|(s, _)| s), Some(scale));
+            }
+        }
+    }
 
     #[test]
     fn lengths() {

@@ -221,6 +221,16 @@ pub struct LineGeometry {
 }
 
 impl LineGeometry {
+    /// The reference planes the section was solved over, as layer
+    /// indices from the top of the board down.
+    pub fn reference_layers(&self) -> Vec<usize> {
+        let mut r: Vec<usize> = std::iter::once(self.bottom_plane)
+            .chain(self.top_plane)
+            .collect();
+        r.sort_unstable();
+        r
+    }
+
     /// Height of the trace's bottom face above the first plane.
     pub fn y_trace(&self) -> f64 {
         self.slabs[..self.trace_slot]

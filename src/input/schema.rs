@@ -81,15 +81,26 @@ impl Doc<'_> {
     }
 }
 
-/// Validate a parsed file; returns findings at spans (in file 0).
-pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
+/// Validate a parsed file; returns findings at spans (in file 0), and
+/// whether they are all the file's schema errors (a file with more than
+/// [`MAX_FINDINGS`] gets only the first).
+pub fn validate(doc: &Doc<'_>, kind: FileKind) -> (Vec<Finding>, bool) {
     let instance = doc.tree.to_json();
     let mut out: Vec<Finding> = Vec::new();
     // A hostile file can hold 100 000 unknown keys; a person reads the
     // first few, so stop early instead of spending minutes on messages.
-    for err in validator(kind).iter_errors(&instance).take(MAX_FINDINGS) {
+    let mut errors = 0;
+    for err in validator(kind)
+        .iter_errors(&instance)
+        .take(MAX_FINDINGS + 1)
+    {
+        errors += 1;
+        if errors > MAX_FINDINGS {
+            break;
+        }
         explain(doc, &err, &mut out);
     }
+    let complete = errors <= MAX_FINDINGS && out.len() <= MAX_FINDINGS;
     out.truncate(MAX_FINDINGS);
     // A misspelt key also leaves a required key missing; the unknown-key
     // finding (with its "did you mean") says it all, so drop the other.
@@ -112,38 +123,51 @@ pub fn validate(doc: &Doc<'_>, kind: FileKind) -> Vec<Finding> {
     // One message per place is enough; keep the first.
     let mut seen = std::collections::BTreeSet::new();
     out.retain(|f| seen.insert((f.primary.pointer.clone(), f.message.clone())));
-    out
+    (out, complete)
+}
+
+/// The elements a stackup's model leaves out for its schema findings:
+/// each finding's layer, net class, matched group, coupon, material or foil
+/// entry (or `/settings`, or an unknown top-level key); `None` when one is
+/// about the file as a whole or one of its lists (no model is built).
+/// What the model reads of the other elements is then schema-valid, when
+/// `findings` are all the file's schema errors (see [`validate`]).
+pub fn left_out(findings: &[Finding]) -> Option<std::collections::BTreeSet<String>> {
+    const LISTS: [&str; 4] = ["layers", "net-classes", "matched-groups", "coupons"];
+    const MAPS: [&str; 2] = ["materials", "foils"];
+    const WHOLE: [&str; 3] = ["stackup-lint", "board", "libraries"];
+    let mut out = std::collections::BTreeSet::new();
+    for f in findings {
+        let mut tokens = f.primary.pointer.split('/').skip(1);
+        let element = match (tokens.next(), tokens.next()) {
+            (Some(list), Some(i))
+                if LISTS.contains(&list)
+                    && !i.is_empty()
+                    && i.bytes().all(|b| b.is_ascii_digit()) =>
+            {
+                format!("/{list}/{i}")
+            }
+            (Some(map), Some(key)) if MAPS.contains(&map) => format!("/{map}/{key}"),
+            (Some("settings"), _) => "/settings".to_string(),
+            (Some(key), None)
+                if !key.is_empty()
+                    && !LISTS.contains(&key)
+                    && !MAPS.contains(&key)
+                    && !WHOLE.contains(&key)
+                    && key != "settings" =>
+            {
+                // An unknown top-level key: nothing reads it.
+                format!("/{key}")
+            }
+            _ => return None,
+        };
+        out.insert(element);
+    }
+    Some(out)
 }
 
 /// Most schema findings reported for one file.
 const MAX_FINDINGS: usize = 50;
-
-/// The edit distance (Levenshtein) between two short words.
-fn edit_distance(a: &str, b: &str) -> usize {
-    let b: Vec<char> = b.chars().collect();
-    let mut row: Vec<usize> = (0..=b.len()).collect();
-    for (i, ca) in a.chars().enumerate() {
-        let mut prev = row[0];
-        row[0] = i + 1;
-        for (j, &cb) in b.iter().enumerate() {
-            let cur = row[j + 1];
-            row[j + 1] = (prev + usize::from(ca != cb)).min(row[j] + 1).min(cur + 1);
-            prev = cur;
-        }
-    }
-    row[b.len()]
-}
-
-/// The allowed key closest to a misspelt one, if it is close enough to be
-/// a typo (at most two edits, and fewer than half the letters).
-fn suggest<'k>(key: &str, allowed: &[&'k str]) -> Option<&'k str> {
-    allowed
-        .iter()
-        .map(|a| (edit_distance(key, a), *a))
-        .filter(|(d, a)| *d <= 2 && *d * 2 < a.len().max(key.len()))
-        .min_by_key(|(d, _)| *d)
-        .map(|(_, a)| a)
-}
 
 fn finding(
     doc: &Doc<'_>,
@@ -231,8 +255,8 @@ fn explain(doc: &Doc<'_>, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
                 let names: Vec<&str> = allowed
                     .as_deref()
                     .map_or(Vec::new(), |a| a.split(", ").collect());
-                let help = match suggest(key, &names) {
-                    Some(fix) => Some(format!("did you mean `{fix}`?")),
+                let help = match crate::suggest::key(key, &names) {
+                    Some(fix) => Some(crate::suggest::did_you_mean(fix)),
                     None => allowed.as_ref().map(|a| format!("allowed keys here: {a}")),
                 };
                 out.push(finding(
@@ -313,7 +337,15 @@ fn explain(doc: &Doc<'_>, err: &ValidationError<'_>, out: &mut Vec<Finding>) {
                     opts.join(", ")
                 ),
                 "not an allowed value",
-                Some(format!("use one of: {}", opts.join(", "))),
+                Some(
+                    match instance
+                        .as_str()
+                        .and_then(|v| crate::suggest::closest(v, opts.iter().map(String::as_str)))
+                    {
+                        Some(fix) => crate::suggest::did_you_mean(fix),
+                        None => format!("use one of: {}", opts.join(", ")),
+                    },
+                ),
             ));
         }
         ValidationErrorKind::Constant { expected_value } => out.push(finding(
@@ -497,25 +529,6 @@ fn allowed_keys(schema_path: &str) -> Option<String> {
 #[cfg(test)]
 mod tests {
     use super::*;
-    #[test]
-    fn edit_distance_and_suggestions() {
-        // kitten -> sitting needs three edits (k->s, e->i, +g): the usual
-        // example of Levenshtein distance, as in Rosetta Code's "Levenshtein
-        // distance" task, taken from Wikipedia's article.
-        assert_eq!(edit_distance("kitten", "sitting"), 3);
-        assert_eq!(edit_distance("", "abc"), 3);
-        assert_eq!(
-            suggest("thicknes", &["kind", "thickness", "material"]),
-            Some("thickness")
-        );
-        assert_eq!(
-            suggest("platted", &["role", "plated", "fill"]),
-            Some("plated")
-        );
-        // Too far from anything: no guess.
-        assert_eq!(suggest("colour", &["role", "plated", "fill"]), None);
-    }
-
     #[test]
     fn bundled_schemas_compile() {
         let _ = validator(FileKind::Stackup);

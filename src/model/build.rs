@@ -24,19 +24,56 @@ use crate::source::SourceDb;
 /// `stackup_physics::loss::DEFAULT_HARMONIC_FACTOR`, common practice).
 pub const HARMONIC_FACTOR: f64 = stackup_physics::loss::DEFAULT_HARMONIC_FACTOR;
 
-/// Build the stackup model from a schema-valid file. `libraries` are the
-/// already-loaded library files this file references, in order.
-/// `rules` are the rules `settings` may name, with their options.
+/// A file's model and its input errors.
+#[derive(Debug)]
+pub struct Built {
+    /// The model, when the board itself (layers, materials, foils,
+    /// settings) has no error: net classes, matched groups and coupons
+    /// with errors are left out of it, so the others are analysed.
+    pub stackup: Option<Stackup>,
+    pub errors: Vec<Finding>,
+}
+
+/// What a file's model is built without.
+#[derive(Debug, Default, Clone)]
+pub struct Gaps {
+    /// Elements left out unread for their schema errors: pointers of
+    /// layers, classes, groups, coupons, materials, foils, or `/settings`.
+    pub elements: std::collections::BTreeSet<String>,
+    /// A library the file names failed to load: a material or foil the
+    /// model cannot find may be one of its, and is not reported again.
+    pub library_failed: bool,
+}
+
+/// Whether an error at `pointer` is confined to one net class, matched
+/// group or coupon (which the model then leaves out) rather than the
+/// board every class is computed on.
+fn confined_to_one_line(pointer: &str) -> bool {
+    ["/net-classes/", "/matched-groups/", "/coupons/"]
+        .iter()
+        .any(|p| pointer.starts_with(p))
+}
+
+/// Build the stackup model from a file, without what `gaps` names (the
+/// elements its schema errors lie in, a library that failed).
+/// `libraries` are the library files this file references that loaded, in
+/// order. `rules` are the rules `settings` may name, with their options.
 pub fn build_stackup(
     db: &SourceDb,
     file: FileId,
     tree: &Node,
     libraries: &[LibraryData],
+    gaps: &Gaps,
     rules: &[RuleSpec],
-) -> Result<Stackup, Vec<Finding>> {
+) -> Built {
     let Some(mut r) = Reader::new(db, file, tree) else {
-        return Err(Vec::new());
+        return Built {
+            stackup: None,
+            errors: Vec::new(),
+        };
     };
+    r.skip = gaps.elements.clone();
+    r.library_failed = gaps.library_failed;
     let own = read_materials_and_foils(&mut r);
     let mut materials = BTreeMap::new();
     let mut foils = BTreeMap::new();
@@ -72,10 +109,17 @@ pub fn build_stackup(
     stackup.net_classes = read_net_classes(&mut r, &stackup);
     stackup.matched_groups = read_groups(&mut r, &stackup);
     stackup.coupons = super::coupons::read_coupons(&mut r, &stackup);
-    stackup.settings = read_settings(&mut r, &stackup, rules);
-    if r.errors.is_empty() {
-        Ok(stackup)
-    } else {
-        Err(r.errors)
+    if !r.skip.contains("/settings") {
+        stackup.settings = read_settings(&mut r, &stackup, rules);
+    }
+    let board_ok = !gaps.library_failed
+        && r.errors
+            .iter()
+            .map(|e| e.primary.pointer.as_str())
+            .chain(gaps.elements.iter().map(String::as_str))
+            .all(|p| confined_to_one_line(&format!("{p}/")));
+    Built {
+        stackup: board_ok.then_some(stackup),
+        errors: r.errors,
     }
 }

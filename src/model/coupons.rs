@@ -129,6 +129,11 @@ pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
     for i in 0..n {
         let ptr = format!("/coupons/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        if r.skip.contains(&ptr) {
+            r.unusable.insert(name);
+            continue;
+        }
+        let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
             let first = r.line_of(&first);
             r.error(
@@ -139,7 +144,9 @@ pub(super) fn read_coupons(r: &mut Reader<'_>, s: &Stackup) -> Vec<Coupon> {
             );
         }
         if let Some(c) = read_coupon(r, s, &ptr, name) {
-            out.push(c);
+            if r.errors.len() == errors_before {
+                out.push(c);
+            }
         }
     }
     out
@@ -154,7 +161,11 @@ fn read_coupon(r: &mut Reader<'_>, s: &Stackup, ptr: &str, name: String) -> Opti
             &class_ptr,
             format!("there is no net class named `{class_name}`"),
             "unknown net class",
-            Some("a coupon names the net class whose structure it measures".into()),
+            Some(crate::suggest::help_for(
+                &class_name,
+                s.net_classes.iter().map(|c| c.name.as_str()),
+                || "a coupon names the net class whose structure it measures".into(),
+            )),
         );
     }
     let files_ptr = format!("{ptr}/files");

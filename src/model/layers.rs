@@ -37,6 +37,10 @@ pub(super) fn read_layers(
             ok = false;
         }
         seen.insert(name.clone(), ptr.clone());
+        if r.skip.contains(&ptr) {
+            ok = false;
+            continue;
+        }
         let kind = if r.node(&format!("{ptr}/copper")).is_some() {
             read_copper(r, &format!("{ptr}/copper"), foils).map(LayerKind::Copper)
         } else {
@@ -157,18 +161,20 @@ pub(super) fn read_face(
             }
             (Some(name), None) => match foils.get(name) {
                 Some(f) => Some(f.roughness),
-                None if r.unusable.contains(name) => return None,
+                None if r.lost(name) => return None,
                 None => {
                     let known: Vec<_> = foils.keys().map(String::as_str).collect();
                     r.error(
                         &format!("{ptr}/foil"),
                         format!("foil `{name}` is not defined"),
                         "unknown foil",
-                        Some(if known.is_empty() {
-                            "define it under `foils:` with its rz/rq".into()
-                        } else {
-                            format!("defined foils: {}", known.join(", "))
-                        }),
+                        Some(crate::suggest::help_for(name, known.clone(), || {
+                            if known.is_empty() {
+                                "define it under `foils:` with its rz/rq".into()
+                            } else {
+                                format!("defined foils: {}", known.join(", "))
+                            }
+                        })),
                     );
                     return None;
                 }
@@ -216,7 +222,7 @@ pub(super) fn read_dielectric(
         }
     }
     let mut ok = true;
-    if !materials.contains_key(&material) && r.unusable.contains(&material) {
+    if !materials.contains_key(&material) && r.lost(&material) {
         ok = false;
     } else if !materials.contains_key(&material) {
         let known: Vec<_> = materials.keys().map(String::as_str).collect();
@@ -224,11 +230,13 @@ pub(super) fn read_dielectric(
             &material_pointer,
             format!("material `{material}` is not defined in this file or its libraries"),
             "unknown material",
-            Some(if known.is_empty() {
-                "define it under `materials:` or add a library under `libraries:`".into()
-            } else {
-                format!("known materials: {}", known.join(", "))
-            }),
+            Some(crate::suggest::help_for(&material, known.clone(), || {
+                if known.is_empty() {
+                    "define it under `materials:` or add a library under `libraries:`".into()
+                } else {
+                    format!("known materials: {}", known.join(", "))
+                }
+            })),
         );
         ok = false;
     }
@@ -384,16 +392,24 @@ pub(super) fn layer_ref(r: &mut Reader<'_>, s: &Stackup, ptr: &str, want: &str) 
         }
         None if r.unusable.contains(&name) => None,
         None => {
-            let copper: Vec<_> = s
-                .copper_indices()
-                .into_iter()
-                .map(|i| s.layers[i].name.as_str())
+            // The copper layers the file defines, also when some failed to
+            // load (then the model has none).
+            let copper: Vec<String> = r
+                .node("/layers")
+                .and_then(Node::as_seq)
+                .unwrap_or_default()
+                .iter()
+                .filter(|l| l.get("copper").is_some())
+                .filter_map(|l| l.get("name").and_then(|n| n.as_str().map(str::to_string)))
                 .collect();
+            let names: Vec<&str> = copper.iter().map(String::as_str).collect();
             r.error(
                 ptr,
                 format!("there is no layer named `{name}`"),
                 "unknown layer",
-                Some(format!("copper layers: {}", copper.join(", "))),
+                Some(crate::suggest::help_for(&name, names.clone(), || {
+                    format!("copper layers: {}", names.join(", "))
+                })),
             );
             None
         }

@@ -26,6 +26,10 @@ pub(super) fn read_materials_and_foils(r: &mut Reader<'_>) -> LibraryData {
     if let Some(entries) = r.node("/materials").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/materials/{}", escape_token(&e.key));
+            if r.skip.contains(&ptr) {
+                r.unusable.insert(e.key.clone());
+                continue;
+            }
             if r.node(&format!("{ptr}/resin-dk")).is_some() {
                 match read_resin_system(r, &ptr, &e.key) {
                     Some(rs) => {
@@ -50,6 +54,10 @@ pub(super) fn read_materials_and_foils(r: &mut Reader<'_>) -> LibraryData {
     if let Some(entries) = r.node("/foils").and_then(Node::as_map) {
         for e in entries {
             let ptr = format!("/foils/{}", escape_token(&e.key));
+            if r.skip.contains(&ptr) {
+                r.unusable.insert(e.key.clone());
+                continue;
+            }
             let roughness = read_roughness(r, &ptr, true);
             if roughness.is_none() {
                 r.unusable.insert(e.key.clone());

@@ -12,7 +12,7 @@ mod net_classes;
 mod reader;
 mod settings;
 
-pub use build::{build_stackup, HARMONIC_FACTOR};
+pub use build::{build_stackup, Built, Gaps, HARMONIC_FACTOR};
 pub use coupons::{Coupon, CouponFile, CouponKind};
 pub use derive::default_fill;
 pub use materials::{
@@ -447,7 +447,11 @@ pub struct NetClass {
     /// Nyquist frequency of the data rate, Hz.
     pub nyquist: Option<f64>,
     pub data_rate: Option<f64>,
+    /// The modulation of the data rate: given, or NRZ when a data rate
+    /// comes without one.
     pub modulation: Option<Modulation>,
+    /// Whether `modulation` was given.
+    pub modulation_given: bool,
     pub assumed_dk: Option<f64>,
     pub via_fence_pitch: Option<f64>,
     /// Centre-to-centre distance to the neighbouring pair of the same

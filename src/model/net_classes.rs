@@ -19,6 +19,12 @@ pub(super) fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass>
     for i in 0..n {
         let ptr = format!("/net-classes/{i}");
         let name = r.string(&format!("{ptr}/name")).unwrap_or_default();
+        if r.skip.contains(&ptr) {
+            r.unusable.insert(name);
+            continue;
+        }
+        // A class with any error is left out (the model keeps the others).
+        let errors_before = r.errors.len();
         if let Some(first) = names.insert(name.clone(), ptr.clone()) {
             let first = r.line_of(&first);
             r.error(
@@ -29,8 +35,8 @@ pub(super) fn read_net_classes(r: &mut Reader<'_>, s: &Stackup) -> Vec<NetClass>
             );
         }
         match read_net_class(r, s, &ptr, name.clone()) {
-            Some(nc) => out.push(nc),
-            None => {
+            Some(nc) if r.errors.len() == errors_before => out.push(nc),
+            _ => {
                 r.unusable.insert(name);
             }
         }
@@ -261,15 +267,10 @@ pub(super) fn read_net_class(
         );
         return None;
     }
-    if data_rate.is_some() && modulation.is_none() {
-        r.error(
-            &format!("{ptr}/data-rate"),
-            "a data rate needs `modulation: nrz` or `modulation: pam4` to give its Nyquist frequency",
-            "modulation missing",
-            None,
-        );
-        return None;
-    }
+    // A data rate without its modulation is read as NRZ, the common
+    // case; the `modulation-assumed` rule says so.
+    let modulation_given = modulation.is_some();
+    let modulation = modulation.or(data_rate.map(|_| Modulation::Nrz));
     let layer_index = layer_index?;
     if !refs_ok {
         return None;
@@ -346,6 +347,7 @@ pub(super) fn read_net_class(
         nyquist,
         data_rate,
         modulation,
+        modulation_given,
         assumed_dk,
         via_fence_pitch: pitch,
         pair_pitch,
@@ -364,6 +366,11 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
     for g in 0..n {
         let gp = format!("/matched-groups/{g}");
         let name = r.string(&format!("{gp}/name")).unwrap_or_default();
+        if r.skip.contains(&gp) {
+            r.unusable.insert(name);
+            continue;
+        }
+        let errors_before = r.errors.len();
         let budget = r.bounded(
             &format!("{gp}/skew-budget"),
             Dimension::Time,
@@ -408,7 +415,11 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
                                 &format!("{sp}/net-class"),
                                 format!("there is no net class named `{cn}`"),
                                 "unknown net class",
-                                None,
+                                crate::suggest::closest(
+                                    &cn,
+                                    s.net_classes.iter().map(|c| c.name.as_str()),
+                                )
+                                .map(crate::suggest::did_you_mean),
                             );
                             ok = false;
                             None
@@ -432,7 +443,7 @@ pub(super) fn read_groups(r: &mut Reader<'_>, s: &Stackup) -> Vec<MatchedGroup> 
                 segments,
             });
         }
-        if ok {
+        if ok && r.errors.len() == errors_before {
             out.push(MatchedGroup {
                 name,
                 pointer: gp,

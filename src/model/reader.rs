@@ -20,6 +20,12 @@ pub(super) struct Reader<'a> {
     /// but failed to load. A reference to one of them is not reported
     /// again: the definition already has its finding.
     pub(super) unusable: BTreeSet<String>,
+    /// Elements (layers, classes, groups, coupons, materials, foils, by
+    /// pointer) left out for their schema errors: not read, their names
+    /// unusable.
+    pub(super) skip: BTreeSet<String>,
+    /// A library the file names failed to load.
+    pub(super) library_failed: bool,
 }
 
 impl<'a> Reader<'a> {
@@ -30,7 +36,16 @@ impl<'a> Reader<'a> {
             root,
             errors: Vec::new(),
             unusable: BTreeSet::new(),
+            skip: BTreeSet::new(),
+            library_failed: false,
         })
+    }
+
+    /// Whether a material or foil `name` the model lacks was defined but
+    /// did not load (here, or possibly in a library that failed): a
+    /// reference to it is not reported, its definition already is.
+    pub(super) fn lost(&self, name: &str) -> bool {
+        self.unusable.contains(name) || self.library_failed
     }
 
     pub(super) fn node(&self, ptr: &str) -> Option<&'a Node> {
@@ -106,7 +121,19 @@ impl<'a> Reader<'a> {
         match result {
             Ok(v) => Some(v),
             Err(e) => {
-                let help = Some(format!("write {what} as {}", dim.describe()));
+                let fix = match (&e, &node.value) {
+                    (units::UnitError::UnknownUnit { unit, .. }, Value::String(text)) => {
+                        units::suggest_unit(unit, dim).and_then(|u| {
+                            let at = text.rfind(unit.as_str())?;
+                            Some(format!("{}{u}{}", &text[..at], &text[at + unit.len()..]))
+                        })
+                    }
+                    _ => None,
+                };
+                let help = Some(match fix {
+                    Some(fix) => crate::suggest::did_you_mean(&fix),
+                    None => format!("write {what} as {}", dim.describe()),
+                });
                 self.error(
                     ptr,
                     format!("{what}: {e}"),

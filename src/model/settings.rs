@@ -119,7 +119,11 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                         format!("there is no rule named `{}`", e.key),
                     )
                     .label("unknown rule")
-                    .with_help(format!("rules: {}", names())),
+                    .with_help(crate::suggest::help_for(
+                        &e.key,
+                        rules.iter().map(|x| x.name),
+                        || format!("rules: {}", names()),
+                    )),
                 );
                 continue;
             };
@@ -158,11 +162,20 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                                     )
                                     .label("unknown option")
                                     .with_help(
-                                        if keys.is_empty() {
-                                            "this rule takes only `severity`".to_string()
-                                        } else {
-                                            format!("options: severity, {}", keys.join(", "))
-                                        },
+                                        crate::suggest::help_for(
+                                            &o.key,
+                                            keys.iter().copied().chain(["severity"]),
+                                            || {
+                                                if keys.is_empty() {
+                                                    "this rule takes only `severity`".to_string()
+                                                } else {
+                                                    format!(
+                                                        "options: severity, {}",
+                                                        keys.join(", ")
+                                                    )
+                                                }
+                                            },
+                                        ),
                                     ),
                                 );
                             }
@@ -182,18 +195,32 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
         let p = format!("/settings/suppress/{i}");
         let at = r.string(&format!("{p}/at"));
         if let Some(name) = &at {
-            let known = s.layers.iter().any(|l| &l.name == name)
+            let present = s.layers.iter().any(|l| &l.name == name)
                 || s.materials.contains_key(name)
                 || s.net_classes.iter().any(|c| &c.name == name)
                 || s.matched_groups.iter().any(|g| &g.name == name)
-                || s.foils.contains_key(name)
-                || r.unusable.contains(name);
-            if !known {
+                || s.foils.contains_key(name);
+            // An element left out for its own input error takes its
+            // suppressions with it (they would only be reported unused).
+            if !present && r.lost(name) {
+                continue;
+            }
+            if !present {
                 r.error(
                     &format!("{p}/at"),
                     format!("suppression names `{name}`, which is not a layer, material, foil, net class or matched group of this file"),
                     "nothing by that name",
-                    None,
+                    crate::suggest::closest(
+                        name,
+                        s.layers
+                            .iter()
+                            .map(|l| l.name.as_str())
+                            .chain(s.materials.keys().map(String::as_str))
+                            .chain(s.net_classes.iter().map(|c| c.name.as_str()))
+                            .chain(s.matched_groups.iter().map(|g| g.name.as_str()))
+                            .chain(s.foils.keys().map(String::as_str)),
+                    )
+                    .map(crate::suggest::did_you_mean),
                 );
                 continue;
             }
@@ -216,7 +243,12 @@ pub(super) fn read_settings(r: &mut Reader<'_>, s: &Stackup, rules: &[RuleSpec])
                     at,
                     format!("suppression names `{}`, which is not a rule", sp.rule),
                 )
-                .label("unknown rule"),
+                .label("unknown rule")
+                .with_help(crate::suggest::help_for(
+                    &sp.rule,
+                    rules.iter().map(|x| x.name),
+                    || format!("rules: {}", names()),
+                )),
             );
         }
     }

@@ -126,6 +126,9 @@ impl Diagnostic for Related {
     }
 }
 
+/// The header line miette writes above a related snippet without a code.
+const RELATED_HEADER: &str = "\nAdvice: \n";
+
 /// Secondary labels further than this many lines from the primary span get
 /// their own snippet instead of stretching one snippet over the gap.
 const NEAR_LINES: usize = 4;
@@ -250,7 +253,12 @@ pub fn render(findings: &[Finding], db: &SourceDb, opts: HumanOptions) -> String
             related,
         };
         let mut out = String::new();
-        if handler.render_report(&mut out, &rendered).is_err() {
+        if handler.render_report(&mut out, &rendered).is_ok() {
+            // miette heads each related snippet with its severity and code;
+            // ours have no code, which leaves a line that says only
+            // "Advice: ". The snippet's own `☞` line says it all.
+            out = out.replace(RELATED_HEADER, "\n");
+        } else {
             let (line, col) = primary.lines.line_col(&file.text, f.primary.span.start);
             out.push_str(&format!(
                 "{}:{line}:{col}: {}[{}]: {}\n",

@@ -13,6 +13,9 @@ struct Row<'a> {
     net_class: &'a str,
     structure: &'a str,
     layer: &'a str,
+    /// The planes the line was solved over, top to bottom (empty when it
+    /// has no cross-section).
+    reference_layers: Vec<&'a str>,
     width_um: f64,
     spacing_um: Option<f64>,
     frequency_ghz: f64,
@@ -133,6 +136,7 @@ fn rows<'a>(s: &'a Stackup, a: &'a Analysis, length: Option<f64>) -> Vec<Row<'a>
             net_class: &nc.name,
             structure: nc.structure.as_str(),
             layer: &nc.layer,
+            reference_layers: reference_layers(s, ca),
             width_um: round(nc.width * 1e6, 2),
             spacing_um: nc.spacing.map(|v| round(v * 1e6, 2)),
             frequency_ghz: round(ca.frequency / 1e9, 4),
@@ -264,6 +268,24 @@ pub fn json(items: &[(&str, &Stackup, &Analysis)], length: Option<f64>) -> Strin
 }
 
 /// Plain text table.
+/// The names of the planes a class's line was solved over, top to bottom.
+fn reference_layers<'a>(s: &'a Stackup, ca: &ClassAnalysis) -> Vec<&'a str> {
+    ca.geometry.as_ref().map_or(Vec::new(), |g| {
+        g.reference_layers()
+            .into_iter()
+            .map(|i| s.layers[i].name.as_str())
+            .collect()
+    })
+}
+
+/// The reference-layer column of the impedance tables (the fabricator's
+/// "signal layer over reference" pairing): "L2/L4" for a line between two
+/// planes, "L2" over one; `None` without a cross-section.
+pub fn reference_column(s: &Stackup, ca: &ClassAnalysis) -> Option<String> {
+    let r = reference_layers(s, ca);
+    (!r.is_empty()).then(|| r.join("/"))
+}
+
 pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> String {
     let mut out = format!(
         "{name}{}\n",
@@ -280,6 +302,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
         "net class",
         "structure",
         "layer",
+        "ref",
         "W/S um",
         "f GHz",
         "target",
@@ -290,7 +313,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
         "dB/mm",
         "W for target",
     ];
-    let mut lines: Vec<[String; 12]> = Vec::new();
+    let mut lines: Vec<[String; 13]> = Vec::new();
     for (nc, ca) in s.net_classes.iter().zip(&a.classes) {
         let ws = match nc.spacing {
             Some(sp) => format!("{:.0}/{:.0}", nc.width * 1e6, sp * 1e6),
@@ -315,6 +338,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
             nc.name.clone(),
             nc.structure.as_str().to_string(),
             nc.layer.clone(),
+            reference_column(s, ca).unwrap_or_else(|| "—".into()),
             ws,
             ghz(ca.frequency),
             nc.impedance.map_or("—".into(), |t| {

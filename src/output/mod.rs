@@ -1,5 +1,6 @@
 //! Emitters: they consume the finished list of findings and rule metadata.
 
+pub mod concise;
 pub mod coupons;
 pub mod escape;
 pub mod github;

@@ -16,6 +16,7 @@ mod impedance_off_target;
 mod loss_budget;
 mod material_data_not_causal;
 mod mirror_symmetry;
+mod modulation_assumed;
 mod propagation_skew;
 mod reference_plane;
 mod roughness_drift;
@@ -176,6 +177,7 @@ pub fn registry() -> &'static [&'static dyn Rule] {
         &material_data_not_causal::MaterialDataNotCausal,
         &coupon_disagrees::CouponDisagrees,
         &tolerance_stack::ImpedanceToleranceStack,
+        &modulation_assumed::ModulationAssumed,
     ]
 }
 

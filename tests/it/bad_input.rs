@@ -26,6 +26,9 @@ struct Case {
     /// The file the finding is in, when it is not the stackup itself
     /// (a broken library).
     in_file: Option<&'static str>,
+    /// The finding's help text, exactly, where it matters (the "did you
+    /// mean" of a misspelt name, or that none is guessed).
+    help: Option<&'static str>,
 }
 
 const fn case(
@@ -42,6 +45,15 @@ const fn case(
         column,
         span,
         in_file: None,
+        help: None,
+    }
+}
+
+/// A case whose help text is given exactly.
+const fn with_help(c: Case, help: &'static str) -> Case {
+    Case {
+        help: Some(help),
+        ..c
     }
 }
 
@@ -61,7 +73,8 @@ const CASES: &[Case] = &[
     case("alias-bomb.stackup.yaml", "expands to more than 200000 nodes", 9, 10, Some("*a4")),
     case("nesting-100.stackup.yaml", "nests deeper than 64 levels", 5, 72, Some("[")),
     // Units and numbers.
-    case("unit-unknown.stackup.yaml", "unknown unit `furlong`", 23, 18, Some("4 furlong")),
+    // No unit is near `furlong`: the help names the units instead of guessing.
+    with_help(case("unit-unknown.stackup.yaml", "unknown unit `furlong`", 23, 18, Some("4 furlong")), "write dielectric thickness as a length (mm, um, mil, in, m)"),
     case("unit-wrong-dimension.stackup.yaml", "`GHz` is not a unit of a length", 23, 18, Some("4 GHz")),
     case("unit-bare-number.stackup.yaml", "`thickness` is the bare number 0.2", 23, 18, Some("0.2")),
     case("unit-missing-copper.stackup.yaml", "copper thickness: a bare number is ambiguous here", 17, 18, Some("\"35\"")),
@@ -85,7 +98,8 @@ const CASES: &[Case] = &[
     case("fill-150-percent.stackup.yaml", "copper fill must lie between 0 and 1 (0 % to 100 %), got 150 %", 28, 13, Some("150 %")),
     // Names that do not resolve.
     case("material-missing.stackup.yaml", "material `fr5` is not defined", 22, 17, Some("fr5")),
-    case("foil-unknown.stackup.yaml", "foil `std-rtf` is not defined", 18, 35, Some("std-rtf")),
+    // Too far from `std-ed` for a guess: the help lists the foils.
+    with_help(case("foil-unknown.stackup.yaml", "foil `std-rtf` is not defined", 18, 35, Some("std-rtf")), "defined foils: std-ed"),
     // Measured coupons: every bad Touchstone file is named at the stackup's
     // entry for it, with the file's line, and nothing is analysed.
     case("coupon-one-port-in-s2p.stackup.yaml", "line 3: frequency point 1 (line 3) holds 3 values, expected 9", 38, 13, Some("coupons/one-port-in-s2p.s2p")),
@@ -107,7 +121,8 @@ const CASES: &[Case] = &[
     case("huray-half-sphere-data.stackup.yaml", "a fitted Huray model needs both sphere keys; `huray-surface-ratio` is missing", 14, 19, Some("0.5 um")),
     case("huray-data-without-huray.stackup.yaml", "sphere data of a Huray model without `loss-model: huray`", 13, 19, Some("0.5 um")),
     case("layer-name-duplicate.stackup.yaml", "layer name `L1` is used twice (first at line 14)", 24, 11, Some("L1")),
-    case("netclass-layer-unknown.stackup.yaml", "there is no layer named `L7`", 31, 12, Some("L7")),
+    // `L1` and `L2` are equally near `L7`: no guess between them.
+    with_help(case("netclass-layer-unknown.stackup.yaml", "there is no layer named `L7`", 31, 12, Some("L7")), "copper layers: L1, L2"),
     case("netclass-layer-dielectric.stackup.yaml", "layer `core` is a dielectric", 31, 12, Some("core")),
     case("reference-unknown.stackup.yaml", "there is no layer named `L9`", 34, 22, Some("L9")),
     case("library-missing.stackup.yaml", "material library `no-such.materials.yaml` does not exist", 6, 5, Some("no-such.materials.yaml")),
@@ -117,9 +132,9 @@ const CASES: &[Case] = &[
     case("missing-layers.stackup.yaml", "the file is missing the required key `layers`", 3, 1, None),
     case("missing-width.stackup.yaml", "the `net-classes` entry named `se50` is missing the required key `width`", 29, 5, None),
     case("missing-role.stackup.yaml", "`copper` is missing the required key `role`", 25, 5, Some("copper")),
-    case("unknown-key-typo.stackup.yaml", "unknown key `thicknes` in `dielectric`", 23, 7, Some("thicknes")),
-    case("unknown-key-optional.stackup.yaml", "unknown key `platted` in `copper`", 19, 7, Some("platted")),
-    case("structure-enum.stackup.yaml", "the text \"strip-line\", which is not one of", 30, 16, Some("strip-line")),
+    with_help(case("unknown-key-typo.stackup.yaml", "unknown key `thicknes` in `dielectric`", 23, 7, Some("thicknes")), "did you mean `thickness`?"),
+    with_help(case("unknown-key-optional.stackup.yaml", "unknown key `platted` in `copper`", 19, 7, Some("platted")), "did you mean `plated`?"),
+    with_help(case("structure-enum.stackup.yaml", "the text \"strip-line\", which is not one of", 30, 16, Some("strip-line")), "did you mean `stripline`?"),
     case("version-2.stackup.yaml", "`stackup-lint` must be 1, found the number 2", 3, 15, Some("2")),
     // No version key: not read as a stackup at all, and not quoted beyond
     // a short excerpt of its first line (it could be any file).
@@ -130,17 +145,27 @@ const CASES: &[Case] = &[
     // Net classes.
     case("diff-no-spacing.stackup.yaml", "differential net class `se50` needs `spacing`", 29, 5, None),
     case("coplanar-no-gap.stackup.yaml", "coplanar net class `se50` needs `gap`", 29, 5, None),
-    case("datarate-no-modulation.stackup.yaml", "a data rate needs `modulation: nrz` or `modulation: pam4`", 34, 16, Some("25 Gbps")),
     case("etch-factor-etched-away.stackup.yaml", "etch factor 0.1 on 35.0 µm copper leaves no top width", 34, 18, Some("0.1")),
     case("top-width-wider.stackup.yaml", "top width 350.0 µm is wider than the base width 300.0 µm", 34, 16, Some("0.35 mm")),
     // Settings.
     case("settings-unknown-rule.stackup.yaml", "there is no rule named `no-such-rule`", 36, 5, Some("no-such-rule")),
-    case("settings-unknown-option.stackup.yaml", "rule `broadside-signal-layers` has no option `min-separation`", 38, 7, Some("min-separation")),
     case("suppress-no-reason.stackup.yaml", "entry 1 of `suppress` is missing the required key `reason`", 36, 7, None),
     case("suppress-unknown-rule.stackup.yaml", "suppression names `no-such-rule`, which is not a rule", 36, 13, Some("no-such-rule")),
     // Positions survive CRLF line ends and multi-byte characters.
     case("crlf-line-endings.stackup.yaml", "unknown unit `furlong`", 32, 12, Some("0.3 furlong")),
     case("non-ascii-before-error.stackup.yaml", "foil `stöd` is not defined", 15, 74, Some("stöd")),
+    // Suggestions: a misspelt or habitual name gets the one it most likely
+    // means (src/suggest.rs), one case per kind of name.
+    with_help(case("suggest-key-alias.stackup.yaml", "unknown key `diff-spacing` in the `net-classes` entry named `se50`", 33, 5, Some("diff-spacing")), "did you mean `spacing`?"),
+    with_help(case("suggest-settings-rule.stackup.yaml", "there is no rule named `impedance-of-target`", 36, 5, Some("impedance-of-target")), "did you mean `impedance-off-target`?"),
+    with_help(case("suggest-suppress-rule.stackup.yaml", "suppression names `broadside-signal-layer`, which is not a rule", 36, 13, Some("broadside-signal-layer")), "did you mean `broadside-signal-layers`?"),
+    with_help(case("suggest-material.stackup.yaml", "material `fr-4` is not defined in this file or its libraries", 22, 17, Some("fr-4")), "did you mean `fr4`?"),
+    with_help(case("suggest-foil.stackup.yaml", "foil `std-edd` is not defined", 18, 35, Some("std-edd")), "did you mean `std-ed`?"),
+    with_help(case("suggest-layer.stackup.yaml", "there is no layer named `l1`", 31, 12, Some("l1")), "did you mean `L1`?"),
+    with_help(case("suggest-net-class.stackup.yaml", "there is no net class named `se5`", 40, 51, Some("se5")), "did you mean `se50`?"),
+    with_help(case("suggest-unit.stackup.yaml", "dielectric thickness: unknown unit `mill`", 23, 18, Some("8 mill")), "did you mean `8 mil`?"),
+    with_help(case("suggest-unit-word.stackup.yaml", "dielectric thickness: unknown unit `millimetres`", 23, 18, Some("0.2 millimetres")), "did you mean `0.2 mm`?"),
+    with_help(case("settings-unknown-option.stackup.yaml", "rule `broadside-signal-layers` has no option `min-separation`", 38, 7, Some("min-separation")), "did you mean `min-separation-ratio`?"),
 ];
 
 fn root() -> PathBuf {
@@ -234,6 +259,11 @@ fn check_case(c: &Case) -> Result<(), String> {
     let message = f["message"].as_str().unwrap_or_default();
     if !message.contains(c.message) {
         return Err(format!("message {message:?} lacks {:?}", c.message));
+    }
+    if let Some(want) = c.help {
+        if f["help"].as_str() != Some(want) {
+            return Err(format!("help {}, expected {want:?}", f["help"]));
+        }
     }
     if message.starts_with(|ch: char| ch.is_uppercase()) || message.ends_with('.') {
         return Err(format!(
@@ -364,6 +394,46 @@ fn baseline_loads_cleanly() {
         .collect();
     assert!(input.is_empty(), "{input:#?}");
     assert!(matches!(out.status.code(), Some(0 | 1)));
+}
+
+/// A layer may carry `notes:` (free text such as the ply construction):
+/// the baseline with notes loads as cleanly as without, and notes that are
+/// not text are a schema error at the value.
+#[test]
+fn layer_notes_are_free_text() {
+    let baseline = std::fs::read_to_string(root().join("tests/common/baseline.stackup.yaml"))
+        .expect("the baseline exists");
+    let with_notes = |notes: &str| {
+        baseline.replacen(
+            "  - name: core\n",
+            &format!("  - name: core\n    notes: {notes}\n"),
+            1,
+        )
+    };
+    let dir = tempfile::tempdir().expect("temporary directory");
+    let input = |name: &str, text: &str| -> Vec<Value> {
+        std::fs::write(dir.path().join(name), text).unwrap();
+        let out = run(
+            dir.path(),
+            &["check", "--root", ".", name, "--format", "json"],
+        );
+        no_panic(&out).unwrap();
+        let report: Value = serde_json::from_slice(&out.stdout).expect("JSON report");
+        report["findings"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .filter(|f| f["rule"] == "invalid-input")
+            .cloned()
+            .collect()
+    };
+    let text = with_notes("2 plies of 1080-style glass, resin rich (demo note)");
+    assert!(text.contains("notes:"));
+    assert_eq!(input("notes.stackup.yaml", &text), Vec::<Value>::new());
+    let errors = input("list.stackup.yaml", &with_notes("[two plies]"));
+    assert_eq!(errors.len(), 1, "{errors:#?}");
+    assert_eq!(errors[0]["message"], "`notes` should be text, found a list");
+    assert_eq!(errors[0]["line"], 20);
 }
 
 #[test]

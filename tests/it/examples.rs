@@ -20,6 +20,8 @@ fn clean_board_passes() {
 fn flawed_board_fails() {
     let (code, out, err) = run(&["check", "examples/line-card-10l", "--color", "never"]);
     assert_eq!(code, Some(1), "{err}");
+    // A related snippet is not headed by a line that says only "Advice:".
+    assert!(!out.lines().any(|l| l.trim_end() == "Advice:"), "{out}");
     insta::assert_snapshot!("line_card_human", out);
 }
 
@@ -134,4 +136,38 @@ fn first_stackup_walk_through_behaves_as_written() {
         out.contains("0 errors, 0 warnings, 0 notes in 1 file"),
         "{out}"
     );
+}
+
+/// `--format concise` of both demo boards: one line per finding, placed
+/// where the terminal format places it (line and column checked against
+/// the human output's `╭─[file:line:col]` headers below).
+#[test]
+fn concise_output_of_the_demo_boards() {
+    let (code, out, err) = run(&["check", "examples/", "--format", "concise"]);
+    assert_eq!(code, Some(1), "{err}");
+    insta::assert_snapshot!("demo_boards_concise", out);
+    // Every finding line starts with a place the human format also shows.
+    let (_, human, _) = run(&["check", "examples/", "--color", "never"]);
+    let lines: Vec<&str> = out.lines().collect();
+    let (summary, findings) = lines.split_last().unwrap();
+    assert!(summary.contains("in 2 files"), "{summary}");
+    for line in findings {
+        let mut parts = line.splitn(4, ':');
+        let place = format!(
+            "[{}:{}:{}]",
+            parts.next().unwrap(),
+            parts.next().unwrap(),
+            parts.next().unwrap()
+        );
+        assert!(human.contains(&place), "{place} not in the human output");
+        let rest: Vec<&str> = parts.next().unwrap().trim_start().splitn(3, ' ').collect();
+        assert!(
+            ["error", "warning", "note"].contains(&rest[0]),
+            "severity of {line}"
+        );
+        assert!(
+            human.contains(&format!("\n{}\n", rest[1])),
+            "rule of {line}"
+        );
+    }
 }

@@ -253,8 +253,8 @@ fn mesh_budget_reports_the_class_and_the_option() {
     let out = run(
         dir.path(),
         &[
-            "--no-cache",
             "check",
+            "--no-cache",
             "--format",
             "json",
             "--max-mesh-nodes",
@@ -274,8 +274,8 @@ fn mesh_budget_reports_the_class_and_the_option() {
     let out = run(
         dir.path(),
         &[
-            "--no-cache",
             "check",
+            "--no-cache",
             "--format",
             "json",
             "board.stackup.yaml",

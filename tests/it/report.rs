@@ -220,6 +220,29 @@ fn report_numbers_agree_with_the_impedance_command() {
                 "{name}: {h} {got} in the report, {want} from `impedance`"
             );
         }
+        // The reference column is the planes the `impedance` JSON names.
+        let refs: Vec<&str> = c["reference_layers"]
+            .as_array()
+            .unwrap()
+            .iter()
+            .map(|r| r.as_str().unwrap())
+            .collect();
+        assert_eq!(
+            row[col("reference")].trim_matches(['|', ' ']),
+            refs.join("/"),
+            "{name}"
+        );
+        // Read off the board's layer roles by hand: L2, L5, L6, L8 are the
+        // planes; `mgmt-se` on L9 has none below (L10 is a signal layer),
+        // `refclk` names the signal layer L3 and is solved over L2.
+        let want = match name {
+            "host-56g-pam4" => "L2/L5",
+            "line-56g-pam4" => "L6/L8",
+            "mgmt-se" => "L8",
+            "cal-line-28g" | "refclk" => "L2",
+            other => panic!("unexpected class {other}"),
+        };
+        assert_eq!(refs.join("/"), want, "{name}");
         // A pair's common-mode impedance is half its even-mode impedance.
         if let Some(ze) = c["smooth"]["z_even_ohm"].as_f64() {
             let zc = c["smooth"]["z_common_ohm"].as_f64().unwrap();

@@ -215,7 +215,9 @@ struct PageResult {
     screenshot: Vec<u8>,
 }
 
-fn load_page(b: &mut Browser, url: &str) -> PageResult {
+/// Attach to the browser's page, open `url` and wait until it has loaded;
+/// returns the session.
+fn open_page(b: &mut Browser, url: &str) -> String {
     let targets = b.call(None, "Target.getTargets", json!({}));
     let target = targets["targetInfos"]
         .as_array()
@@ -235,6 +237,12 @@ fn load_page(b: &mut Browser, url: &str) -> PageResult {
     b.events.clear();
     b.call(s, "Page.navigate", json!({"url": url}));
     b.wait_event("Page.loadEventFired");
+    session
+}
+
+fn load_page(b: &mut Browser, url: &str) -> PageResult {
+    let session = open_page(b, url);
+    let s = Some(session.as_str());
     // Let late console output and image decodes arrive.
     b.call(
         s,
@@ -299,6 +307,72 @@ fn ink(png_bytes: &[u8]) -> (f64, usize, (u32, u32)) {
         colours.len(),
         (info.width, info.height),
     )
+}
+
+/// What the page looks like to the browser's print engine: the computed
+/// styles that matter on paper, and the number of pages of its PDF.
+/// A4's width inside 0.4-inch margins, CSS px: (210 / 25.4 − 0.8) × 96.
+const A4_CONTENT_PX: u32 = 717;
+
+struct Printed {
+    styles: Value,
+    pages: usize,
+}
+
+fn print_page(b: &mut Browser, url: &str) -> Printed {
+    let session = open_page(b, url);
+    let s = Some(session.as_str());
+    b.call(s, "Emulation.setEmulatedMedia", json!({"media": "print"}));
+    // The width an A4 page leaves inside the print engine's default
+    // margins: 210 mm less 2 × 0.4 in, at 96 CSS px per inch (CSS Values
+    // and Units, absolute lengths).
+    b.call(
+        s,
+        "Emulation.setDeviceMetricsOverride",
+        json!({"width": A4_CONTENT_PX, "height": 1000, "deviceScaleFactor": 1, "mobile": false}),
+    );
+    // Everything a reader could press or scroll, and where pages break.
+    let probe = r#"JSON.stringify((() => {
+        const shown = e => e && getComputedStyle(e).display !== 'none';
+        const scrolls = [...document.querySelectorAll('*')].filter(e => {
+            const c = getComputedStyle(e);
+            return ['auto', 'scroll'].includes(c.overflowX) || ['auto', 'scroll'].includes(c.overflowY);
+        }).map(e => e.tagName + '.' + e.className);
+        const sections = [...document.querySelectorAll('main > section')];
+        return {
+            switch_shown: shown(document.querySelector('.switch')),
+            checkbox_shown: shown(document.querySelector('#to-scale')),
+            nav_shown: shown(document.querySelector('nav')),
+            drawings_shown: [...document.querySelectorAll('.xs figure')].filter(shown).length,
+            scrolls,
+            sections: sections.length,
+            width: document.documentElement.scrollWidth,
+            widest: [...document.querySelectorAll('main *')]
+                .filter(e => e.getBoundingClientRect().right > innerWidth + 1)
+                .map(e => e.tagName + '.' + e.className).slice(0, 5),
+            breaks: sections.map(e => getComputedStyle(e).breakBefore),
+        };
+    })())"#;
+    let v = b.call(
+        s,
+        "Runtime.evaluate",
+        json!({"expression": probe, "returnByValue": true}),
+    );
+    let styles: Value = serde_json::from_str(v["result"]["value"].as_str().unwrap()).unwrap();
+    let pdf = b.call(s, "Page.printToPDF", json!({"printBackground": true}));
+    let pdf = base64::engine::general_purpose::STANDARD
+        .decode(pdf["data"].as_str().unwrap())
+        .unwrap();
+    // Each page is one `/Type /Page` object (ISO 32000-1, 7.7.3.3); the
+    // page tree's nodes are `/Type /Pages`.
+    let text = String::from_utf8_lossy(&pdf);
+    let pages = text.matches("/Type /Page").count() - text.matches("/Type /Pages").count();
+    b.call(
+        None,
+        "Target.detachFromTarget",
+        json!({"sessionId": session}),
+    );
+    Printed { styles, pages }
 }
 
 #[test]
@@ -366,6 +440,31 @@ fn report_page_renders_in_headless_chromium() {
         fraction * 100.0
     );
     assert!(colours > 50, "screenshot has only {colours} colours");
+
+    // Printed: no switch, checkbox or navigation, nothing that scrolls, one
+    // of the two drawings, and every section after the first on a new page.
+    let p = print_page(&mut b, &format!("file://{}", page.display()));
+    let st = &p.styles;
+    assert_eq!(st["switch_shown"], json!(false), "{st}");
+    assert_eq!(st["checkbox_shown"], json!(false), "{st}");
+    assert_eq!(st["nav_shown"], json!(false), "{st}");
+    assert_eq!(st["drawings_shown"], json!(1), "{st}");
+    assert_eq!(st["scrolls"], json!([]), "{st}");
+    // Nothing wider than the page: what does not scroll must fit.
+    assert!(
+        st["width"].as_u64().unwrap() <= u64::from(A4_CONTENT_PX),
+        "{st}"
+    );
+    let sections = st["sections"].as_u64().unwrap() as usize;
+    assert!(sections >= 5, "{st}");
+    eprintln!("printed: {} pages for {sections} sections", p.pages);
+    let breaks = st["breaks"].as_array().unwrap();
+    assert!(breaks[1..].iter().all(|b| b == "page"), "{st}");
+    assert!(
+        p.pages >= sections,
+        "{} pages for {sections} sections",
+        p.pages
+    );
     if let Ok(keep) = std::env::var("STACKUP_LINT_KEEP_SCREENSHOT") {
         std::fs::write(keep, &r.screenshot).unwrap();
     }

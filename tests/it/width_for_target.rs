@@ -16,7 +16,7 @@ use std::path::Path;
 fn impedance(file: &Path) -> Vec<serde_json::Value> {
     let o = common::output(
         common::command(common::root())
-            .args(["--no-cache", "impedance", "--format", "json"])
+            .args(["impedance", "--no-cache", "--format", "json"])
             .arg(file),
     );
     assert!(

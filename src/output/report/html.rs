@@ -1,6 +1,8 @@
 //! The report as one self-contained HTML page: inline CSS and inline SVG,
 //! no script, no external resource. The cross-section switch between
-//! exaggerated and to-scale heights is a CSS-only checkbox.
+//! exaggerated and to-scale heights is a CSS-only checkbox. Printed, the
+//! page drops the navigation and the switch (the drawing shown stays),
+//! scrolls nothing and starts each section on a new page.
 
 use std::fmt::Write as _;
 
@@ -35,6 +37,26 @@ figcaption { color:var(--muted); font-size:12px; margin-top:2px; }
 #to-scale:checked ~ .readable { display:none; }
 #to-scale:not(:checked) ~ .scaled { display:none; }
 footer { color:var(--muted); font-size:12px; padding:0 28px 24px; }
+@media print {
+  /* Paper: no navigation or switch to press, nothing to scroll, each
+     section from a new page, the row tones kept. */
+  * { -webkit-print-color-adjust:exact; print-color-adjust:exact; }
+  body { background:#fff; font-size:11px; }
+  header { background:none; color:var(--ink); padding:0 0 6px; border-bottom:2px solid var(--band); }
+  header p { color:var(--muted); }
+  nav, .switch, #to-scale { display:none; }
+  main { padding:0; max-width:none; }
+  section { break-before:page; }
+  section:first-of-type { break-before:auto; }
+  h2, h3 { break-after:avoid; }
+  tr, figure { break-inside:avoid; }
+  figure, figure.plot { overflow:visible; max-width:100%; }
+  svg { max-width:100%; height:auto; }
+  table { width:100%; font-size:9px; }
+  th, td { padding:2px 3px; white-space:normal; }
+  td.num { white-space:nowrap; }
+  footer { padding:8px 0 0; }
+}
 "#;
 
 fn is_number(cell: &str) -> bool {

@@ -19,10 +19,19 @@ pub(super) fn opt(v: Option<String>) -> String {
     v.unwrap_or_else(|| "—".into())
 }
 
+/// "An 8-layer board", "A 10-layer board": a board is counted in its
+/// copper layers, as boards are named, with the article its spoken number
+/// takes (eight, eleven, eighteen and the eighties start with a vowel).
+fn board_layers(copper: usize) -> String {
+    let vowel = copper == 11 || copper == 18 || copper.to_string().starts_with('8');
+    format!("{} {copper}-layer board", if vowel { "An" } else { "A" })
+}
+
 pub(super) fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
     let copper = s.copper_indices().len();
     let mut text = format!(
-        "{} layers ({} copper, {} dielectric), {} thick as pressed",
+        "{} ({} layers of build: {} copper, {} dielectric), {} thick as pressed",
+        board_layers(copper),
         s.layers.len(),
         copper,
         s.layers.len() - copper,
@@ -59,7 +68,7 @@ pub(super) fn summary_section(s: &Stackup, findings: &[Finding]) -> Section {
 /// weight, material or foils, and the running height from the bottom.
 pub(super) fn layer_table(s: &Stackup) -> Table {
     use crate::model::LayerKind;
-    use crate::units::ounce_thickness;
+    use crate::units::fmt_copper_weight;
     let mut t = Table::new(&[
         "#",
         "layer",
@@ -75,7 +84,7 @@ pub(super) fn layer_table(s: &Stackup) -> Table {
         let th = s.thickness(k);
         let (kind, what) = match &layer.kind {
             LayerKind::Copper(c) => {
-                let mut what = format!("{:.2} oz", c.thickness / ounce_thickness());
+                let mut what = fmt_copper_weight(c.thickness);
                 if let Some(fill) = c.fill {
                     let _ = write!(what, ", {:.0} % copper", fill * 100.0);
                 }
@@ -224,6 +233,7 @@ pub(super) fn impedance_section(
         "net class",
         "structure",
         "layer",
+        "reference",
         "W / S µm",
         "f GHz",
         "target Ω",
@@ -277,6 +287,7 @@ pub(super) fn impedance_section(
                 nc.name.clone(),
                 nc.structure.as_str().to_string(),
                 nc.layer.clone(),
+                opt(crate::output::impedance::reference_column(s, ca)),
                 ws,
                 ghz(ca.frequency),
                 opt(target),
@@ -727,4 +738,20 @@ pub(super) fn coupons_section(s: &Stackup, a: &Analysis, stem: &str) -> Option<S
         title: "Measured coupons",
         blocks,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::board_layers;
+
+    #[test]
+    fn board_layers_take_the_article_of_their_spoken_number() {
+        assert_eq!(board_layers(8), "An 8-layer board");
+        assert_eq!(board_layers(11), "An 11-layer board");
+        assert_eq!(board_layers(18), "An 18-layer board");
+        assert_eq!(board_layers(80), "An 80-layer board");
+        assert_eq!(board_layers(1), "A 1-layer board");
+        assert_eq!(board_layers(10), "A 10-layer board");
+        assert_eq!(board_layers(28), "A 28-layer board");
+    }
 }

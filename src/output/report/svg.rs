@@ -321,7 +321,7 @@ pub fn cross_section(s: &Stackup, a: &Analysis, rows: &[DielectricRow], to_scale
     let board_bottom = y;
     let height = board_bottom.max(next_label_y) + 44.0;
     let mut total = format!(
-        "Board {} over {} layers",
+        "Board {} over {} layers of build",
         fmt_length(s.total_thickness()),
         s.layers.len()
     );
