@@ -93,14 +93,13 @@ pub const EPOXY_RESIN_DK: f64 = 3.2;
 /// "E-glass density g/cm3 handbook", found a secondary text giving specific
 /// gravity 2.54 and makers' data sheets, no handbook table).
 pub const E_GLASS_DENSITY: f64 = 2540.0;
-/// Density of a cured unfilled epoxy resin, 1200 kg/m³ (1.1-1.3 g/cm³; from
-/// memory; searched: "cured epoxy resin density g/cm3", found K. G. Budinski
-/// and M. K. Budinski, *Engineering Materials*, Prentice Hall 1999, as
-/// quoted by Princeton University's MAE 324 course glossary ("Epoxy"):
-/// "a density of circa 1.3 Mg/m³", the upper end of the range recalled, and
-/// no table of the range). Filled resins are denser: give the real value
-/// when known.
-pub const EPOXY_RESIN_DENSITY: f64 = 1200.0;
+/// Density of a cured epoxy resin, 1300 kg/m³: "Epoxies have a density of
+/// circa 1.3 Mg/m³" (K. G. Budinski and M. K. Budinski, *Engineering
+/// Materials*, Prentice Hall 1999, as quoted by Princeton University's MAE
+/// 324 course glossary, "Epoxy"). It was 1200 kg/m³, the middle of a range
+/// of 1.1-1.3 g/cm³ recalled without a document. Filled resins are denser:
+/// give the real value when known.
+pub const EPOXY_RESIN_DENSITY: f64 = 1300.0;
 
 /// Lichtenecker logarithmic mixing rule: ln eps = sum_i v_i ln eps_i, with
 /// v_i the volume fractions (summing to 1) and eps_i the component Dk values.
