@@ -99,8 +99,10 @@ fn mode_loss(
     // (`loss-model:`; Hammerstad-Bekkadal by default, which saturates at
     // 2). The Cannonball-Huray factor with r = Rz/4.83 gives about 6 for
     // standard ED foil at 14 GHz, well above the 2-3 usually measured
-    // (from memory, not searched), so it is not the default until
-    // calibrated; see crates/stackup-physics/README.md.
+    // (from memory; searched: measured loss enhancement of rough ED foil,
+    // measured Huray factors; found only makers' pages, no paper with such
+    // figures), so it is not the default until calibrated; see
+    // crates/stackup-physics/README.md.
     let k_of = |face: &super::section::LineFace| -> f64 {
         let sf: RoughSurface = face.roughness.surface(true);
         let smooth = sf.rq().map_or(true, |v| v <= 0.0) && sf.rz().map_or(true, |v| v <= 0.0);

@@ -231,7 +231,11 @@ fn each_ply_is_charged_only_its_own_share() {
     // same foil: the line is solved with each ply alone raised. The two
     // shares together come to about the line's whole shift (first-order
     // perturbation: each ply's share of the field energy, Harrington,
-    // Time-Harmonic Electromagnetic Fields, 1961, sec. 7-3, from memory, not searched),
+    // Time-Harmonic Electromagnetic Fields, McGraw-Hill 1961, ch. 7
+    // "Perturbational and Variational Techniques" (the contents and sec.
+    // 7-1's wall perturbation, eq. (7-5), the shift as the energy removed
+    // over the energy stored, read in a copy; the material-perturbation
+    // section, recalled as 7-3, not found)),
     // and the thick ply's share is the smaller.
     let text = Board::new()
         .material(

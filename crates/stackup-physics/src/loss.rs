@@ -195,7 +195,11 @@ pub fn conductor_loss_microstrip_hj(
 /// 10.1109/TMTT.1968.1126691, with its correction in 16(12), p. 1064; as
 /// collected in K. C. Gupta, R. Garg, I. Bahl, P. Bhartia, *Microstrip
 /// Lines and Slotlines*, 2nd ed., Artech House 1996, ch. 2 (the equations
-/// from memory; chapter not checked, not searched). `z0` is the line's quasi-static
+/// from memory; searched: the paper's title, DOI and abstract checked in
+/// its OpenAIRE record (conductor loss with the strip's finite thickness,
+/// mixed dielectric), its equations not found; the book found only as
+/// catalogue entries (Artech House, Boston 1996), the chapter not checked).
+/// `z0` is the line's quasi-static
 /// impedance (with its dielectric), `t` > 0 the strip thickness. The ranges
 /// join with a step of several per cent (the approximations of Wheeler's
 /// formulas differ); a cross-check, not the engine's value.

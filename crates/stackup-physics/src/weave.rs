@@ -167,8 +167,13 @@ pub struct LayeredStrip {
 /// times the side's part of the charge.
 ///
 /// Source: capacitance of a layered parallel-plate capacitor (series and
-/// parallel combination; e.g. Hayt & Buck, *Engineering Electromagnetics*,
-/// the two-dielectric capacitor, from memory, not searched). Validity: wide strips
+/// parallel combination): two plies of equal thickness in series give
+/// C = (2·eps0·A/d)·k1·k2/(k1 + k2) (Ben-Gurion University of the Negev,
+/// physics exercise pool, problem e_38_3_011 "Capacitance"); layered
+/// dielectrics add as capacitors in series (Technical University of
+/// Cluj-Napoca, Electromagnetics course, solved problem 1.19). Hayt & Buck,
+/// *Engineering Electromagnetics*, recalled for the same result; searched,
+/// its section not found. Validity: wide strips
 /// (W ≫ h); used here only for the relative change of Dk between plies,
 /// with the solved eps_eff carrying the absolute value
 /// ([`filled_eps_eff`]).

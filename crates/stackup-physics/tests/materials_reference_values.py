@@ -57,6 +57,6 @@ print("Rs", Rs, "alpha_d", pi * f * sqrt(er) * tand / C0, "alpha_c", ac)
 print("# Hammerstad-Jensen 1980 current-distribution factor K_i = exp(-1.2 (Z0/eta0)^0.7), Z0 = 50")
 print("K_i", exp(-mpf("1.2") * (50 / ETA0) ** mpf("0.7")))
 
-print("# resin volume fraction at 50 % by weight, densities 1.2 / 2.54 g/cm3; Lichtenecker Dk (resin 3.5, glass 6.3)")
-v = (mpf("0.5") / mpf("1.2")) / (mpf("0.5") / mpf("1.2") + mpf("0.5") / mpf("2.54"))
+print("# resin volume fraction at 50 % by weight, densities 1.3 / 2.54 g/cm3; Lichtenecker Dk (resin 3.5, glass 6.3)")
+v = (mpf("0.5") / mpf("1.3")) / (mpf("0.5") / mpf("1.3") + mpf("0.5") / mpf("2.54"))
 print("v_resin", v, "Dk", exp(v * ln(mpf("3.5")) + (1 - v) * ln(mpf("6.3"))))

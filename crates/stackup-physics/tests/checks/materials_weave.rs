@@ -91,14 +91,24 @@ fn filled_eps_eff_tracks_hammerstad_jensen_microstrip() {
 }
 
 /// The two-dielectric parallel-plate capacitor (series plies: C = eps0·A/
-/// Σ(t_i/eps_i); Hayt & Buck, Engineering Electromagnetics, from memory, not searched):
-/// equal plies of Dk 2 and 8 make Dk 2/(1/2 + 1/8) = 3.2. A homogeneous
+/// Σ(t_i/eps_i)): for two plies of equal thickness the Ben-Gurion
+/// University of the Negev physics exercise pool, problem e_38_3_011
+/// "Capacitance", gives C = (2·eps0·A/d)·k1·k2/(k1 + k2), i.e. Dk
+/// 2·k1·k2/(k1 + k2): equal plies of Dk 2 and 8 make 3.2, of 3 and 6 make 4
+/// (Hayt & Buck, Engineering Electromagnetics, recalled for the same
+/// result; searched, its section not found). A homogeneous
 /// section keeps its Dk; a strip 0.1 mm over and 0.2 mm under its planes in
 /// one Dk holds 2/3 of its field on the thin side (capacitances 1/h).
 #[test]
 fn layered_strip_is_the_textbook_capacitor() {
     let series = layered_strip_dk(&[(1e-4, 2.0), (1e-4, 8.0)], &[]).unwrap();
     assert!((series.dk - 3.2).abs() < 1e-12, "{}", series.dk);
+    // The exercise's two-slab formula, 2·k1·k2/(k1 + k2), on other plies.
+    for (k1, k2) in [(3.0, 6.0), (3.2, 6.3), (4.6, 2.9)] {
+        let two = layered_strip_dk(&[(5e-5, k1), (5e-5, k2)], &[]).unwrap();
+        let formula = 2.0 * k1 * k2 / (k1 + k2);
+        assert!((two.dk - formula).abs() < 1e-12, "{k1}/{k2}: {}", two.dk);
+    }
     // Equal D in series: energy t/eps per ply, 0.5/0.625 and 0.125/0.625.
     assert!((series.energy_share[0] - 0.8).abs() < 1e-12);
     assert!((series.energy_share[1] - 0.2).abs() < 1e-12);
@@ -185,7 +195,10 @@ fn skew_ps_per_inch(style: &str, dk: f64) -> f64 {
 /// a glass bundle differ by several tenths in Dk on open FR-4 class
 /// weaves (glass about 6, resin about 3), giving worst-case intra-pair
 /// skew of several ps per inch, up to about 10 ps/in (measurements on open
-/// weaves reported in the trade press, from memory, not searched); spread glass cuts it
+/// weaves reported in the trade press, from memory; searched: "fiber weave
+/// effect differential skew ps per inch", papers on glass-weave skew; found
+/// only circuit-board makers' and trade-magazine pages and a tool vendor's
+/// white paper, none used); spread glass cuts it
 /// by several times. This model (no fringing, strip parallel to the weave)
 /// gives 106 7.9, 1080 9.7, 2116 10.2 ps/in at Dk 4.0 and about 1 ps/in on
 /// 1035/1067/1078/1086.

@@ -126,7 +126,8 @@ fn hammerstad_jensen_loss_is_high() {
 /// A coupled pair's odd mode attenuates more than its even mode (its
 /// currents crowd to the facing edges and its impedance is lower; coupled
 /// microstrip and stripline loss curves in Gupta, Garg, Bahl & Bhartia,
-/// *Microstrip Lines and Slotlines*, 2nd ed., ch. 8, from memory, not searched), and the
+/// *Microstrip Lines and Slotlines*, 2nd ed., ch. 8, from memory; searched:
+/// the book's contents, found only catalogue entries), and the
 /// groups of faces add up to the total.
 #[test]
 fn pair_modes_and_face_groups() {
@@ -264,7 +265,8 @@ fn scikit_rf_closed_form_disagreement() {
 }
 
 /// Pucel, Massé & Hartwig 1968 (Wheeler's rule on Wheeler's microstrip
-/// formulas; the equations from memory, not searched, see
+/// formulas; the equations from memory; the paper's record checked, its
+/// equations not found, see
 /// `conductor_loss_microstrip_pucel`) against the solved value, with the
 /// solved Z0 in both so that only the rule's derivative is compared: thin
 /// copper on a 0.5 mm substrate (5 µm, where the closed form's thin-strip
