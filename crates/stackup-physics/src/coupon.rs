@@ -813,9 +813,8 @@ pub const KJK_OPEN_END_MODEL: &str = "Kirschning-Jansen-Koster 1981 microstrip o
 ///
 /// Source: M. Kirschning, R. H. Jansen, N. H. L. Koster, "Accurate model for
 /// open end effect of microstrip lines", Electronics Letters 17(3), 1981,
-/// pp. 123–125 (volume, year and pages as in the reference list of an
-/// open-source microstrip module; the coefficients below from memory, the
-/// paper's text not found), u = W/h:
+/// pp. 123–125 (from memory, coefficients included; searched: the paper's
+/// text, not found), u = W/h:
 /// Δl/h = ξ1·ξ3·ξ5/ξ4,
 /// ξ1 = 0.434907·(εeff^0.81 + 0.26)/(εeff^0.81 − 0.189)·(u^0.8544 + 0.236)/(u^0.8544 + 0.87),
 /// ξ2 = 1 + u^0.371/(2.358·εr + 1),
