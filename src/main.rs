@@ -646,8 +646,12 @@ fn fix_command(
     only: &[String],
 ) -> ExitCode {
     if let Some(bad) = only.iter().find(|r| rules::find_meta(r).is_none()) {
+        let names: Vec<_> = rules::all_meta().iter().map(|m| m.name).collect();
+        let help = stackup_lint::suggest::help_for(bad, names, || {
+            "`stackup-lint rules` lists them".to_string()
+        });
         eprintln!(
-            "error: no rule named `{}` (`stackup-lint rules` lists them)",
+            "error: no rule named `{}`; {help}",
             output::escape::controls(bad)
         );
         return ExitCode::from(2);

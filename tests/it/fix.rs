@@ -119,6 +119,9 @@ fn fix_rule_limits_the_edits_to_that_rule() {
     let (code, _, err) = run_in(dir.path(), &["fix", LINE_CARD, "--rule", "no-such-rule"]);
     assert_eq!(code, Some(2));
     assert!(err.contains("no rule named `no-such-rule`"), "{err}");
+    let (code, _, err) = run_in(dir.path(), &["fix", LINE_CARD, "--rule", "propagation-skw"]);
+    assert_eq!(code, Some(2));
+    assert!(err.contains("did you mean `propagation-skew`"), "{err}");
 }
 
 /// The width of the off-target pair written through a YAML anchor, which
