@@ -2,7 +2,9 @@
 //! fitted to the material's data, with the validated range kept so that
 //! extrapolation can be reported.
 
-use stackup_physics::dispersion::{DielectricPoint, DjordjevicSarkar, DEFAULT_F1, DEFAULT_F2};
+use stackup_physics::dispersion::{
+    DjordjevicSarkar, MultiPoleDebye, Permittivity, DEFAULT_F1, DEFAULT_F2,
+};
 
 use crate::model::Material;
 
@@ -45,10 +47,33 @@ pub const DK_MISFIT: f64 = 0.01;
 pub const DF_MISFIT_REL: f64 = 0.15;
 pub const DF_MISFIT_ABS: f64 = 3e-4;
 
+/// The causal model a material's data are fitted with.
+#[derive(Debug, Clone)]
+enum Wideband {
+    /// One Djordjevic-Sarkar term (nearly flat Df).
+    Ds(DjordjevicSarkar),
+    /// A sum of Debye terms, for a table one term cannot meet.
+    Debye(MultiPoleDebye),
+}
+
+impl Wideband {
+    fn eval(&self, f: f64) -> Option<Permittivity> {
+        match self {
+            Wideband::Ds(m) => m.eval(f).ok(),
+            Wideband::Debye(m) => m.eval(f).ok(),
+        }
+    }
+}
+
 /// A material's wideband model.
 #[derive(Debug, Clone)]
 pub struct MaterialModel {
-    ds: Option<DjordjevicSarkar>,
+    ds: Option<Wideband>,
+    /// A table of three or more points that one Djordjevic-Sarkar term
+    /// cannot meet but a multi-pole Debye model (causal by construction)
+    /// meets within the same tolerances: its number of poles. The data are
+    /// then causal; they only vary more across the band than one term can.
+    pub multi_pole: Option<usize>,
     /// Fallback when no causal fit exists (e.g. Df too large for the band):
     /// the first data point, held constant.
     constant: (f64, f64),
@@ -65,7 +90,9 @@ pub struct MaterialModel {
 
 impl MaterialModel {
     /// Fit the model: one point by Djordjevic et al. (2001) eqs. 9-11, several
-    /// points by least squares (see `stackup_physics::dispersion`). The
+    /// points by least squares (see `stackup_physics::dispersion`); a table
+    /// of three or more points that term misses is fitted again with a
+    /// multi-pole Debye model, kept when it meets every point. The
     /// validated range is the material's `valid-from`/`valid-to`; when not
     /// given, the project's policy is one decade below the lowest data point
     /// to twice the highest ([`UNSTATED_RANGE_BELOW`], [`UNSTATED_RANGE_ABOVE`]).
@@ -74,54 +101,72 @@ impl MaterialModel {
         let hi = m.points.last().map_or(1e9, |p| p.frequency) * UNSTATED_RANGE_ABOVE;
         let valid_from = m.valid_from.unwrap_or(lo);
         let valid_to = m.valid_to.unwrap_or(hi);
+        let pts = crate::model::DkPoint::dielectric_points(&m.points);
         let fitted = if m.points.len() == 1 {
             let p = m.points[0];
             DjordjevicSarkar::fit_one_point_default(p.dk, p.df, p.frequency)
         } else {
-            let pts: Vec<DielectricPoint> = m
-                .points
-                .iter()
-                .map(|p| DielectricPoint {
-                    f: p.frequency,
-                    dk: p.dk,
-                    df: p.df,
-                })
-                .collect();
             DjordjevicSarkar::fit_table(&pts, DEFAULT_F1, DEFAULT_F2).map(|(ds, _)| ds)
         }
         .and_then(|ds| ds.with_valid_range(valid_from.min(valid_to), valid_to.max(valid_from)));
         let constant = (m.points[0].dk, m.points[0].df);
         match fitted {
             Ok(ds) => {
-                let misfits = m
-                    .points
-                    .iter()
-                    .enumerate()
-                    .filter_map(|(index, p)| {
-                        let e = ds.eval(p.frequency).ok()?;
-                        let dk_off = (e.dk - p.dk).abs() > DK_MISFIT * p.dk;
-                        let df_off =
-                            (e.df - p.df).abs() > (DF_MISFIT_REL * p.df).max(DF_MISFIT_ABS);
-                        (dk_off || df_off).then_some(PointMisfit {
-                            index,
-                            frequency: p.frequency,
-                            dk: p.dk,
-                            df: p.df,
-                            fit_dk: e.dk,
-                            fit_df: e.df,
+                let misfits_of = |w: &Wideband| -> Vec<PointMisfit> {
+                    m.points
+                        .iter()
+                        .enumerate()
+                        .filter_map(|(index, p)| {
+                            let e = w.eval(p.frequency)?;
+                            let dk_off = (e.dk - p.dk).abs() > DK_MISFIT * p.dk;
+                            let df_off =
+                                (e.df - p.df).abs() > (DF_MISFIT_REL * p.df).max(DF_MISFIT_ABS);
+                            (dk_off || df_off).then_some(PointMisfit {
+                                index,
+                                frequency: p.frequency,
+                                dk: p.dk,
+                                df: p.df,
+                                fit_dk: e.dk,
+                                fit_df: e.df,
+                            })
                         })
-                    })
-                    .collect();
-                MaterialModel {
-                    ds: Some(ds),
-                    constant,
-                    valid_from,
-                    valid_to,
-                    fit_problem: None,
-                    misfits,
+                        .collect()
+                };
+                let ds = Wideband::Ds(ds);
+                let misfits = misfits_of(&ds);
+                // Points one term cannot meet: a sum of Debye terms, kept
+                // only if it meets them all.
+                let debye = (!misfits.is_empty() && pts.len() >= 3)
+                    .then(|| MultiPoleDebye::fit(&pts).ok())
+                    .flatten()
+                    .map(Wideband::Debye)
+                    .filter(|w| misfits_of(w).is_empty());
+                match debye {
+                    Some(w) => MaterialModel {
+                        multi_pole: match &w {
+                            Wideband::Debye(d) => Some(d.poles.len()),
+                            Wideband::Ds(_) => None,
+                        },
+                        ds: Some(w),
+                        constant,
+                        valid_from,
+                        valid_to,
+                        fit_problem: None,
+                        misfits: Vec::new(),
+                    },
+                    None => MaterialModel {
+                        ds: Some(ds),
+                        multi_pole: None,
+                        constant,
+                        valid_from,
+                        valid_to,
+                        fit_problem: None,
+                        misfits,
+                    },
                 }
             }
             Err(e) => MaterialModel {
+                multi_pole: None,
                 ds: None,
                 constant,
                 valid_from,
@@ -135,7 +180,7 @@ impl MaterialModel {
     /// Dk and Df at `f`.
     pub fn at(&self, f: f64) -> DkAt {
         let extrapolated = f < self.valid_from * (1.0 - 1e-9) || f > self.valid_to * (1.0 + 1e-9);
-        match self.ds.as_ref().and_then(|ds| ds.eval(f).ok()) {
+        match self.ds.as_ref().and_then(|ds| ds.eval(f)) {
             Some(p) => DkAt {
                 dk: p.dk,
                 df: p.df,

@@ -146,20 +146,15 @@ pub(super) fn plausible_points(
     if points.len() < 2 {
         return true;
     }
-    use stackup_physics::dispersion::{DielectricPoint, DjordjevicSarkar, DEFAULT_F1, DEFAULT_F2};
-    let data: Vec<DielectricPoint> = points
-        .iter()
-        .map(|p| DielectricPoint {
-            f: p.frequency,
-            dk: p.dk,
-            df: p.df,
-        })
-        .collect();
-    let misfit = |ds: &DjordjevicSarkar| -> Option<(usize, f64, f64)> {
+    use stackup_physics::dispersion::{
+        DjordjevicSarkar, MultiPoleDebye, Permittivity, DEFAULT_F1, DEFAULT_F2,
+    };
+    let data = DkPoint::dielectric_points(points);
+    let misfit = |eval: &dyn Fn(f64) -> Option<Permittivity>| -> Option<(usize, f64, f64)> {
         // The point that misses by most, relative to what is accepted.
         let mut worst: Option<(usize, f64, f64, f64)> = None;
         for (i, p) in points.iter().enumerate() {
-            let m = ds.eval(p.frequency).ok()?;
+            let m = eval(p.frequency)?;
             let dk_ok = (FIT_DK_RELATIVE * p.dk).max(FIT_DK_ABSOLUTE);
             let df_ok = (FIT_DF_RELATIVE * p.df).max(FIT_DF_ABSOLUTE);
             let badness = ((m.dk - p.dk).abs() / dk_ok).max((m.df - p.df).abs() / df_ok);
@@ -169,8 +164,16 @@ pub(super) fn plausible_points(
         }
         worst.filter(|w| w.1 > 1.0).map(|w| (w.0, w.2, w.3))
     };
+    // A table one Djordjevic-Sarkar term misses may still be causal: a
+    // multi-pole Debye model (causal by construction) that meets it clears it.
+    let debye_meets = || {
+        data.len() >= 3
+            && MultiPoleDebye::fit(&data).is_ok_and(|m| misfit(&|f| m.eval(f).ok()).is_none())
+    };
     let problem = match DjordjevicSarkar::fit_table(&data, DEFAULT_F1, DEFAULT_F2) {
-        Ok((ds, _)) => misfit(&ds).map(|(i, dk, df)| {
+        Ok((ds, _)) => misfit(&|f| ds.eval(f).ok())
+            .filter(|_| !debye_meets())
+            .map(|(i, dk, df)| {
             let p = points[i];
             (
                 i,

@@ -327,6 +327,22 @@ pub struct DkPoint {
     pub df: f64,
 }
 
+impl DkPoint {
+    /// The points as the physics crate's fits take them.
+    pub fn dielectric_points(
+        points: &[DkPoint],
+    ) -> Vec<stackup_physics::dispersion::DielectricPoint> {
+        points
+            .iter()
+            .map(|p| stackup_physics::dispersion::DielectricPoint {
+                f: p.frequency,
+                dk: p.dk,
+                df: p.df,
+            })
+            .collect()
+    }
+}
+
 #[derive(Debug, Clone)]
 pub struct Material {
     pub name: String,

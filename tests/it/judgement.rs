@@ -759,7 +759,12 @@ fn surface_pair_eps_eff_includes_dispersion() {
 /// A table written from a causal material and rounded as data sheets
 /// round (Dk to 0.01, Df to 0.0001) is not flagged: Djordjevic et al.
 /// 2001's model evaluated at 1, 10 and 40 GHz for Dk 3.5 / Df 0.004 at
-/// 10 GHz. The same Df beside a Dk that falls twice as fast is.
+/// 10 GHz. The same Df beside a Dk that falls twice as fast is not flagged
+/// either: one Djordjevic-Sarkar term misses it, but a causal multi-pole
+/// Debye model meets it within the data-sheet tolerances (Dk 1 %), so the
+/// data are not shown to be inconsistent, and that model is used. A Dk
+/// that falls five times as fast beside the same Df is flagged: no causal
+/// model meets it.
 #[test]
 fn causal_tables_pass_and_inconsistent_ones_warn() {
     use stackup_physics::dispersion::DjordjevicSarkar;
@@ -789,7 +794,11 @@ fn causal_tables_pass_and_inconsistent_ones_warn() {
             .yaml()
     };
     assert!(of(&all(&table(1.0)), "material-data-not-causal").is_empty());
-    let f = all(&table(2.0));
+    let text = table(2.0);
+    assert!(of(&all(&text), "material-data-not-causal").is_empty());
+    let (_, a) = analysed(&text);
+    assert!(a.materials["m"].multi_pole.is_some());
+    let f = all(&table(5.0));
     assert_eq!(of(&f, "material-data-not-causal").len(), 1, "{f:?}");
 }
 

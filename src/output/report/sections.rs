@@ -466,6 +466,11 @@ pub(super) fn materials_section(s: &Stackup, a: &Analysis, stem: &str) -> Sectio
             })),
             Err(e) => figures.push(Block::Note(format!("{name}: no plot: {e}"))),
         }
+        if let Some(n) = model.multi_pole {
+            figures.push(Block::Note(format!(
+                "{name}: its points vary more across the band than one Djordjevic-Sarkar term follows; a causal sum of {n} Debye terms meets them all and is used."
+            )));
+        }
         if let Some(p) = &model.fit_problem {
             figures.push(Block::Note(format!(
                 "{name}: no causal fit ({p}); the first data point is held constant."
