@@ -335,6 +335,14 @@ impl DjordjevicSarkar {
 /// 4.6 %).
 pub const POLES_PER_DECADE: f64 = 4.0;
 
+/// Most poles, points and coordinate-descent sweeps of
+/// [`MultiPoleDebye::fit`]: bounds on the work a hostile table can cause
+/// (a project limit; real tables span a few decades, 10 to 20 poles, and
+/// converge in a few hundred sweeps).
+pub const MAX_DEBYE_POLES: usize = 48;
+pub const MAX_DEBYE_POINTS: usize = 64;
+pub const DEBYE_SWEEPS: usize = 5_000;
+
 /// A sum of Debye relaxations (a multi-pole Debye model):
 ///
 /// eps(f) = eps_inf + Σ_k Δ_k / (1 + j f/f_k),
@@ -408,7 +416,14 @@ impl MultiPoleDebye {
         let fmin = points.iter().map(|p| p.f).fold(f64::INFINITY, f64::min);
         let fmax = points.iter().map(|p| p.f).fold(0.0, f64::max);
         let (lo, hi) = ((fmin / 10.0).log10(), (fmax * 10.0).log10());
-        let n = ((hi - lo) * POLES_PER_DECADE).ceil() as usize + 1;
+        // Bounded work whatever the input: at most MAX_DEBYE_POLES poles,
+        // MAX_DEBYE_POINTS points and a fixed number of sweeps (about 10 ms).
+        if points.len() > MAX_DEBYE_POINTS {
+            return Err(InputError::new(format!(
+                "a multi-pole Debye fit takes at most {MAX_DEBYE_POINTS} points"
+            )));
+        }
+        let n = (((hi - lo) * POLES_PER_DECADE).ceil() as usize + 1).min(MAX_DEBYE_POLES);
         let poles: Vec<f64> = (0..n)
             .map(|k| 10f64.powf(lo + (hi - lo) * k as f64 / (n - 1) as f64))
             .collect();
@@ -442,7 +457,7 @@ impl MultiPoleDebye {
         // Coordinate descent for min ½xᵀHx − gᵀx, x ≥ 0.
         let mut x = vec![0.0; m];
         x[0] = points.iter().map(|p| p.dk).fold(f64::INFINITY, f64::min);
-        for _ in 0..100_000 {
+        for _ in 0..DEBYE_SWEEPS {
             let mut change: f64 = 0.0;
             for i in 0..m {
                 if h[i][i] <= 0.0 {
