@@ -74,7 +74,7 @@ pub fn hover(snap: &Snapshot, offset: usize) -> Option<String> {
     (!parts.is_empty()).then(|| parts.join("\n\n---\n\n"))
 }
 
-/// "8 mil" → "203.2 µm = 8 mil = 0.2032 mm (SI 2.032e-4 m)".
+/// "8 mil" → "203.20 µm = 8.000 mil = 0.2032 mm (SI: 2.032e-4 m)".
 fn quantity_hover(raw: &str) -> Option<String> {
     let inner = raw.trim_matches(|c| c == '"' || c == '\'');
     let (value, unit, scale) = written_unit(inner)?;
@@ -105,7 +105,7 @@ fn quantity_hover(raw: &str) -> Option<String> {
     );
     Some(if length {
         format!(
-            "`{inner}` = {:.2} µm = {:.3} mil = {:.4} mm",
+            "`{inner}` = {:.2} µm = {:.3} mil = {:.4} mm (SI: {si:e} m)",
             si * 1e6,
             si / 25.4e-6,
             si * 1e3
@@ -560,7 +560,10 @@ mod tests {
     #[test]
     fn quantities_in_si_and_usual_units() {
         let h = quantity_hover("8 mil").unwrap();
-        assert!(h.contains("203.20 µm") && h.contains("0.2032 mm"), "{h}");
+        assert!(
+            h.contains("203.20 µm") && h.contains("0.2032 mm") && h.contains("SI: 2.032e-4 m"),
+            "{h}"
+        );
         assert!(quantity_hover("\"28 GHz\"").unwrap().contains("28 GHz"));
         assert!(quantity_hover("3.5").is_none());
     }
