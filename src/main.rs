@@ -509,11 +509,7 @@ fn main() -> ExitCode {
                     return ExitCode::from(2);
                 }
             };
-            let paths = if paths.is_empty() {
-                vec![PathBuf::from(".")]
-            } else {
-                paths
-            };
+            let (paths, base) = paths_and_base(paths);
             let opts = CheckOptions {
                 walk: walk.options(),
                 limits: InputLimits {
@@ -527,7 +523,6 @@ fn main() -> ExitCode {
                 root,
                 analysis: run,
             };
-            let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
             let mut outcome = match engine::check_paths(&paths, &base, &opts) {
                 Ok(o) => o,
                 Err(e) => {
@@ -739,12 +734,7 @@ fn load_analysed(
     ),
     ExitCode,
 > {
-    let paths = if paths.is_empty() {
-        vec![PathBuf::from(".")]
-    } else {
-        paths
-    };
-    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let (paths, base) = paths_and_base(paths);
     let opts = CheckOptions {
         root,
         analysis: run,
@@ -892,6 +882,18 @@ fn baseline_write(
 }
 
 /// Print a run's input errors (plain text) to standard output.
+/// The paths a command was given (the working directory when none), and
+/// the working directory that displayed paths are relative to.
+fn paths_and_base(paths: Vec<PathBuf>) -> (Vec<PathBuf>, PathBuf) {
+    let paths = if paths.is_empty() {
+        vec![PathBuf::from(".")]
+    } else {
+        paths
+    };
+    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    (paths, base)
+}
+
 /// Check `paths` for a command that writes from the findings (`baseline
 /// write`, `fix`): input errors are printed, then `why`, and end the run
 /// with code 2.
@@ -902,12 +904,7 @@ fn check_for_writing(
     run: AnalysisOptions,
     why: &str,
 ) -> Result<engine::CheckOutcome, ExitCode> {
-    let paths = if paths.is_empty() {
-        vec![PathBuf::from(".")]
-    } else {
-        paths
-    };
-    let base = std::env::current_dir().unwrap_or_else(|_| PathBuf::from("."));
+    let (paths, base) = paths_and_base(paths);
     let opts = CheckOptions {
         walk,
         root,

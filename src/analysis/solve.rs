@@ -74,6 +74,14 @@ pub(super) struct Solver<'a> {
 /// A family's solutions, per member.
 pub(super) type Solved = HashMap<String, Vec<Result<SolvedLine, SolveError>>>;
 
+/// `g2` with its base width `w` (the drawn base width of `g` scaled, the
+/// top width with it).
+fn set_width(g2: &mut LineGeometry, g: &LineGeometry, w: f64) {
+    let scale = w / g.width_bottom.max(g.width_top);
+    g2.width_bottom = g.width_bottom * scale;
+    g2.width_top = g.width_top * scale;
+}
+
 impl<'a> Solver<'a> {
     pub(super) fn new(opts: &'a AnalysisOptions) -> Solver<'a> {
         Solver {
@@ -184,9 +192,7 @@ impl<'a> Solver<'a> {
     ) -> Option<f64> {
         let w0 = g.width_bottom.max(g.width_top);
         self.dimension_for_target("width", g, f, target, z_now, w0, &|g2, w| {
-            let scale = w / w0;
-            g2.width_bottom = g.width_bottom * scale;
-            g2.width_top = g.width_top * scale;
+            set_width(g2, g, w);
         })
     }
 
@@ -285,9 +291,7 @@ impl<'a> Solver<'a> {
         let s0 = g.spacing.filter(|s| *s > 0.0)?;
         let geometry = |w: f64, sp: f64| {
             let mut g2 = g.clone();
-            let scale = w / w0;
-            g2.width_bottom = g.width_bottom * scale;
-            g2.width_top = g.width_top * scale;
+            set_width(&mut g2, g, w);
             g2.spacing = Some(sp);
             g2
         };
@@ -309,11 +313,12 @@ impl<'a> Solver<'a> {
                     .as_ref()
                     .and_then(zk)
             };
-            let (zc, kc) = coarse(w, sp)?;
-            let (rz, dk) = (z_acc / zc, k_acc - kc);
+            // The anchor's coarse numbers carry the coarse solves to the
+            // accurate ones; each step's solve is the next step's start.
+            let (mut z, mut k) = coarse(w, sp)?;
+            let (rz, dk) = (z_acc / z, k_acc - k);
             let mut converged = false;
             for _ in 0..10 {
-                let (z, k) = coarse(w, sp)?;
                 let (fz, fk) = (rz * z - target, k + dk - k_target);
                 if (fz / target).abs() < 2e-4 && fk.abs() < 2e-4 {
                     converged = true;
@@ -334,6 +339,7 @@ impl<'a> Solver<'a> {
                 let ds = (-fk * j[0][0] + fz * j[1][0]) / det;
                 w = (w + dw).clamp(0.5 * w, 2.0 * w);
                 sp = (sp + ds).clamp(0.5 * sp, 2.0 * sp);
+                (z, k) = coarse(w, sp)?;
             }
             if !converged {
                 return None;

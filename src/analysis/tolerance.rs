@@ -76,6 +76,13 @@ impl ToleranceStack {
 /// (+1 upper end, −1 lower end).
 type Move = Box<dyn Fn(&mut LineGeometry, f64) + Sync>;
 
+/// Layer `l`'s own thickness tolerance, else the fabricator's `default`.
+fn ply_tolerance(s: &Stackup, l: usize, default: f64) -> f64 {
+    s.dielectric(l)
+        .and_then(|d| d.thickness_tolerance)
+        .unwrap_or(default)
+}
+
 /// The toleranced quantities of `g` with their tolerance text.
 fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
     let fab = &s.settings.fabrication;
@@ -101,10 +108,7 @@ fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
         if i == g.trace_slot || sl.material != Some(sl.layer) || sl.thickness <= 0.0 {
             continue;
         }
-        let dt = s
-            .dielectric(sl.layer)
-            .and_then(|d| d.thickness_tolerance)
-            .unwrap_or(fab.dielectric_thickness);
+        let dt = ply_tolerance(s, sl.layer, fab.dielectric_thickness);
         out.push((
             format!("thickness of `{}`", s.layers[sl.layer].name),
             format!("±{:.0} %", dt * 100.0),
@@ -170,10 +174,7 @@ fn moves(s: &Stackup, g: &LineGeometry) -> Vec<(String, String, Move)> {
         }),
     ));
     if let Some(mk) = g.mask {
-        let dm = s
-            .dielectric(mk.layer)
-            .and_then(|d| d.thickness_tolerance)
-            .unwrap_or(fab.mask_thickness);
+        let dm = ply_tolerance(s, mk.layer, fab.mask_thickness);
         out.push((
             format!("thickness of the mask `{}`", s.layers[mk.layer].name),
             format!("±{:.0} %", dm * 100.0),
