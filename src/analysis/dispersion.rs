@@ -13,7 +13,10 @@
 //!   and Jansen-Kirschning 1983 for the power-current impedance Z(f);
 //! - a surface edge-coupled pair: Kirschning-Jansen 1984 for the even- and
 //!   odd-mode εeff(f) (its impedance dispersion is not applied: the pair's
-//!   impedances stay static, a note says so when the εeff rise is large).
+//!   impedances stay static, a note says so when the εeff rise is large);
+//! - a single surface grounded coplanar line: Frankel et al. 1991 for
+//!   εeff(f) (as scikit-rf applies it to conductor-backed CPW); its
+//!   impedance stays static.
 //!
 //! The class's impedance (what the target is checked against, and what a
 //! fabricator's TDR coupon measures) stays the static one; the sweep
@@ -22,12 +25,13 @@
 //! λg-based limits and loss use the dispersive εeff everywhere.
 //!
 //! Striplines are TEM and do not disperse beyond their materials. Not
-//! modelled (a note says so when the rise would matter): coplanar lines and
-//! microstrip buried under a dielectric, whose published models do not fit
-//! a solved static value this simply.
+//! modelled (a note says so when the rise would matter): coplanar pairs and
+//! lines buried under a dielectric, for which no published model was found
+//! that starts from a solved static value.
 
 use stackup_physics::consts::C0;
 use stackup_physics::coupled::kirschning_jansen_coupled_dispersion;
+use stackup_physics::cpw::frankel_coplanar_eps_eff;
 use stackup_physics::microstrip::{jansen_kirschning_z0, kirschning_jansen_eps_eff};
 
 use super::section::LineGeometry;
@@ -74,6 +78,13 @@ impl Substrate {
             .filter(|e| e.is_finite() && *e >= e0)
     }
 
+    /// Frankel et al. 1991 εeff(f) of a coplanar line with slots `slot`.
+    fn eps_coplanar(&self, slot: f64, e0: f64, f: f64) -> Option<f64> {
+        frankel_coplanar_eps_eff(self.w, slot, self.h, self.eps_r, e0, f)
+            .ok()
+            .filter(|e| e.is_finite() && *e >= e0)
+    }
+
     /// Jansen-Kirschning 1983 Z(f) of a single strip.
     fn z_single(&self, z0: f64, e0: f64, ef: f64, f: f64) -> Option<f64> {
         jansen_kirschning_z0(self.w, self.h, self.t, self.eps_r, z0, e0, ef, f)
@@ -90,6 +101,9 @@ pub(super) enum Dispersion {
     /// Kirschning-Jansen 1984 on a pair's solved static modes; `gap` edge
     /// to edge.
     Pair { f: f64, sub: Substrate, gap: f64 },
+    /// Frankel et al. 1991 on a single grounded coplanar line's solved
+    /// static value; `slot` to the coplanar grounds.
+    Coplanar { f: f64, sub: Substrate, slot: f64 },
     /// Static: a TEM line.
     Static,
     /// An open structure the models do not cover: static, with a note
@@ -116,8 +130,13 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
     match (g.spacing, g.gap, covered_by_mask_only) {
         (None, None, true) => Dispersion::Microstrip { f, sub },
         (Some(gap), None, true) if gap > 0.0 => Dispersion::Pair { f, sub, gap },
-        (_, Some(_), _) => Dispersion::NotModelled {
-            what: "a coplanar line",
+        (None, Some(slot), true) if slot > 0.0 => Dispersion::Coplanar { f, sub, slot },
+        (spacing, Some(_), _) => Dispersion::NotModelled {
+            what: if spacing.is_some() {
+                "a coplanar pair"
+            } else {
+                "a coplanar line under dielectric"
+            },
             f,
             sub,
         },
@@ -141,6 +160,13 @@ impl Dispersion {
         match self {
             Dispersion::Microstrip { f, sub } => {
                 let Some(e) = sub.eps_single(n.eps_eff, *f) else {
+                    return;
+                };
+                n.eps_eff = e;
+                n.delay = e.sqrt() / C0;
+            }
+            Dispersion::Coplanar { f, sub, slot } => {
+                let Some(e) = sub.eps_coplanar(*slot, n.eps_eff, *f) else {
                     return;
                 };
                 n.eps_eff = e;
@@ -222,6 +248,16 @@ impl Dispersion {
                     f / 1e9,
                     100.0 * rise
                 ))
+            }
+            Dispersion::Coplanar { f, .. } => {
+                let rise = raised?.eps_eff / smooth?.eps_eff - 1.0;
+                (rise > 1e-4).then(|| {
+                    format!(
+                        "eps_eff and delay include coplanar dispersion at {:.0} GHz (Frankel et al. 1991 on the solved static value): eps_eff +{:.2} %; the impedance is static",
+                        f / 1e9,
+                        100.0 * rise
+                    )
+                })
             }
             Dispersion::Pair { f, .. } => {
                 let (a, b) = (smooth?.pair?, raised?.pair?);

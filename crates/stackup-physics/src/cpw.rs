@@ -5,7 +5,7 @@
 //! The model assumes infinitely wide top grounds stitched to the bottom
 //! plane. All lengths in metres.
 
-use crate::consts::ETA0;
+use crate::consts::{C0, ETA0};
 use crate::elliptic::k_ratio_pair;
 use crate::validity::{
     require_eps_r, require_non_negative, require_positive, InputError, ValidityNote,
@@ -95,6 +95,64 @@ pub fn gcpw(
     Ok(CpwResult { z0, eps_eff, notes })
 }
 
+/// Frequency-dependent effective permittivity of a coplanar line from its
+/// static value `eps_static`.
+///
+/// Source: M. Y. Frankel, S. Gupta, J. A. Valdmanis, G. A. Mourou,
+/// "Terahertz attenuation and dispersion characteristics of coplanar
+/// transmission lines", IEEE T-MTT 39(6), June 1991, pp. 910–916 (also
+/// cited for it: S. Gevorgian et al., "Simple and accurate dispersion
+/// expression for the effective dielectric constant of coplanar
+/// waveguides", IEE Proc. MAP 144(2), 1997, pp. 145–148). With W the centre
+/// strip, s the slot and h the substrate under them:
+/// √εeff(f) = √εq + (√εr − √εq)/(1 + G·(f/f_TE)^−1.8),
+/// f_TE = c0/(4h·√(εr − 1)) (the substrate's first TE surface-wave cutoff
+/// over a ground plane), G = exp(u·ln(W/s) + v), p = ln(W/h),
+/// u = 0.54 − 0.64p + 0.015p², v = 0.43 − 0.86p + 0.54p².
+/// Equations as transcribed in scikit-rf 2.2.0's `CPW` (natural
+/// logarithms), which applies them with and without a metal backside; the
+/// papers' own text was not reached (searched: both titles), so the
+/// logarithm base and the fit's range of validity are not confirmed here.
+///
+/// The static value may come from any source (the field solver here).
+/// Below f_TE the rise is small; it tends to εr far above. `eps_static`
+/// above εr (a coat denser than the substrate) is returned unchanged: the
+/// model only raises a value towards the substrate's.
+pub fn frankel_coplanar_eps_eff(
+    width: f64,
+    slot: f64,
+    height: f64,
+    eps_r: f64,
+    eps_static: f64,
+    freq: f64,
+) -> Result<f64, InputError> {
+    require_positive("coplanar width", width)?;
+    require_positive("coplanar slot", slot)?;
+    require_positive("coplanar substrate height", height)?;
+    require_eps_r("coplanar eps_r", eps_r)?;
+    require_eps_r("static eps_eff", eps_static)?;
+    require_non_negative("frequency", freq)?;
+    if freq == 0.0 || eps_r <= 1.0 || eps_static >= eps_r {
+        return Ok(eps_static);
+    }
+    let f_te = C0 / (4.0 * height * (eps_r - 1.0).sqrt());
+    let p = (width / height).ln();
+    let u = 0.54 - 0.64 * p + 0.015 * p * p;
+    let v = 0.43 - 0.86 * p + 0.54 * p * p;
+    let g = (u * (width / slot).ln() + v).exp();
+    let sq = eps_static.sqrt();
+    let root = sq + (eps_r.sqrt() - sq) / (1.0 + g * (freq / f_te).powf(-1.8));
+    let e = root * root;
+    if !e.is_finite() {
+        return Err(InputError::new(format!(
+            "coplanar dispersion undefined at W/h = {}, W/s = {}",
+            width / height,
+            width / slot
+        )));
+    }
+    Ok(e)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -123,6 +181,25 @@ mod tests {
         for x in [0.0, -1.0, f64::NAN, f64::INFINITY] {
             assert!(gcpw(x, 0.15e-3, 0.127e-3, 0.0, 3.0).is_err());
             assert!(gcpw(0.3e-3, x, 0.127e-3, 0.0, 3.0).is_err());
+        }
+    }
+
+    #[test]
+    fn coplanar_dispersion_limits() {
+        let e0 = 2.35;
+        let at = |f: f64| frankel_coplanar_eps_eff(0.3e-3, 0.15e-3, 0.127e-3, 3.0, e0, f).unwrap();
+        assert_eq!(at(0.0), e0);
+        let (a, b, c) = (at(10e9), at(77e9), at(1e15));
+        assert!(e0 < a && a < b && b < c && c < 3.0, "{a} {b} {c}");
+        assert!((c - 3.0).abs() < 1e-3, "{c}");
+        // A coat denser than the substrate: left as it is.
+        assert_eq!(
+            frankel_coplanar_eps_eff(0.3e-3, 0.15e-3, 0.127e-3, 3.0, 3.2, 77e9).unwrap(),
+            3.2
+        );
+        for x in [0.0, -1.0, f64::NAN] {
+            assert!(frankel_coplanar_eps_eff(x, 0.15e-3, 0.127e-3, 3.0, e0, 1e9).is_err());
+            assert!(frankel_coplanar_eps_eff(0.3e-3, x, 0.127e-3, 3.0, e0, 1e9).is_err());
         }
     }
 }

@@ -18,6 +18,12 @@ Rows:
   gcpw   : skrf.media.CPW with has_metal_backside=True (conformal mapping,
            Ghione-Naldi 1983 / Gupta et al. 1996, thickness correction of
            Gupta et al. eqs. 7.98-7.100). Static columns only.
+  gcpwdisp: the same media with its default dispersion (Frankel et al.
+           1991 / Gevorgian et al. 1997 eps_eff(f)), lossless and
+           frequency-invariant dielectric, at 1 to 110 GHz: static columns
+           from CPW.zl_eff / CPW.ep_reff, dispersive eps_eff from
+           CPW.ep_reff_f (z0_f repeats the static impedance: the crate does
+           not take scikit-rf's Z(f) for coplanar lines).
 All lengths in metres, frequency in hertz, impedance in ohm.
 """
 import platform
@@ -70,6 +76,22 @@ def mline_rows():
     return rows
 
 
+def gcpw_media(fr, w, s, h, t, er):
+    """Conductor-backed CPW, lossless, frequency-invariant dielectric."""
+    return CPW(
+        frequency=fr,
+        w=w,
+        s=s,
+        h=h,
+        t=(t if t > 0 else None),
+        ep_r=er,
+        tand=0.0,
+        rho=1.68e-8,
+        has_metal_backside=True,
+        diel="frequencyinvariant",
+    )
+
+
 def gcpw_rows():
     rows = []
     fr = skrf.Frequency.from_f(np.array([1e9]), unit="Hz")
@@ -78,21 +100,28 @@ def gcpw_rows():
             for s in (0.1e-3, 0.15e-3, 0.3e-3):
                 for t in (0.0, 9e-6, 18e-6):
                     for er in (3.0, 4.4, 10.2):
-                        c = CPW(
-                            frequency=fr,
-                            w=w,
-                            s=s,
-                            h=h,
-                            t=(t if t > 0 else None),
-                            ep_r=er,
-                            tand=0.0,
-                            rho=1.68e-8,
-                            has_metal_backside=True,
-                            diel="frequencyinvariant",
-                        )
+                        c = gcpw_media(fr, w, s, h, t, er)
                         z = float(np.real(np.atleast_1d(c.zl_eff)[0]))
                         e = float(np.real(np.atleast_1d(c.ep_reff)[0]))
                         rows.append(("gcpw", w, s, h, t, er, 0.0, z, e, z, e))
+    return rows
+
+
+def gcpw_disp_rows():
+    rows = []
+    freqs = np.array([1e9, 10e9, 40e9, 77e9, 110e9])
+    fr = skrf.Frequency.from_f(freqs, unit="Hz")
+    for h in (0.1e-3, 0.2e-3, 0.5e-3):
+        for w in (0.1e-3, 0.3e-3, 0.6e-3):
+            for s in (0.1e-3, 0.3e-3):
+                for t in (0.0, 18e-6):
+                    for er in (3.0, 4.4, 10.2):
+                        c = gcpw_media(fr, w, s, h, t, er)
+                        z = float(np.real(np.atleast_1d(c.zl_eff)[0]))
+                        e = float(np.real(np.atleast_1d(c.ep_reff)[0]))
+                        ef = np.real(np.atleast_1d(c.ep_reff_f))
+                        for i, f in enumerate(freqs):
+                            rows.append(("gcpwdisp", w, s, h, t, er, f, z, e, z, ef[i]))
     return rows
 
 
@@ -106,7 +135,7 @@ def main():
         % (skrf.__version__, np.__version__, platform.python_version())
     )
     out.write("kind\tw\ts\th\tt\teps_r\tf\tz0_static\teps_eff_static\tz0_f\teps_eff_f\n")
-    for r in mline_rows() + gcpw_rows():
+    for r in mline_rows() + gcpw_rows() + gcpw_disp_rows():
         out.write(
             "%s\t%.9e\t%.9e\t%.9e\t%.9e\t%.6g\t%.9e\t%.10g\t%.10g\t%.10g\t%.10g\n" % r
         )
