@@ -263,8 +263,9 @@ fn analyze_one(
             .ok_or_else(|| format!("net class `{}` was not solved", nc.name))
     };
     // What a measurement of the modelled line would read: β and α of its
-    // RLGC (the skin effect's internal inductance R/ω included: it slows
-    // a thin line noticeably at low frequency, and a coupon measures it).
+    // RLGC (the smooth copper's internal inductance included: it slows a
+    // thin line noticeably at low frequency, and a coupon measures it; the
+    // rough copper's slowing is in its apparent Dk, see `sweep::rlgc`).
     let model_eps = |p: &SweepPoint| measured_view(p).0;
     let model_loss = |p: &SweepPoint| measured_view(p).1;
     let f_first = *freqs

@@ -492,9 +492,9 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             disp.apply(&mut n);
             n
         };
-        let smooth = static_smooth_r.map(raise);
-        let best = numbers(&p.family, p.best).ok().map(raise);
-        let worst = static_worst.map(raise);
+        let mut smooth = static_smooth_r.map(raise);
+        let mut best = numbers(&p.family, p.best).ok().map(raise);
+        let mut worst = static_worst.map(raise);
         notes.extend(disp.note(static_smooth.as_ref(), smooth.as_ref().ok()));
         let roughness_unknown = g.faces.iter().any(|f| f.roughness.is_range());
         let implied_faces: Vec<_> = g
@@ -566,6 +566,16 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .as_ref()
             .ok()
             .map(|sm| loss::line_loss(&g, &dk, f, sm, energy.as_deref(), derivs));
+        // Delays with the conductors' internal inductance at f.
+        let slowed = |n: &mut LineNumbers| {
+            if let Some(l) = &loss {
+                n.delay = sweep::delay_with_conductors(f, n, l);
+            }
+        };
+        if let Ok(n) = smooth.as_mut() {
+            slowed(n);
+        }
+        best.iter_mut().chain(worst.iter_mut()).for_each(slowed);
         let budget_loss = nc.loss_budget.and(smooth.as_ref().ok()).and_then(|sm| {
             let fb = nc.nyquist.unwrap_or(f);
             if fb == f {
@@ -597,11 +607,13 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
             .plies
             .iter()
             .filter_map(|&(layer, bulk, apparent, m)| {
+                let mut numbers = raise(numbers(&p.family, m).ok()?);
+                slowed(&mut numbers);
                 Some(PlyShare {
                     layer,
                     bulk,
                     apparent,
-                    numbers: raise(numbers(&p.family, m).ok()?),
+                    numbers,
                 })
             })
             .collect();

@@ -9,11 +9,14 @@
 //!   εeff(f) = εeff·Σ_r s_r·ε_r(f)/ε_r (first order in the change, exact for
 //!   one dielectric), and Z with 1/√εeff (the inductance is a vacuum
 //!   quantity and does not move);
-//! - a surface microstrip's or pair's dispersion at f (Kirschning-Jansen
-//!   1982/1984 for εeff, Jansen-Kirschning 1983 for a single line's Z);
+//! - a surface microstrip's, pair's or grounded coplanar line's dispersion
+//!   at f (Kirschning-Jansen 1982/1984 or Frankel et al. 1991 for εeff,
+//!   Jansen-Kirschning 1983 for a single microstrip's Z);
 //! - dielectric loss from the energy shares and each Df(f); conductor loss
 //!   from Wheeler's rule with Rs(f) and each face's roughness factor at f
-//!   (`loss::line_loss`).
+//!   (`loss::line_loss`);
+//! - the delay at f with the smooth conductors' internal inductance
+//!   ([`delay_with_conductors`]).
 //!
 //! The roughness layers that raise the apparent Dk are solved at the
 //! analysis frequency only; at f the rough line's shift from the smooth one
@@ -220,6 +223,12 @@ pub fn sweep(s: &Stackup, a: &Analysis, i: usize, freqs: &[f64]) -> Option<Vec<S
                     basis.energy.as_deref(),
                     basis.wheeler.as_deref(),
                 );
+                let mut smooth = smooth;
+                smooth.delay = delay_with_conductors(f, &smooth, &loss);
+                let rough = rough.map(|mut r| {
+                    r.delay = delay_with_conductors(f, &r, &loss);
+                    r
+                });
                 let even_loss = even_mode_loss(
                     g,
                     &dk,
@@ -264,17 +273,45 @@ fn thickness_scale(
 }
 
 /// The per-unit-length parameters of one mode at frequency `f` from its
-/// impedance per line `z`, εeff and loss (dB/m; the declared, worst-case
-/// rough copper): L and C from Z and εeff, R from the conductor loss with
-/// the equal internal inductance R/ω of a skin-effect conductor (which
-/// keeps the model causal), G from the dielectric loss.
+/// impedance per line `z`, εeff and loss (dB/m): L and C from Z and εeff,
+/// G from the dielectric loss, R from the conductor loss of the declared
+/// (worst-case rough) copper. L adds the smooth copper's internal
+/// inductance R_s/ω: a conductor in the skin-effect regime has the surface
+/// impedance (1 + j)·Rs (H. A. Wheeler, "Formulas for the skin effect",
+/// Proc. IRE 30(9), 1942, pp. 412–424), whose reactance the quasi-static
+/// εeff leaves out and which slows a thin line most at low frequency.
+/// Rough copper's own slowing is in the apparent Dk of its roughness layers,
+/// already in εeff (so in C); its excess resistance gets no reactance here,
+/// which would count that slowing twice.
 pub fn rlgc(f: f64, z: f64, eps_eff: f64, loss: &LossNumbers) -> Rlgc {
     let w = 2.0 * std::f64::consts::PI * f;
-    let r = 2.0 * z * loss.conductor_rough / NP_TO_DB;
+    let r_smooth = 2.0 * z * loss.conductor_smooth / NP_TO_DB;
     Rlgc {
-        r,
-        l: z * eps_eff.sqrt() / C0 + r / w,
+        r: 2.0 * z * loss.conductor_rough / NP_TO_DB,
+        l: z * eps_eff.sqrt() / C0 + r_smooth / w,
         g: 2.0 * (loss.dielectric / NP_TO_DB) / z,
         c: eps_eff.sqrt() / (z * C0),
+    }
+}
+
+/// Delay of the signal mode of `n` at `f`, s/m: β/ω of its [`rlgc`], so
+/// with the smooth copper's internal inductance (to first order
+/// √εeff/c0·(1 + αc/β0), αc the smooth conductor loss). Falls back to
+/// √εeff/c0 when `f` or the loss is not usable.
+pub fn delay_with_conductors(f: f64, n: &LineNumbers, loss: &LossNumbers) -> f64 {
+    let quasi_static = n.eps_eff.sqrt() / C0;
+    let z = n.z_line();
+    let usable = [loss.conductor_smooth, loss.conductor_rough, loss.dielectric]
+        .iter()
+        .all(|x| x.is_finite() && *x >= 0.0);
+    if !(f > 0.0 && z > 0.0 && usable) {
+        return quasi_static;
+    }
+    let (_, gamma) = rlgc(f, z, n.eps_eff, loss).zc_gamma(f);
+    let d = gamma.im / (2.0 * std::f64::consts::PI * f);
+    if d.is_finite() && d > 0.0 {
+        d
+    } else {
+        quasi_static
     }
 }

@@ -463,7 +463,7 @@ pub fn table(name: &str, s: &Stackup, a: &Analysis, length: Option<f64>) -> Stri
             top.join(", ")
         ));
     }
-    out.push_str("\n  Z rough, eps_eff, ps/mm and dB/mm include the declared copper roughness (worst case where a face is unknown);\n");
+    out.push_str("\n  Z rough, eps_eff, ps/mm and dB/mm include the declared copper roughness (worst case where a face is unknown);\n  ps/mm also includes the copper's internal inductance (beta/omega of the line's R, L, G, C);\n");
     out.push_str(
         "  W for target: base width that brings the rough line back to its target impedance.\n",
     );

@@ -165,7 +165,7 @@ pub fn table(files: &[FileSweep<'_>]) -> String {
         }
     }
     out.push_str(
-        "  Z: Z0, or Z_diff for pairs, static (what a TDR coupon measures); Z at f: with a surface microstrip's impedance dispersion (Jansen-Kirschning 1983), used in Touchstone files; eps_eff and delay with the declared (worst-case) roughness; ac: conductor loss (Wheeler's rule), ad: dielectric loss; one solve per class, carried across frequency by each material's causal model\n",
+        "  Z: Z0, or Z_diff for pairs, static (what a TDR coupon measures); Z at f: with a surface microstrip's impedance dispersion (Jansen-Kirschning 1983), used in Touchstone files; eps_eff and delay with the declared (worst-case) roughness, the delay also with the copper's internal inductance; ac: conductor loss (Wheeler's rule), ad: dielectric loss; one solve per class, carried across frequency by each material's causal model\n",
     );
     out
 }

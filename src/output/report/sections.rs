@@ -349,7 +349,7 @@ pub(super) fn impedance_section(
     } else {
         blocks.push(Block::Table(t));
         blocks.push(Block::Note(format!(
-            "Solved with the {} at each class's analysis frequency; differential pairs show Z_diff. Z rough, apparent Dk, delay and loss include the declared copper roughness (effective-roughness-layer model for Z and delay; conductor loss by Wheeler's incremental-inductance rule on the solved section with each face's Hammerstad-Bekkadal factor; dielectric loss from the share of the field in each material), worst case where a face is unknown; a range shows best..worst. W for target: base width that brings the rough line back to its target. Rows over tolerance with rough copper are marked.",
+            "Solved with the {} at each class's analysis frequency; differential pairs show Z_diff. Z rough, apparent Dk, delay and loss include the declared copper roughness (effective-roughness-layer model for Z and delay, the delay also slowed by the copper's internal inductance; conductor loss by Wheeler's incremental-inductance rule on the solved section with each face's Hammerstad-Bekkadal factor; dielectric loss from the share of the field in each material), worst case where a face is unknown; a range shows best..worst. W for target: base width that brings the rough line back to its target. Rows over tolerance with rough copper are marked.",
             crate::analysis::FIELD_SOLVER
         )));
         for n in notes {
@@ -735,7 +735,7 @@ pub(super) fn coupons_section(s: &Stackup, a: &Analysis, stem: &str) -> Option<S
     }
     blocks.push(Block::Table(t));
     blocks.push(Block::Note(
-        "eps_eff and loss vs model: the median of measured over modelled minus one inside the valid range (a pair: its odd mode). The model includes each conductor's internal inductance, as a measurement does.".into(),
+        "eps_eff and loss vs model: the median of measured over modelled minus one inside the valid range (a pair: its odd mode). The model includes the copper's internal inductance, as a measurement does (smooth copper's; rough copper's slowing is in its apparent Dk).".into(),
     ));
     blocks.extend(figures);
     Some(Section {
