@@ -16,7 +16,15 @@
 //!   impedances stay static, a note says so when the εeff rise is large);
 //! - a single surface grounded coplanar line: Frankel et al. 1991 for
 //!   εeff(f) (as scikit-rf applies it to conductor-backed CPW); its
-//!   impedance stays static.
+//!   impedance stays static;
+//! - a microstrip or pair buried under dielectric (no plane above): the
+//!   same Kirschning-Jansen models on its own solved static values, with
+//!   the substrate's Dk as the high-frequency limit. The models are fitted
+//!   to open microstrip; fed with a buried line's static value, the rise
+//!   (bounded by εr − εeff(0)) tends to the open line's as the cover thins
+//!   and to none as it thickens, the two limits a buried line must meet
+//!   (a line in one uniform dielectric is TEM). In between it is an
+//!   estimate; the impedance stays static.
 //!
 //! The class's impedance (what the target is checked against, and what a
 //! fabricator's TDR coupon measures) stays the static one; the sweep
@@ -26,7 +34,7 @@
 //!
 //! Striplines are TEM and do not disperse beyond their materials. Not
 //! modelled (a note says so when the rise would matter): coplanar pairs and
-//! lines buried under a dielectric, for which no published model was found
+//! coplanar lines under dielectric, for which no published model was found
 //! that starts from a solved static value.
 
 use stackup_physics::consts::C0;
@@ -41,6 +49,9 @@ use crate::model::{DielectricKind, Stackup};
 /// Rise of εeff (relative) below which a line that is not modelled gets no
 /// note: 0.5 % in εeff is 0.25 % in delay (common practice, no source).
 const NOTE_BELOW: f64 = 0.005;
+
+/// How a buried line's dispersion is taken, for its note.
+const BURIED: &str = "the model is fitted to open microstrip; on a buried line's own static value it shrinks as the cover thickens, to none in one uniform dielectric";
 
 /// Change of Z(f) against the static impedance below which the class note
 /// does not mention it (common practice, no source: a tenth of a typical
@@ -96,11 +107,21 @@ impl Substrate {
 
 /// How a class's solved numbers move with frequency.
 pub(super) enum Dispersion {
-    /// Kirschning-Jansen / Jansen-Kirschning on the solved static values.
-    Microstrip { f: f64, sub: Substrate },
+    /// Kirschning-Jansen / Jansen-Kirschning on the solved static values;
+    /// `buried` under more than solder mask (εeff only).
+    Microstrip {
+        f: f64,
+        sub: Substrate,
+        buried: bool,
+    },
     /// Kirschning-Jansen 1984 on a pair's solved static modes; `gap` edge
-    /// to edge.
-    Pair { f: f64, sub: Substrate, gap: f64 },
+    /// to edge; `buried` as for a single line.
+    Pair {
+        f: f64,
+        sub: Substrate,
+        gap: f64,
+        buried: bool,
+    },
     /// Frankel et al. 1991 on a single grounded coplanar line's solved
     /// static value; `slot` to the coplanar grounds.
     Coplanar { f: f64, sub: Substrate, slot: f64 },
@@ -127,9 +148,15 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
         s.dielectric(sl.layer)
             .is_some_and(|d| d.kind == DielectricKind::SolderMask)
     });
+    let buried = !covered_by_mask_only;
     match (g.spacing, g.gap, covered_by_mask_only) {
-        (None, None, true) => Dispersion::Microstrip { f, sub },
-        (Some(gap), None, true) if gap > 0.0 => Dispersion::Pair { f, sub, gap },
+        (None, None, _) => Dispersion::Microstrip { f, sub, buried },
+        (Some(gap), None, _) if gap > 0.0 => Dispersion::Pair {
+            f,
+            sub,
+            gap,
+            buried,
+        },
         (None, Some(slot), true) if slot > 0.0 => Dispersion::Coplanar { f, sub, slot },
         (spacing, Some(_), _) => Dispersion::NotModelled {
             what: if spacing.is_some() {
@@ -140,15 +167,7 @@ pub(super) fn dispersion(s: &Stackup, g: &LineGeometry, f: f64) -> Dispersion {
             f,
             sub,
         },
-        (spacing, None, _) => Dispersion::NotModelled {
-            what: if spacing.is_some() {
-                "a pair under dielectric"
-            } else {
-                "a microstrip under dielectric"
-            },
-            f,
-            sub,
-        },
+        (_, None, _) => Dispersion::Static,
     }
 }
 
@@ -158,7 +177,7 @@ impl Dispersion {
     /// [`Dispersion::z_ratio`]).
     pub(super) fn apply(&self, n: &mut LineNumbers) {
         match self {
-            Dispersion::Microstrip { f, sub } => {
+            Dispersion::Microstrip { f, sub, .. } => {
                 let Some(e) = sub.eps_single(n.eps_eff, *f) else {
                     return;
                 };
@@ -172,7 +191,7 @@ impl Dispersion {
                 n.eps_eff = e;
                 n.delay = e.sqrt() / C0;
             }
-            Dispersion::Pair { f, sub, gap } => {
+            Dispersion::Pair { f, sub, gap, .. } => {
                 let Some(p) = n.pair.as_mut() else {
                     return;
                 };
@@ -197,7 +216,12 @@ impl Dispersion {
     /// of a single surface microstrip, from its static numbers `before` and
     /// its dispersive εeff in `after`; 1 for every other line.
     pub(super) fn z_ratio(&self, before: &LineNumbers, after: &LineNumbers) -> f64 {
-        let Dispersion::Microstrip { f, sub } = self else {
+        let Dispersion::Microstrip {
+            f,
+            sub,
+            buried: false,
+        } = self
+        else {
             return 1.0;
         };
         sub.z_single(before.z, before.eps_eff, after.eps_eff, *f)
@@ -226,7 +250,16 @@ impl Dispersion {
                     )
                 })
             }
-            Dispersion::Microstrip { f, sub } => {
+            Dispersion::Microstrip {
+                buried: true, f, ..
+            } => static_z_note(
+                "microstrip",
+                &format!("Kirschning-Jansen 1982 on the solved static value of the buried line; {BURIED}"),
+                *f,
+                smooth?,
+                raised?,
+            ),
+            Dispersion::Microstrip { f, sub, .. } => {
                 let (a, b) = (smooth?, raised?);
                 let rise = b.eps_eff / a.eps_eff - 1.0;
                 if rise <= 1e-4 {
@@ -249,23 +282,25 @@ impl Dispersion {
                     100.0 * rise
                 ))
             }
-            Dispersion::Coplanar { f, .. } => {
-                let rise = raised?.eps_eff / smooth?.eps_eff - 1.0;
-                (rise > 1e-4).then(|| {
-                    format!(
-                        "eps_eff and delay include coplanar dispersion at {:.0} GHz (Frankel et al. 1991 on the solved static value): eps_eff +{:.2} %; the impedance is static",
-                        f / 1e9,
-                        100.0 * rise
-                    )
-                })
-            }
-            Dispersion::Pair { f, .. } => {
+            Dispersion::Coplanar { f, .. } => static_z_note(
+                "coplanar",
+                "Frankel et al. 1991 on the solved static value",
+                *f,
+                smooth?,
+                raised?,
+            ),
+            Dispersion::Pair { f, buried, .. } => {
                 let (a, b) = (smooth?.pair?, raised?.pair?);
                 let re = b.eps_eff_even / a.eps_eff_even - 1.0;
                 let ro = b.eps_eff_odd / a.eps_eff_odd - 1.0;
+                let of = if *buried {
+                    format!("the solved static modes of the buried pair; {BURIED}")
+                } else {
+                    "the solved static modes".to_string()
+                };
                 (re.max(ro) > 1e-4).then(|| {
                     format!(
-                        "eps_eff and delay include coupled-microstrip dispersion at {:.0} GHz (Kirschning-Jansen 1984 on the solved static modes): even +{:.2} %, odd +{:.2} %; the impedances are static",
+                        "eps_eff and delay include coupled-microstrip dispersion at {:.0} GHz (Kirschning-Jansen 1984 on {of}): even +{:.2} %, odd +{:.2} %; the impedances are static",
                         f / 1e9,
                         100.0 * re,
                         100.0 * ro
@@ -274,4 +309,23 @@ impl Dispersion {
             }
         }
     }
+}
+
+/// The note of a single line whose εeff disperses by `model` and whose
+/// impedance is kept static.
+fn static_z_note(
+    kind: &str,
+    model: &str,
+    f: f64,
+    smooth: &LineNumbers,
+    raised: &LineNumbers,
+) -> Option<String> {
+    let rise = raised.eps_eff / smooth.eps_eff - 1.0;
+    (rise > 1e-4).then(|| {
+        format!(
+            "eps_eff and delay include {kind} dispersion at {:.0} GHz ({model}): eps_eff +{:.2} %; the impedance is static",
+            f / 1e9,
+            100.0 * rise
+        )
+    })
 }
