@@ -92,18 +92,11 @@ pub fn plan(findings: &[Finding], db: &SourceDb, rules: &[String]) -> Result<Pla
     let mut refusals = Vec::new();
     for (file, mut pending) in by_file {
         let src = db.get(file);
-        pending.sort_by(|a, b| {
-            (
-                a.edit.location.span.start,
-                a.edit.location.span.end,
-                &a.edit.location.pointer,
-            )
-                .cmp(&(
-                    b.edit.location.span.start,
-                    b.edit.location.span.end,
-                    &b.edit.location.pointer,
-                ))
-        });
+        let key = |p: &Pending<'_>| {
+            let l = &p.edit.location;
+            (l.span.start, l.span.end, l.pointer.clone())
+        };
+        pending.sort_by_cached_key(key);
         // The same edit proposed by two findings is made once.
         pending.dedup_by(|b, a| {
             a.edit.location.span == b.edit.location.span && a.edit.text == b.edit.text
@@ -141,15 +134,15 @@ pub fn plan(findings: &[Finding], db: &SourceDb, rules: &[String]) -> Result<Pla
         for p in &pending {
             let s = &p.edit.location.span;
             // An insertion changes the mapping it goes into.
-            let changed = match s.is_empty() {
-                true => p
-                    .edit
+            let changed = if s.is_empty() {
+                p.edit
                     .location
                     .pointer
                     .rsplit_once('/')
                     .and_then(|(parent, _)| src.spans.node(parent))
-                    .map_or(s.clone(), |n| n.span.clone()),
-                false => s.clone(),
+                    .map_or(s.clone(), |n| n.span.clone())
+            } else {
+                s.clone()
             };
             let inside = |a: &Range<usize>| a.start <= changed.start && changed.end <= a.end;
             if anchored.iter().any(inside) {

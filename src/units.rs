@@ -158,10 +158,15 @@ fn unit_scale(unit: &str) -> Option<(f64, Family)> {
         .map(|&(_, scale, fam)| (scale, fam))
 }
 
+/// Whether `unit` is one of ours that a field of `dim` accepts.
+pub fn unit_is(unit: &str, dim: Dimension) -> bool {
+    unit_scale(unit).is_some_and(|(_, fam)| accepts(dim, fam))
+}
+
 /// The unit of `dim` that a misspelt unit most likely means (see
 /// [`crate::suggest`]), as it should be written.
 pub fn suggest_unit(unit: &str, dim: Dimension) -> Option<&'static str> {
-    let accepted = |name: &str| unit_scale(name).is_some_and(|(_, fam)| accepts(dim, fam));
+    let accepted = |name: &str| unit_is(name, dim);
     if let Some((_, meant)) = UNIT_ALIASES.iter().find(|(alias, _)| *alias == unit) {
         return accepted(meant).then_some(*meant);
     }

@@ -176,21 +176,16 @@ impl Dispersion {
     /// (both modes of a pair). The impedance stays static (see
     /// [`Dispersion::z_ratio`]).
     pub(super) fn apply(&self, n: &mut LineNumbers) {
+        let single = |n: &mut LineNumbers, e: Option<f64>| {
+            if let Some(e) = e {
+                n.eps_eff = e;
+                n.delay = e.sqrt() / C0;
+            }
+        };
+        let e0 = n.eps_eff;
         match self {
-            Dispersion::Microstrip { f, sub, .. } => {
-                let Some(e) = sub.eps_single(n.eps_eff, *f) else {
-                    return;
-                };
-                n.eps_eff = e;
-                n.delay = e.sqrt() / C0;
-            }
-            Dispersion::Coplanar { f, sub, slot } => {
-                let Some(e) = sub.eps_coplanar(*slot, n.eps_eff, *f) else {
-                    return;
-                };
-                n.eps_eff = e;
-                n.delay = e.sqrt() / C0;
-            }
+            Dispersion::Microstrip { f, sub, .. } => single(n, sub.eps_single(e0, *f)),
+            Dispersion::Coplanar { f, sub, slot } => single(n, sub.eps_coplanar(*slot, e0, *f)),
             Dispersion::Pair { f, sub, gap, .. } => {
                 let Some(p) = n.pair.as_mut() else {
                     return;

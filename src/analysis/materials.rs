@@ -69,11 +69,6 @@ impl Wideband {
 #[derive(Debug, Clone)]
 pub struct MaterialModel {
     ds: Option<Wideband>,
-    /// A table of three or more points that one Djordjevic-Sarkar term
-    /// cannot meet but a multi-pole Debye model (causal by construction)
-    /// meets within the same tolerances: its number of poles. The data are
-    /// then causal; they only vary more across the band than one term can.
-    pub multi_pole: Option<usize>,
     /// Fallback when no causal fit exists (e.g. Df too large for the band):
     /// the first data point, held constant.
     constant: (f64, f64),
@@ -141,32 +136,20 @@ impl MaterialModel {
                     .flatten()
                     .map(Wideband::Debye)
                     .filter(|w| misfits_of(w).is_empty());
-                match debye {
-                    Some(w) => MaterialModel {
-                        multi_pole: match &w {
-                            Wideband::Debye(d) => Some(d.poles.len()),
-                            Wideband::Ds(_) => None,
-                        },
-                        ds: Some(w),
-                        constant,
-                        valid_from,
-                        valid_to,
-                        fit_problem: None,
-                        misfits: Vec::new(),
-                    },
-                    None => MaterialModel {
-                        ds: Some(ds),
-                        multi_pole: None,
-                        constant,
-                        valid_from,
-                        valid_to,
-                        fit_problem: None,
-                        misfits,
-                    },
+                let (model, misfits) = match debye {
+                    Some(w) => (w, Vec::new()),
+                    None => (ds, misfits),
+                };
+                MaterialModel {
+                    ds: Some(model),
+                    constant,
+                    valid_from,
+                    valid_to,
+                    fit_problem: None,
+                    misfits,
                 }
             }
             Err(e) => MaterialModel {
-                multi_pole: None,
                 ds: None,
                 constant,
                 valid_from,
@@ -174,6 +157,17 @@ impl MaterialModel {
                 fit_problem: Some(e.to_string()),
                 misfits: Vec::new(),
             },
+        }
+    }
+
+    /// A table of three or more points that one Djordjevic-Sarkar term
+    /// cannot meet but a multi-pole Debye model (causal by construction)
+    /// meets within the same tolerances: its number of poles. The data are
+    /// then causal; they only vary more across the band than one term can.
+    pub fn multi_pole(&self) -> Option<usize> {
+        match &self.ds {
+            Some(Wideband::Debye(d)) => Some(d.poles.len()),
+            _ => None,
         }
     }
 

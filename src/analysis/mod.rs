@@ -419,18 +419,18 @@ pub fn analyze(s: &Stackup, opts: &AnalysisOptions) -> Analysis {
         .collect();
     // A pair designed for a coupling coefficient: the width and spacing
     // that meet both its target and that coupling.
-    let coupled: Vec<(usize, &LineGeometry, f64, f64, f64, f64, f64)> = solved_targets
+    let coupled: Vec<_> = solved_targets
         .iter()
-        .filter_map(|&(i, g, f, t, w)| {
-            let m = w.pair?;
-            let k_now = (m.z_even - m.z_odd) / (m.z_even + m.z_odd);
-            Some((i, g, f, t.target, t.coupling?, w.z, k_now))
-        })
+        .filter(|(.., t, w)| t.coupling.is_some() && w.pair.is_some())
         .collect();
     let pair_dims: HashMap<usize, Option<(f64, f64)>> = solver
         .pool()
-        .map(&coupled, |&(i, g, f, target, k, z, k_now)| {
-            (i, solver.pair_for_target(g, f, target, k, z, k_now))
+        .map(&coupled, |&&(i, g, f, t, w)| {
+            let dims = t.coupling.zip(w.pair).and_then(|(k, m)| {
+                let k_now = (m.z_even - m.z_odd) / (m.z_even + m.z_odd);
+                solver.pair_for_target(g, f, t.target, k, w.z, k_now)
+            });
+            (i, dims)
         })
         .into_iter()
         .collect();

@@ -76,6 +76,14 @@ impl ToleranceStack {
 /// (+1 upper end, −1 lower end).
 type Move = Box<dyn Fn(&mut LineGeometry, f64) + Sync>;
 
+/// The finite, positive impedance (Z0 or Z_diff) of a solve, if any.
+fn usable_z(r: Option<stackup_physics::fieldsolver::SolvedLine>) -> Option<f64> {
+    r.as_ref()
+        .and_then(LineNumbers::from_solved)
+        .map(|n| n.z)
+        .filter(|z| z.is_finite() && *z > 0.0)
+}
+
 /// Layer `l`'s own thickness tolerance, else the fabricator's `default`.
 fn ply_tolerance(s: &Stackup, l: usize, default: f64) -> f64 {
     s.dielectric(l)
@@ -229,13 +237,7 @@ pub(super) fn solve(
     z: f64,
     opt: &SolverOptions,
 ) -> Option<Vec<f64>> {
-    let z_of = |g: &LineGeometry, mesh| {
-        solve_coarse(&base_section(g, f), mesh)
-            .ok()
-            .and_then(|r| LineNumbers::from_solved(&r))
-            .map(|n| n.z)
-            .filter(|z| z.is_finite() && *z > 0.0)
-    };
+    let z_of = |g: &LineGeometry, mesh| usable_z(solve_coarse(&base_section(g, f), mesh).ok());
     // The second refinement level: the first reads geometric changes
     // 2-4 % small (cold cost of the finer level: +35 % on the 24-layer
     // bench board).
@@ -263,11 +265,7 @@ pub(super) fn solve(
         for &(i, sign) in &signs {
             (q.0[i].2)(&mut g2, k * sign);
         }
-        let full = stackup_physics::fieldsolver::solve(&base_section(&g2, f), opt)
-            .ok()
-            .and_then(|r| LineNumbers::from_solved(&r))
-            .map(|n| n.z)
-            .filter(|z| z.is_finite() && *z > 0.0);
+        let full = usable_z(stackup_physics::fieldsolver::solve(&base_section(&g2, f), opt).ok());
         out.push(full.unwrap_or(f64::NAN));
     }
     Some(out)

@@ -11,7 +11,7 @@ use crate::finding::Finding;
 use crate::input::schema::STACKUP_SCHEMA;
 use crate::model::{LayerKind, Stackup};
 use crate::source::{FileId, SourceDb};
-use crate::units::{fmt_frequency, fmt_length, written_unit};
+use crate::units::{fmt_frequency, fmt_length, unit_is, written_unit, Dimension};
 
 /// One analysed state of a document.
 pub struct Snapshot {
@@ -82,35 +82,14 @@ fn quantity_hover(raw: &str) -> Option<String> {
         return None;
     }
     let si = value * scale;
-    let lower = unit.to_ascii_lowercase();
-    let length = matches!(
-        lower.as_str(),
-        "m" | "cm"
-            | "mm"
-            | "um"
-            | "µm"
-            | "μm"
-            | "micron"
-            | "microns"
-            | "nm"
-            | "mil"
-            | "mils"
-            | "thou"
-            | "in"
-            | "inch"
-            | "inches"
-            | "oz"
-            | "oz/ft2"
-            | "oz/ft²"
-    );
-    Some(if length {
+    Some(if unit_is(unit, Dimension::CopperThickness) {
         format!(
             "`{inner}` = {:.2} µm = {:.3} mil = {:.4} mm (SI: {si:e} m)",
             si * 1e6,
             si / 25.4e-6,
             si * 1e3
         )
-    } else if lower.ends_with("hz") {
+    } else if unit_is(unit, Dimension::Frequency) {
         format!("`{inner}` = {} ({si:e} Hz)", fmt_frequency(si))
     } else {
         format!("`{inner}` = {si:e} in SI units")

@@ -9,7 +9,13 @@ use serde_json::Value;
 use crate::common::{root, run_in};
 
 fn coupons_json(board: &str) -> Value {
-    let (code, out, err) = run_in(root(), &["coupons", board, "--format", "json"]);
+    json_in(root(), "coupons", board)
+}
+
+/// `stackup-lint CMD BOARD --root . --format json` run in `dir`; it must
+/// exit 0.
+fn json_in(dir: &std::path::Path, cmd: &str, board: &str) -> Value {
+    let (code, out, err) = run_in(dir, &[cmd, board, "--root", ".", "--format", "json"]);
     assert_eq!(code, Some(0), "{err}");
     serde_json::from_str(&out).unwrap()
 }
@@ -212,19 +218,7 @@ fn a_pair_coupon_gives_the_odd_mode() {
     }
     let entry = "\ncoupons:\n  - name: lvds\n    net-class: adc-lvds\n    kind: line-pair\n    files: [ts20/board-adc-lvds.s4p, ts60/board-adc-lvds.s4p]\n    lengths: [20 mm, 60 mm]\n";
     std::fs::write(&board, format!("{head}{entry}{rest}")).unwrap();
-    let (code, out, err) = run_in(
-        dir.path(),
-        &[
-            "coupons",
-            "examples/radar-sensor-6l",
-            "--root",
-            ".",
-            "--format",
-            "json",
-        ],
-    );
-    assert_eq!(code, Some(0), "{err}");
-    let j: Value = serde_json::from_str(&out).unwrap();
+    let j = json_in(dir.path(), "coupons", "examples/radar-sensor-6l");
     let c = coupon(&j, "lvds");
     assert!(c["failure"].is_null(), "{c}");
     assert!(
@@ -246,19 +240,7 @@ fn a_coupon_that_checks_nothing_is_reported() {
         "files: [coupons/lo-line-25mm.s2p]",
     );
     std::fs::write(&board, text).unwrap();
-    let (code, out, err) = run_in(
-        dir.path(),
-        &[
-            "check",
-            "examples/radar-sensor-6l",
-            "--root",
-            ".",
-            "--format",
-            "json",
-        ],
-    );
-    assert_eq!(code, Some(0), "{err}");
-    let v: Value = serde_json::from_str(&out).unwrap();
+    let v = json_in(dir.path(), "check", "examples/radar-sensor-6l");
     let f = v["findings"]
         .as_array()
         .unwrap()

@@ -924,7 +924,7 @@ fn causal_tables_pass_and_inconsistent_ones_warn() {
     let text = table(2.0);
     assert!(of(&all(&text), "material-data-not-causal").is_empty());
     let (_, a) = analysed(&text);
-    assert!(a.materials["m"].multi_pole.is_some());
+    assert!(a.materials["m"].multi_pole().is_some());
     let f = all(&table(5.0));
     assert_eq!(of(&f, "material-data-not-causal").len(), 1, "{f:?}");
 }

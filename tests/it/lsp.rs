@@ -170,15 +170,22 @@ fn completion_labels(c: &mut Client, uri: &str, position: Value) -> Vec<String> 
         .collect()
 }
 
+/// A scratch copy of the examples directory (kept while the guard lives)
+/// and its canonical path.
+fn examples_copy() -> (tempfile::TempDir, std::path::PathBuf) {
+    let tmp = tempfile::tempdir().unwrap();
+    let dir = tmp.path().canonicalize().unwrap();
+    copy_dir(&root().join("examples"), &dir);
+    (tmp, dir)
+}
+
 fn codes(d: &[Value]) -> Vec<&str> {
     d.iter().filter_map(|x| x["code"].as_str()).collect()
 }
 
 #[test]
 fn language_server_over_json_rpc() {
-    let tmp = tempfile::tempdir().unwrap();
-    let dir = tmp.path().canonicalize().unwrap();
-    copy_dir(&root().join("examples"), &dir);
+    let (_tmp, dir) = examples_copy();
     let board = dir.join("line-card-10l/board.stackup.yaml");
     let uri = uri_of(&board);
     let text = std::fs::read_to_string(&board).unwrap();
@@ -386,9 +393,7 @@ fn language_server_over_json_rpc() {
 /// A material from a library file: go to definition opens the library.
 #[test]
 fn definition_reaches_into_a_library_file() {
-    let tmp = tempfile::tempdir().unwrap();
-    let dir = tmp.path().canonicalize().unwrap();
-    copy_dir(&root().join("examples"), &dir);
+    let (_tmp, dir) = examples_copy();
     let board = dir.join("radar-sensor-6l/board.stackup.yaml");
     let uri = uri_of(&board);
     let text = std::fs::read_to_string(&board).unwrap();

@@ -466,7 +466,7 @@ pub(super) fn materials_section(s: &Stackup, a: &Analysis, stem: &str) -> Sectio
             })),
             Err(e) => figures.push(Block::Note(format!("{name}: no plot: {e}"))),
         }
-        if let Some(n) = model.multi_pole {
+        if let Some(n) = model.multi_pole() {
             figures.push(Block::Note(format!(
                 "{name}: its points vary more across the band than one Djordjevic-Sarkar term follows; a causal sum of {n} Debye terms meets them all and is used."
             )));
